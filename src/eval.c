@@ -1,0 +1,311 @@
+/* eval.c - compile expressions to straight-line code and run it over blocks. */
+#include "eval.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "expr-internal.h"
+#include "rat.h"
+#include "xalloc.h"
+
+typedef enum op { OP_CONST, OP_VAR, OP_ADD, OP_MUL, OP_POWI, OP_POWD, OP_POWX, OP_SQRT, OP_FUN } op;
+
+typedef struct instr {
+	op code;
+	double constant;  /* OP_CONST value; OP_MUL coefficient; OP_POWD exponent */
+	long power;	  /* OP_POWI exponent */
+	size_t a, b;	  /* operands (registers) */
+	size_t *list;	  /* OP_ADD, OP_MUL operands */
+	size_t nlist;
+	expr_builtin fn;  /* OP_FUN */
+	size_t var;	  /* OP_VAR */
+} instr;
+
+struct eval_prog {
+	instr *code;
+	size_t ncode, capcode;
+	size_t *outputs;
+	size_t nout, nvars;
+};
+
+typedef struct compiler {
+	expr_ctx *ctx;
+	eval_prog *prog;
+	expr_map regs; /* node -> NUM register index + 1 */
+	size_t nvars;
+	const expr *const *vars;
+	const expr *bad;
+} compiler;
+
+static size_t emit_instr(compiler *c, instr in)
+{
+	eval_prog *p = c->prog;
+	if (p->ncode == p->capcode) {
+		p->capcode = p->capcode ? p->capcode * 2 : 64;
+		p->code = xreallocarray(p->code, p->capcode, sizeof *p->code);
+	}
+	p->code[p->ncode] = in;
+	return p->ncode++;
+}
+
+static bool compile_node(compiler *c, const expr *e, size_t *reg);
+
+static bool compile_power(compiler *c, const expr *base, const expr *exponent, size_t *reg)
+{
+	size_t b;
+	if (!compile_node(c, base, &b))
+		return false;
+	if (exponent->kind == EXPR_NUM) {
+		const __mpq_struct *q = exponent->u.num;
+		if (rat_fits_long(q)) {
+			*reg = emit_instr(c, (instr){.code = OP_POWI, .a = b, .power = mpz_get_si(mpq_numref(q))});
+		} else if (mpq_cmp_ui(q, 1, 2) == 0) {
+			*reg = emit_instr(c, (instr){.code = OP_SQRT, .a = b});
+		} else {
+			*reg = emit_instr(c, (instr){.code = OP_POWD, .a = b, .constant = rat_to_double(q)});
+		}
+		return true;
+	}
+	size_t x;
+	if (!compile_node(c, exponent, &x))
+		return false;
+	*reg = emit_instr(c, (instr){.code = OP_POWX, .a = b, .b = x});
+	return true;
+}
+
+static bool compile_node(compiler *c, const expr *e, size_t *reg)
+{
+	const expr *known = expr_map_get(&c->regs, e);
+	if (known) {
+		*reg = (size_t)mpz_get_ui(mpq_numref(known->u.num)) - 1;
+		return true;
+	}
+	switch (e->kind) {
+	case EXPR_NUM:
+		*reg = emit_instr(c, (instr){.code = OP_CONST, .constant = rat_to_double(e->u.num)});
+		break;
+	case EXPR_SYM: {
+		size_t v = 0;
+		while (v < c->nvars && c->vars[v] != e)
+			v++;
+		if (v == c->nvars) {
+			c->bad = e;
+			return false;
+		}
+		*reg = emit_instr(c, (instr){.code = OP_VAR, .var = v});
+		break;
+	}
+	case EXPR_ADD: {
+		size_t *list = xmalloc(e->nops * sizeof *list);
+		for (size_t i = 0; i < e->nops; i++)
+			if (!compile_node(c, e->u.add.terms[i], &list[i])) {
+				free(list);
+				return false;
+			}
+		*reg = emit_instr(c, (instr){.code = OP_ADD, .list = list, .nlist = e->nops});
+		break;
+	}
+	case EXPR_MUL: {
+		size_t *list = xmalloc(e->nops * sizeof *list);
+		for (size_t i = 0; i < e->nops; i++)
+			if (!compile_power(c, e->u.mul.bases[i], e->u.mul.exps[i], &list[i])) {
+				free(list);
+				return false;
+			}
+		*reg = emit_instr(c, (instr){.code = OP_MUL, .list = list, .nlist = e->nops,
+					     .constant = rat_to_double(e->u.mul.coef)});
+		break;
+	}
+	case EXPR_FUN: {
+		size_t a;
+		if (!compile_node(c, e->u.fun.arg, &a))
+			return false;
+		*reg = emit_instr(c, (instr){.code = OP_FUN, .a = a, .fn = e->u.fun.fn});
+		break;
+	}
+	case EXPR_FAPP:
+		c->bad = e;
+		return false;
+	}
+	expr_map_put(&c->regs, e, expr_int(c->ctx, (long)*reg + 1));
+	return true;
+}
+
+eval_prog *eval_compile(expr_ctx *ctx, size_t nout, const expr *const *outputs, size_t nvars,
+			const expr *const *vars, const expr **bad)
+{
+	eval_prog *prog = xcalloc(1, sizeof *prog);
+	prog->nout = nout;
+	prog->nvars = nvars;
+	prog->outputs = xmalloc((nout ? nout : 1) * sizeof *prog->outputs);
+	compiler c = {.ctx = ctx, .prog = prog, .nvars = nvars, .vars = vars};
+	for (size_t o = 0; o < nout; o++) {
+		if (!outputs[o] || !compile_node(&c, outputs[o], &prog->outputs[o])) {
+			if (bad)
+				*bad = c.bad;
+			expr_map_free(&c.regs);
+			eval_free(prog);
+			return NULL;
+		}
+	}
+	expr_map_free(&c.regs);
+	return prog;
+}
+
+void eval_free(eval_prog *prog)
+{
+	if (!prog)
+		return;
+	for (size_t i = 0; i < prog->ncode; i++)
+		free(prog->code[i].list);
+	free(prog->code);
+	free(prog->outputs);
+	free(prog);
+}
+
+size_t eval_size(const eval_prog *prog)
+{
+	return prog->ncode;
+}
+
+double eval_ncdf(double x)
+{
+	return 0.5 * erfc(-x / sqrt(2.0));
+}
+
+double eval_npdf(double x)
+{
+	return 0.39894228040143267794 * exp(-0.5 * x * x);
+}
+
+static double apply_builtin(expr_builtin fn, double x)
+{
+	switch (fn) {
+	case EXPR_F_EXP: return exp(x);
+	case EXPR_F_LOG: return log(x);
+	case EXPR_F_SIN: return sin(x);
+	case EXPR_F_COS: return cos(x);
+	case EXPR_F_TAN: return tan(x);
+	case EXPR_F_SINH: return sinh(x);
+	case EXPR_F_COSH: return cosh(x);
+	case EXPR_F_TANH: return tanh(x);
+	case EXPR_F_ERF: return erf(x);
+	case EXPR_F_NCDF: return eval_ncdf(x);
+	case EXPR_F_NPDF: return eval_npdf(x);
+	case EXPR_F_ABS: return fabs(x);
+	case EXPR_F_COUNT: break;
+	}
+	return NAN;
+}
+
+static double powi(double x, long n)
+{
+	if (n < 0)
+		return 1.0 / powi(x, -n);
+	double result = 1.0;
+	while (n) {
+		if (n & 1)
+			result *= x;
+		x *= x;
+		n >>= 1;
+	}
+	return result;
+}
+
+enum { BLOCK = 64 };
+
+void eval_run(const eval_prog *prog, size_t npoints, const double *vars, double *outputs)
+{
+	double *regs = xmalloc((prog->ncode ? prog->ncode : 1) * BLOCK * sizeof *regs);
+	for (size_t start = 0; start < npoints; start += BLOCK) {
+		size_t n = npoints - start < BLOCK ? npoints - start : BLOCK;
+		for (size_t i = 0; i < prog->ncode; i++) {
+			const instr *in = &prog->code[i];
+			double *r = regs + i * BLOCK;
+			switch (in->code) {
+			case OP_CONST:
+				for (size_t p = 0; p < n; p++)
+					r[p] = in->constant;
+				break;
+			case OP_VAR:
+				memcpy(r, vars + in->var * npoints + start, n * sizeof *r);
+				break;
+			case OP_ADD:
+				memcpy(r, regs + in->list[0] * BLOCK, n * sizeof *r);
+				for (size_t k = 1; k < in->nlist; k++) {
+					const double *x = regs + in->list[k] * BLOCK;
+					for (size_t p = 0; p < n; p++)
+						r[p] += x[p];
+				}
+				break;
+			case OP_MUL:
+				for (size_t p = 0; p < n; p++)
+					r[p] = in->constant;
+				for (size_t k = 0; k < in->nlist; k++) {
+					const double *x = regs + in->list[k] * BLOCK;
+					for (size_t p = 0; p < n; p++)
+						r[p] *= x[p];
+				}
+				break;
+			case OP_POWI: {
+				const double *x = regs + in->a * BLOCK;
+				if (in->power == 2)
+					for (size_t p = 0; p < n; p++)
+						r[p] = x[p] * x[p];
+				else if (in->power == -1)
+					for (size_t p = 0; p < n; p++)
+						r[p] = 1.0 / x[p];
+				else
+					for (size_t p = 0; p < n; p++)
+						r[p] = powi(x[p], in->power);
+				break;
+			}
+			case OP_SQRT: {
+				const double *x = regs + in->a * BLOCK;
+				for (size_t p = 0; p < n; p++)
+					r[p] = sqrt(x[p]);
+				break;
+			}
+			case OP_POWD: {
+				const double *x = regs + in->a * BLOCK;
+				for (size_t p = 0; p < n; p++)
+					r[p] = pow(x[p], in->constant);
+				break;
+			}
+			case OP_POWX: {
+				const double *x = regs + in->a * BLOCK, *y = regs + in->b * BLOCK;
+				for (size_t p = 0; p < n; p++)
+					r[p] = pow(x[p], y[p]);
+				break;
+			}
+			case OP_FUN: {
+				const double *x = regs + in->a * BLOCK;
+				for (size_t p = 0; p < n; p++)
+					r[p] = apply_builtin(in->fn, x[p]);
+				break;
+			}
+			}
+		}
+		for (size_t o = 0; o < prog->nout; o++)
+			memcpy(outputs + o * npoints + start, regs + prog->outputs[o] * BLOCK, n * sizeof(double));
+	}
+	free(regs);
+}
+
+double eval_at(expr_ctx *ctx, const expr *e, size_t nvars, const expr *const *vars,
+	       const double *values, bool *ok)
+{
+	eval_prog *prog = eval_compile(ctx, 1, &e, nvars, vars, NULL);
+	if (!prog) {
+		if (ok)
+			*ok = false;
+		return NAN;
+	}
+	double result;
+	eval_run(prog, 1, values, &result);
+	eval_free(prog);
+	if (ok)
+		*ok = true;
+	return result;
+}

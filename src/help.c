@@ -1,0 +1,110 @@
+/* help.c - help texts, one row per topic, each with a runnable example. */
+#include "help.h"
+
+#include <stddef.h>
+#include <string.h>
+
+#define HELP_TOPICS(X)                                                                            \
+	X("param", "param NAME, ...  |  param NAME in [LO, HI]  |  param NAME, ... > 0\n"           \
+		   "  Declare real constants, optionally with a range or a sign.\n"                   \
+		   "  example:  param mu, sigma > 0\n")                                              \
+	X("assume", "assume NAME > 0, NAME >= 0, NAME in [LO, HI]\n"                                  \
+		    "  Positivity or a range; simplification rules such as log(x*y) = log x + log y\n" \
+		    "  fire only under them.  example:  assume S > 0\n")                               \
+	X("noise", "noise NAME, ...\n"                                                                \
+		   "  Independent standard Brownian motions; dNAME is the increment.\n"               \
+		   "  example:  noise W, B\n")                                                        \
+	X("corr", "corr(W, B) = EXPR\n"                                                               \
+		  "  Correlation of two noises: dW*dB = EXPR*dt (default 0).\n"                       \
+		  "  example:  corr(W, B) = rho\n")                                                   \
+	X("func", "func NAME(ARG, ...)\n"                                                             \
+		  "  An unknown smooth function; its partials print as f_x, f_tx.\n"                  \
+		  "  example:  func f(t, x)\n")                                                       \
+	X("sde", "dX = DRIFT*dt + DIFFUSION*dW + ...\n"                                               \
+		 "  An Ito SDE; it declares the state X.\n"                                           \
+		 "  example:  dS = mu*S*dt + sigma*S*dW\n")                                           \
+	X("let", "let NAME = EXPR\n"                                                                  \
+		 "  A named derived process.  example:  let Y = log(S)\n")                            \
+	X("d", "d EXPR\n"                                                                             \
+	       "  The Ito differential: d(EXPR) = (drift)*dt + (b1)*dW + ...\n"                       \
+	       "  d(EXPR) before a parenthesis is the operator, so d(S)*d(S) is a product.\n"         \
+	       "  example:  d log(S)\n")                                                              \
+	X("drift", "drift EXPR\n  The dt part of d EXPR.  example:  drift log(S)\n")                  \
+	X("diffusion", "diffusion EXPR\n  The noise parts of d EXPR.  example:  diffusion log(S)\n")  \
+	X("generator", "generator EXPR\n  The generator applied to EXPR.  example:  generator S^2\n") \
+	X("qv", "qv EXPR  |  qv EXPR, EXPR\n"                                                         \
+		"  Quadratic variation rate d<X>/dt, or covariation rate d<X,Y>/dt.\n"                \
+		"  example:  qv log(S)\n")                                                            \
+	X("pde", "pde V(t, S) [discount EXPR]\n"                                                      \
+		 "  The backward equation V_t + L V - r V = 0 that makes the discounted V\n"          \
+		 "  a martingale.  example:  pde V(t, S) discount r\n")                               \
+	X("ito", "ito X\n  The SDE of the state X in Ito form.  example:  ito X\n")                   \
+	X("stratonovich", "stratonovich X  |  stratonovich dX = ...\n"                                \
+			  "  Show a state in Stratonovich form, or declare one in it.\n"              \
+			  "  example:  stratonovich dX = a*X*dt + b*X*dW\n")                          \
+	X("measure", "measure Q: dW = dZ - lambda*dt, ...\n"                                          \
+		     "  A change of measure (Girsanov): Z is a Brownian motion under Q.  Noises\n"    \
+		     "  correlated with a listed one get the implied shift.\n"                        \
+		     "  example:  measure Q: dW = dZ - lambda*dt\n")                                  \
+	X("under", "QUERY under Q\n  Any query, taken under the measure Q.  example:  d S under Q\n") \
+	X("state", "state NEW = EXPR where OLD = INVERSE\n"                                           \
+		   "  Replace a state by a new one; the model is rewritten in it.\n"                  \
+		   "  example:  state x = log(S) where S = exp(x)\n")                                 \
+	X("claim", "claim LHS = RHS\n"                                                                \
+		   "  Verify an identity of expressions or differentials: exact comparison of\n"      \
+		   "  canonical forms, then a randomized test at points inside the declared\n"        \
+		   "  domains.  A failed claim makes the exit status 1.\n"                            \
+		   "  example:  claim d log(S) = (mu - sigma^2/2)*dt + sigma*dW\n")                   \
+	X("check", "check [d] EXPR [= DIFFERENTIAL] at NAME=VALUE, ... [over T=1, steps=..., paths=...]\n" \
+		   "  A numerical cross-check by finite differences and simulation.\n"                \
+		   "  example:  check d log(S) at S=100, mu=0.05, sigma=0.2\n")                       \
+	X("partial", "partial(EXPR, x [, y ...])\n  A partial derivative.  example:  partial(S^3, S)\n") \
+	X("show", "show [NAME]\n  The model (or one name) as a script.  example:  show\n")           \
+	X("save", "save FILE\n  Write the model as a script that load reproduces.  example:  save model.itox\n") \
+	X("load", "load FILE\n  Run a script in this session.  example:  load model.itox\n")          \
+	X("format", "format text|latex|c|json\n  The output format.  example:  format latex\n")       \
+	X("help", "help [TOPIC]\n  This text.  example:  help claim\n")                               \
+	X("quit", "quit\n  Leave (Ctrl-D too).  example:  quit\n")
+
+typedef struct help_row {
+	const char *topic, *text;
+} help_row;
+
+static const help_row rows[] = {
+#define HELP_ROW(topic, text) {topic, text},
+	HELP_TOPICS(HELP_ROW)
+#undef HELP_ROW
+};
+
+const char *const help_topics[] = {
+#define HELP_NAME(topic, text) topic,
+	HELP_TOPICS(HELP_NAME)
+#undef HELP_NAME
+	NULL};
+
+static const char overview[] =
+	"itox: symbolic Ito calculus.  Statements (help TOPIC for each):\n"
+	"  declarations  param assume noise corr func sde let measure state\n"
+	"  queries       EXPR  d drift diffusion generator qv pde ito stratonovich under\n"
+	"  verification  claim check\n"
+	"  session       show save load format help quit\n"
+	"Example:\n"
+	"  param mu, sigma > 0\n"
+	"  noise W\n"
+	"  dS = mu*S*dt + sigma*S*dW\n"
+	"  d log(S)\n"
+	"Caution: results are mathematics, not advice.  A model's assumptions must be\n"
+	"validated, and results reviewed under your own model-risk policy, before they\n"
+	"are used to price or hedge anything.\n";
+
+const char *help_text(const char *topic)
+{
+	if (!topic || !*topic)
+		return overview;
+	for (size_t i = 0; i < sizeof rows / sizeof rows[0]; i++)
+		if (strcmp(rows[i].topic, topic) == 0)
+			return rows[i].text;
+	if (strcmp(topic, "dS") == 0 || strcmp(topic, "SDE") == 0)
+		return help_text("sde");
+	return NULL;
+}

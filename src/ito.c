@@ -1,0 +1,253 @@
+/* ito.c - Itô's formula in n dimensions with correlated noises.
+ *
+ * For f(t, X_1..X_n) with dX_i = mu_i dt + sum_k b_ik dW_k and
+ * dW_k dW_l = rho_kl dt (Shreve, Stochastic Calculus for Finance II, 4.6):
+ *   df = (f_t + sum_i mu_i f_i + 1/2 sum_ij C_ij f_ij) dt + sum_k (sum_i b_ik f_i) dW_k,
+ *   C_ij = sum_kl b_ik b_jl rho_kl.
+ * Stratonovich to Itô (Kloeden and Platen, 4.9, with correlated noises):
+ *   mu_i = a_i + 1/2 sum_k sum_j (d b_ik / d X_j) sum_l b_jl rho_lk.
+ */
+#include "ito.h"
+
+#include <stdlib.h>
+
+#include "diff.h"
+#include "xalloc.h"
+
+void ito_diff_zero(ito_diff *d, const model *m)
+{
+	d->n = m->nnoises;
+	d->dt = expr_int(m->ctx, 0);
+	d->dw = xcalloc(d->n ? d->n : 1, sizeof *d->dw);
+	for (size_t k = 0; k < d->n; k++)
+		d->dw[k] = d->dt;
+}
+
+void ito_diff_free(ito_diff *d)
+{
+	free(d->dw);
+	d->dw = NULL;
+	d->n = 0;
+}
+
+bool ito_diff_failed(const ito_diff *d)
+{
+	if (!d->dt)
+		return true;
+	for (size_t k = 0; k < d->n; k++)
+		if (!d->dw[k])
+			return true;
+	return false;
+}
+
+static const expr *coef(const ito_diff *d, size_t k, const model *m)
+{
+	return k < d->n ? d->dw[k] : expr_int(m->ctx, 0);
+}
+
+void ito_diff_add(const model *m, const ito_diff *a, const ito_diff *b, ito_diff *out)
+{
+	ito_diff r;
+	ito_diff_zero(&r, m);
+	r.dt = expr_add(m->ctx, a->dt, b->dt);
+	for (size_t k = 0; k < r.n; k++)
+		r.dw[k] = expr_add(m->ctx, coef(a, k, m), coef(b, k, m));
+	*out = r;
+}
+
+void ito_diff_scale(const model *m, const ito_diff *a, const expr *factor, ito_diff *out)
+{
+	ito_diff r;
+	ito_diff_zero(&r, m);
+	r.dt = expr_mul(m->ctx, a->dt, factor);
+	for (size_t k = 0; k < r.n; k++)
+		r.dw[k] = expr_mul(m->ctx, coef(a, k, m), factor);
+	*out = r;
+}
+
+const expr *ito_covariation(model *m, const ito_diff *a, const ito_diff *b)
+{
+	expr_ctx *ctx = m->ctx;
+	size_t n = m->nnoises;
+	const expr **terms = xmalloc((n * n + 1) * sizeof *terms);
+	size_t nterms = 0;
+	for (size_t k = 0; k < n; k++) {
+		const expr *ak = coef(a, k, m);
+		if (ak && expr_is_zero(ak))
+			continue;
+		for (size_t l = 0; l < n; l++) {
+			const expr *bl = coef(b, l, m);
+			const expr *rho = model_corr(m, k, l);
+			if ((bl && expr_is_zero(bl)) || expr_is_zero(rho))
+				continue;
+			terms[nterms++] = expr_mul_n(ctx, 3, (const expr *[]){ak, bl, rho});
+		}
+	}
+	const expr *result = expr_add_n(ctx, nterms, terms);
+	free(terms);
+	return result;
+}
+
+void ito_mul(model *m, const ito_diff *a, const ito_diff *b, ito_diff *out)
+{
+	/* dt*dt = 0, dt*dW = 0: only the noise parts meet */
+	ito_diff r;
+	ito_diff_zero(&r, m);
+	r.dt = ito_covariation(m, a, b);
+	*out = r;
+}
+
+/* Stratonovich correction 1/2 sum_k sum_j (d b_ik/d X_j) d<X_j, W_k>/dt. */
+static const expr *stratonovich_correction(model *m, const model_sde *sde)
+{
+	expr_ctx *ctx = m->ctx;
+	expr_vec terms = {0};
+	for (size_t k = 0; k < sde->ndiffusion && k < m->nnoises; k++) {
+		const expr *b = sde->diffusion[k];
+		if (!b || expr_is_zero(b))
+			continue;
+		expr_vec symbols = {0};
+		expr_free_symbols(ctx, b, &symbols);
+		for (size_t s = 0; s < symbols.n; s++) {
+			const expr *x = symbols.items[s];
+			const model_sde *other = model_sde_of(m, x);
+			long noise = model_noise_index(m, x);
+			const expr *db = diff(ctx, b, x);
+			if (!db || expr_is_zero(db))
+				continue;
+			/* d<X_j, W_k>/dt = sum_l b_jl rho_lk */
+			const expr *cross;
+			if (other) {
+				expr_vec parts = {0};
+				for (size_t l = 0; l < other->ndiffusion && l < m->nnoises; l++)
+					expr_vec_push(&parts, expr_mul(ctx, other->diffusion[l], model_corr(m, l, k)));
+				cross = expr_add_n(ctx, parts.n, parts.items);
+				expr_vec_free(&parts);
+			} else if (noise >= 0) {
+				cross = model_corr(m, (size_t)noise, k);
+			} else {
+				continue;
+			}
+			expr_vec_push(&terms, expr_mul(ctx, db, cross));
+		}
+		expr_vec_free(&symbols);
+	}
+	const expr *sum = expr_add_n(ctx, terms.n, terms.items);
+	expr_vec_free(&terms);
+	return expr_mul(ctx, expr_rat(ctx, 1, 2), sum);
+}
+
+const expr *ito_state_ito_drift(model *m, const model_sde *sde)
+{
+	if (!sde->stratonovich)
+		return sde->drift;
+	return expr_add(m->ctx, sde->drift, stratonovich_correction(m, sde));
+}
+
+const expr *ito_state_stratonovich_drift(model *m, const model_sde *sde)
+{
+	if (sde->stratonovich)
+		return sde->drift;
+	return expr_sub(m->ctx, sde->drift, stratonovich_correction(m, sde));
+}
+
+bool ito_dynamics(model *m, const model_measure *q, const expr *sym, ito_diff *out)
+{
+	expr_ctx *ctx = m->ctx;
+	ito_diff_zero(out, m);
+	if (sym == m->time) {
+		out->dt = expr_int(ctx, 1);
+		return true;
+	}
+	long noise = model_noise_index(m, sym);
+	if (noise >= 0) {
+		out->dw[noise] = expr_int(ctx, 1);
+		if (q)
+			out->dt = q->shift[noise];
+		return true;
+	}
+	const model_sde *sde = model_sde_of(m, sym);
+	if (!sde)
+		return false;
+	out->dt = ito_state_ito_drift(m, sde);
+	for (size_t k = 0; k < out->n && k < sde->ndiffusion; k++)
+		out->dw[k] = sde->diffusion[k];
+	if (q) {
+		/* b dW = b dZ + b*shift dt */
+		for (size_t k = 0; k < out->n && k < q->nnoises; k++)
+			if (!expr_is_zero(q->shift[k]))
+				out->dt = expr_add(ctx, out->dt, expr_mul(ctx, out->dw[k], q->shift[k]));
+	}
+	return true;
+}
+
+void ito_d(model *m, const model_measure *q, const expr *f, ito_diff *out)
+{
+	expr_ctx *ctx = m->ctx;
+	ito_diff_zero(out, m);
+	if (!f) {
+		out->dt = NULL;
+		return;
+	}
+	/* the processes f depends on, with their dynamics */
+	expr_vec symbols = {0};
+	expr_free_symbols(ctx, f, &symbols);
+	size_t nproc = 0;
+	const expr **procs = xmalloc((symbols.n + 1) * sizeof *procs);
+	ito_diff *dyn = xcalloc(symbols.n + 1, sizeof *dyn);
+	const expr **first = xcalloc(symbols.n + 1, sizeof *first);
+	for (size_t i = 0; i < symbols.n; i++) {
+		if (!ito_dynamics(m, q, symbols.items[i], &dyn[nproc])) {
+			ito_diff_free(&dyn[nproc]);
+			continue;
+		}
+		procs[nproc] = symbols.items[i];
+		first[nproc] = diff(ctx, f, procs[nproc]);
+		nproc++;
+	}
+	expr_vec drift = {0};
+	for (size_t i = 0; i < nproc; i++) {
+		if (expr_is_zero(first[i]))
+			continue;
+		expr_vec_push(&drift, expr_mul(ctx, dyn[i].dt, first[i]));
+		for (size_t k = 0; k < out->n; k++)
+			if (!expr_is_zero(dyn[i].dw[k]))
+				out->dw[k] = expr_add(ctx, out->dw[k], expr_mul(ctx, dyn[i].dw[k], first[i]));
+	}
+	/* second-order terms: 1/2 C_ii f_ii + sum_{i<j} C_ij f_ij */
+	for (size_t i = 0; i < nproc; i++) {
+		if (expr_is_zero(first[i]) || expr_poll_interrupt(ctx))
+			continue;
+		for (size_t j = i; j < nproc; j++) {
+			if (expr_is_zero(first[j]))
+				continue;
+			const expr *c = ito_covariation(m, &dyn[i], &dyn[j]);
+			if (!c || expr_is_zero(c))
+				continue;
+			const expr *fij = diff(ctx, first[i], procs[j]);
+			if (fij && expr_is_zero(fij))
+				continue;
+			const expr *weight = i == j ? expr_rat(ctx, 1, 2) : expr_int(ctx, 1);
+			expr_vec_push(&drift, expr_mul_n(ctx, 3, (const expr *[]){weight, c, fij}));
+		}
+	}
+	out->dt = expr_add_n(ctx, drift.n, drift.items);
+	expr_vec_free(&drift);
+	for (size_t i = 0; i < nproc; i++)
+		ito_diff_free(&dyn[i]);
+	free(dyn);
+	free(procs);
+	free(first);
+	expr_vec_free(&symbols);
+}
+
+const expr *ito_pde(model *m, const model_measure *q, const expr *V, const expr *discount)
+{
+	ito_diff d;
+	ito_d(m, q, V, &d);
+	const expr *result = d.dt;
+	if (discount)
+		result = expr_sub(m->ctx, result, expr_mul(m->ctx, discount, V));
+	ito_diff_free(&d);
+	return result;
+}

@@ -1,0 +1,172 @@
+/* main.c - the itox program: command line, scripts, -e statements, the REPL. */
+#include <config.h>
+
+#include <getopt.h>
+#include <signal.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/time.h>
+#include <unistd.h>
+
+#include "repl.h"
+#include "session.h"
+#include "xalloc.h"
+
+static volatile sig_atomic_t interrupt_flag;
+static double time_limit;
+
+static void on_alarm(int sig)
+{
+	(void)sig;
+	interrupt_flag = 2;
+}
+
+/* Arm the per-statement time limit (a timer that raises the interrupt flag). */
+static void arm_timer(void *data)
+{
+	(void)data;
+	if (interrupt_flag == 2)
+		interrupt_flag = 0;
+	if (time_limit <= 0)
+		return;
+	struct itimerval timer = {{0, 0}, {0, 0}};
+	timer.it_value.tv_sec = (time_t)time_limit;
+	timer.it_value.tv_usec = (suseconds_t)((time_limit - (double)(time_t)time_limit) * 1e6);
+	if (timer.it_value.tv_sec == 0 && timer.it_value.tv_usec == 0)
+		timer.it_value.tv_usec = 1;
+	setitimer(ITIMER_REAL, &timer, NULL);
+}
+
+static void usage(FILE *out)
+{
+	fputs("Usage: itox [OPTION]... [FILE]...\n"
+	      "Symbolic Ito calculus: the exact dynamics of transformed SDE states, generators\n"
+	      "and backward PDEs, Stratonovich and Girsanov, claims that verify derivations.\n"
+	      "\n"
+	      "With FILEs, run them in order in one session.  With -e, run the statements.\n"
+	      "Otherwise run the REPL if standard input is a terminal, or read it as a script.\n"
+	      "\n"
+	      "  -e STATEMENT        run STATEMENT (repeatable)      itox -e 'param a' -e 'log(exp(a))'\n"
+	      "      --format=FMT    text, latex, c or json          itox --format=latex model.itox\n"
+	      "      --seed=N        seed of the random tests         itox --seed=7 claims.itox\n"
+	      "      --time-limit=S  seconds allowed per statement    itox --time-limit=10 big.itox\n"
+	      "      --quiet         no banner in the REPL            itox --quiet\n"
+	      "      --help          this text                        itox --help\n"
+	      "      --version       the version                      itox --version\n"
+	      "\n"
+	      "Exit status: 0 all went well and every claim held; 1 a claim or check failed;\n"
+	      "2 an error in the input; 3 an internal limit (size, time) was hit.\n"
+	      "\n"
+	      "Results are mathematics, not advice: a model's assumptions must be validated and\n"
+	      "results reviewed under your own model-risk policy before they price or hedge anything.\n",
+	      out);
+}
+
+int main(int argc, char **argv)
+{
+	enum { OPT_FORMAT = 256, OPT_SEED, OPT_QUIET, OPT_HELP, OPT_VERSION, OPT_TIME };
+	static const struct option options[] = {
+		{"format", required_argument, NULL, OPT_FORMAT},
+		{"seed", required_argument, NULL, OPT_SEED},
+		{"quiet", no_argument, NULL, OPT_QUIET},
+		{"help", no_argument, NULL, OPT_HELP},
+		{"version", no_argument, NULL, OPT_VERSION},
+		{"time-limit", required_argument, NULL, OPT_TIME},
+		{NULL, 0, NULL, 0},
+	};
+	session_options opt = {0};
+	opt.seed = 1;
+	char **statements = xcalloc((size_t)argc + 1, sizeof *statements);
+	size_t nstatements = 0;
+	int c;
+	while ((c = getopt_long(argc, argv, "e:", options, NULL)) != -1) {
+		switch (c) {
+		case 'e':
+			statements[nstatements++] = optarg;
+			break;
+		case OPT_FORMAT:
+			if (strcmp(optarg, "text") == 0)
+				opt.format = FORMAT_TEXT;
+			else if (strcmp(optarg, "latex") == 0)
+				opt.format = FORMAT_LATEX;
+			else if (strcmp(optarg, "c") == 0)
+				opt.format = FORMAT_C;
+			else if (strcmp(optarg, "json") == 0)
+				opt.format = FORMAT_JSON;
+			else {
+				fprintf(stderr, "itox: unknown format '%s' (text, latex, c or json)\n", optarg);
+				free(statements);
+				return 2;
+			}
+			break;
+		case OPT_SEED: {
+			char *end;
+			opt.seed = strtoul(optarg, &end, 10);
+			if (*end || !*optarg) {
+				fprintf(stderr, "itox: --seed needs a non-negative integer, not '%s'\n", optarg);
+				free(statements);
+				return 2;
+			}
+			break;
+		}
+		case OPT_TIME: {
+			char *end;
+			time_limit = strtod(optarg, &end);
+			if (*end || !(time_limit > 0)) {
+				fprintf(stderr, "itox: --time-limit needs a positive number of seconds, not '%s'\n", optarg);
+				free(statements);
+				return 2;
+			}
+			break;
+		}
+		case OPT_QUIET:
+			opt.quiet = true;
+			break;
+		case OPT_HELP:
+			usage(stdout);
+			free(statements);
+			return 0;
+		case OPT_VERSION:
+			printf("itox %s\n", PACKAGE_VERSION);
+			free(statements);
+			return 0;
+		default:
+			fputs("Try 'itox --help'.\n", stderr);
+			free(statements);
+			return 2;
+		}
+	}
+	opt.interrupt = &interrupt_flag;
+	opt.time_limit = time_limit;
+	if (time_limit > 0) {
+		signal(SIGALRM, on_alarm);
+		opt.before_statement = arm_timer;
+	}
+	session *s = session_new(&opt);
+	int status = 0;
+	for (int i = optind; i < argc && session_status(s) < 2 && !session_quit_requested(s); i++)
+		session_run_file(s, argv[i]);
+	for (size_t i = 0; i < nstatements && session_status(s) < 2 && !session_quit_requested(s); i++) {
+		char origin[32];
+		snprintf(origin, sizeof origin, "-e:%zu", i + 1);
+		session_run(s, statements[i], strlen(statements[i]), origin);
+	}
+	if (optind == argc && nstatements == 0) {
+		if (isatty(STDIN_FILENO)) {
+			repl_run(s, &interrupt_flag, opt.quiet);
+		} else {
+			xbuf buf = {0};
+			char chunk[65536];
+			size_t n;
+			while ((n = fread(chunk, 1, sizeof chunk, stdin)) > 0)
+				xbuf_putn(&buf, chunk, n);
+			session_run(s, buf.data ? buf.data : "", buf.length, "<stdin>");
+			xbuf_free(&buf);
+		}
+	}
+	status = session_status(s);
+	session_free(s);
+	free(statements);
+	return status;
+}

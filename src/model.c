@@ -1,0 +1,185 @@
+/* model.c - the tables of a model. */
+#include "model.h"
+
+#include <stdlib.h>
+#include <string.h>
+
+#include "xalloc.h"
+
+void model_init(model *m, expr_ctx *ctx)
+{
+	memset(m, 0, sizeof *m);
+	m->ctx = ctx;
+	m->time = expr_sym(ctx, "t");
+}
+
+void model_free(model *m)
+{
+	for (size_t i = 0; i < m->nentries; i++)
+		free(m->entries[i].name);
+	free(m->entries);
+	free(m->noises);
+	free(m->corr);
+	for (size_t i = 0; i < m->nsdes; i++)
+		free(m->sdes[i].diffusion);
+	free(m->sdes);
+	for (size_t i = 0; i < m->nmeasures; i++) {
+		free(m->measures[i].name);
+		free(m->measures[i].names);
+		free(m->measures[i].shift);
+	}
+	free(m->measures);
+	memset(m, 0, sizeof *m);
+}
+
+model_entry *model_lookup(model *m, const char *name)
+{
+	for (size_t i = 0; i < m->nentries; i++)
+		if (strcmp(m->entries[i].name, name) == 0)
+			return &m->entries[i];
+	return NULL;
+}
+
+model_entry *model_add(model *m, const char *name, model_kind kind, const expr *sym)
+{
+	model_entry *entry = model_lookup(m, name);
+	if (!entry) {
+		if (m->nentries == m->capentries) {
+			m->capentries = m->capentries ? m->capentries * 2 : 16;
+			m->entries = xreallocarray(m->entries, m->capentries, sizeof *m->entries);
+		}
+		entry = &m->entries[m->nentries++];
+		memset(entry, 0, sizeof *entry);
+		entry->name = xstrdup(name);
+	}
+	entry->kind = kind;
+	entry->sym = sym;
+	return entry;
+}
+
+const char *model_kind_name(model_kind kind)
+{
+	static const char *const names[] = {"parameter", "state", "noise", "function",
+					    "derived process", "function argument", "time", "measure"};
+	return names[kind];
+}
+
+size_t model_add_noise(model *m, const expr *sym)
+{
+	size_t n = m->nnoises + 1;
+	const expr **corr = xcalloc(n * n, sizeof *corr);
+	for (size_t i = 0; i < m->nnoises; i++)
+		for (size_t j = 0; j < m->nnoises; j++)
+			corr[i * n + j] = m->corr[i * m->nnoises + j];
+	free(m->corr);
+	m->corr = corr;
+	m->noises = xreallocarray(m->noises, n, sizeof *m->noises);
+	m->noises[m->nnoises] = sym;
+	m->nnoises = n;
+	for (size_t i = 0; i < m->nsdes; i++) {
+		model_sde *sde = &m->sdes[i];
+		sde->diffusion = xreallocarray(sde->diffusion, n, sizeof *sde->diffusion);
+		for (size_t k = sde->ndiffusion; k < n; k++)
+			sde->diffusion[k] = expr_int(m->ctx, 0);
+		sde->ndiffusion = n;
+	}
+	for (size_t i = 0; i < m->nmeasures; i++) {
+		model_measure *q = &m->measures[i];
+		q->names = xreallocarray(q->names, n, sizeof *q->names);
+		q->shift = xreallocarray(q->shift, n, sizeof *q->shift);
+		q->names[n - 1] = sym;
+		q->shift[n - 1] = expr_int(m->ctx, 0);
+		q->nnoises = n;
+	}
+	return n - 1;
+}
+
+long model_noise_index(const model *m, const expr *sym)
+{
+	for (size_t i = 0; i < m->nnoises; i++)
+		if (m->noises[i] == sym)
+			return (long)i;
+	return -1;
+}
+
+const expr *model_corr(const model *m, size_t i, size_t j)
+{
+	if (i == j)
+		return expr_int(m->ctx, 1);
+	const expr *value = m->corr[i * m->nnoises + j];
+	return value ? value : expr_int(m->ctx, 0);
+}
+
+void model_set_corr(model *m, size_t i, size_t j, const expr *value)
+{
+	m->corr[i * m->nnoises + j] = value;
+	m->corr[j * m->nnoises + i] = value;
+}
+
+model_sde *model_sde_of(model *m, const expr *state)
+{
+	for (size_t i = 0; i < m->nsdes; i++)
+		if (m->sdes[i].state == state)
+			return &m->sdes[i];
+	return NULL;
+}
+
+model_sde *model_add_sde(model *m, const expr *state)
+{
+	model_sde *sde = model_sde_of(m, state);
+	if (!sde) {
+		m->sdes = xreallocarray(m->sdes, m->nsdes + 1, sizeof *m->sdes);
+		sde = &m->sdes[m->nsdes++];
+		memset(sde, 0, sizeof *sde);
+		sde->state = state;
+	}
+	free(sde->diffusion);
+	sde->diffusion = xcalloc(m->nnoises ? m->nnoises : 1, sizeof *sde->diffusion);
+	for (size_t k = 0; k < m->nnoises; k++)
+		sde->diffusion[k] = expr_int(m->ctx, 0);
+	sde->ndiffusion = m->nnoises;
+	sde->drift = expr_int(m->ctx, 0);
+	sde->stratonovich = false;
+	return sde;
+}
+
+void model_remove_sde(model *m, const expr *state)
+{
+	for (size_t i = 0; i < m->nsdes; i++)
+		if (m->sdes[i].state == state) {
+			free(m->sdes[i].diffusion);
+			memmove(&m->sdes[i], &m->sdes[i + 1], (m->nsdes - i - 1) * sizeof *m->sdes);
+			m->nsdes--;
+			return;
+		}
+}
+
+model_measure *model_measure_find(model *m, const char *name)
+{
+	for (size_t i = 0; i < m->nmeasures; i++)
+		if (strcmp(m->measures[i].name, name) == 0)
+			return &m->measures[i];
+	return NULL;
+}
+
+model_measure *model_add_measure(model *m, const char *name)
+{
+	model_measure *q = model_measure_find(m, name);
+	if (!q) {
+		m->measures = xreallocarray(m->measures, m->nmeasures + 1, sizeof *m->measures);
+		q = &m->measures[m->nmeasures++];
+		memset(q, 0, sizeof *q);
+		q->name = xstrdup(name);
+	} else {
+		free(q->names);
+		free(q->shift);
+	}
+	q->nnoises = m->nnoises;
+	q->names = xcalloc(m->nnoises ? m->nnoises : 1, sizeof *q->names);
+	q->shift = xcalloc(m->nnoises ? m->nnoises : 1, sizeof *q->shift);
+	for (size_t k = 0; k < m->nnoises; k++) {
+		q->names[k] = m->noises[k];
+		q->shift[k] = expr_int(m->ctx, 0);
+	}
+	return q;
+}

@@ -1,0 +1,84 @@
+/* model.h - names and their kinds, assumptions, correlations, SDEs, measures.
+ *
+ * A model owns no expressions (they belong to its expr_ctx); it owns its tables.
+ */
+#ifndef ITOX_MODEL_H
+#define ITOX_MODEL_H
+
+#include <stdbool.h>
+#include <stddef.h>
+
+#include "expr.h"
+
+typedef enum model_kind {
+	MODEL_PARAM, /* a real constant */
+	MODEL_STATE, /* a state with an SDE */
+	MODEL_NOISE, /* a standard Brownian motion */
+	MODEL_FUNC,  /* an unknown smooth function */
+	MODEL_LET,   /* a named derived expression */
+	MODEL_ARG,   /* an argument name of a func that is declared nothing else */
+	MODEL_TIME,  /* t */
+	MODEL_MEASURE,
+} model_kind;
+
+typedef struct model_entry {
+	char *name;
+	model_kind kind;
+	const expr *sym;   /* the symbol (also for a func) */
+	const expr *value; /* MODEL_LET: the definition */
+	const expr *lo, *hi; /* declared range, or NULL */
+	bool lo_strict, hi_strict;
+} model_entry;
+
+/* The SDE of a state: Itô coefficients, or Stratonovich ones as declared. */
+typedef struct model_sde {
+	const expr *state;
+	const expr *drift;	   /* as declared (Stratonovich drift if stratonovich) */
+	const expr **diffusion;	   /* one per noise, indexed like model->noises */
+	size_t ndiffusion;
+	bool stratonovich;
+} model_sde;
+
+/* A change of measure: under it, noise k is a Brownian motion named names[k],
+ * and dW_k(P) = dW_k(Q) + shift[k]*dt. */
+typedef struct model_measure {
+	char *name;
+	size_t nnoises;
+	const expr **names;
+	const expr **shift;
+} model_measure;
+
+typedef struct model {
+	expr_ctx *ctx;
+	const expr *time;
+	model_entry *entries;
+	size_t nentries, capentries;
+	const expr **noises; /* in declaration order */
+	size_t nnoises;
+	const expr **corr;   /* nnoises x nnoises, row-major; NULL entries mean 0 */
+	model_sde *sdes;     /* in declaration order */
+	size_t nsdes;
+	model_measure *measures;
+	size_t nmeasures;
+} model;
+
+void model_init(model *m, expr_ctx *ctx);
+void model_free(model *m);
+
+model_entry *model_lookup(model *m, const char *name);
+model_entry *model_add(model *m, const char *name, model_kind kind, const expr *sym);
+const char *model_kind_name(model_kind kind);
+
+size_t model_add_noise(model *m, const expr *sym); /* returns its index */
+long model_noise_index(const model *m, const expr *sym); /* -1 when not a noise */
+const expr *model_corr(const model *m, size_t i, size_t j); /* 1 on the diagonal */
+void model_set_corr(model *m, size_t i, size_t j, const expr *value);
+
+model_sde *model_sde_of(model *m, const expr *state); /* NULL when not a state */
+model_sde *model_add_sde(model *m, const expr *state);
+void model_remove_sde(model *m, const expr *state);
+
+model_measure *model_measure_find(model *m, const char *name);
+model_measure *model_add_measure(model *m, const char *name);
+
+#endif

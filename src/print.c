@@ -1,0 +1,1047 @@
+/* print.c - display trees and the text, LaTeX and C writers.
+ *
+ * build() turns a canonical node into a display tree: a sum's terms are
+ * grouped by their state part (the factors that involve time, a state, a noise
+ * or a generic function), and a factor common to every term is pulled out, so
+ * kappa*theta - kappa*v prints as kappa*(theta - v).  The writers then only
+ * decide spelling and parentheses.  Grouping never changes the value, so the
+ * text form parses back to the same canonical node.
+ */
+#include "print.h"
+
+#include <ctype.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "expr-internal.h"
+#include "rat.h"
+#include "xalloc.h"
+
+typedef enum dkind { D_NUM, D_SYM, D_FUN, D_FAPP, D_SUM, D_PROD, D_NEG, D_POWSUM } dkind;
+
+typedef struct dnode dnode;
+typedef struct dfactor {
+	dnode *base;
+	const expr *exponent; /* a NUM, or a symbolic exponent */
+	dnode *exp_display;   /* display of a symbolic exponent */
+	int rank;	      /* sort key for display order */
+} dfactor;
+
+struct dnode {
+	dkind kind;
+	mpq_t num;	   /* D_NUM value (>= 0); D_PROD coefficient (> 0) */
+	const expr *e;	   /* D_SYM, D_FUN, D_FAPP: the node */
+	dnode *child;	   /* D_FUN argument; D_NEG operand */
+	dnode **items;	   /* D_SUM terms; D_FAPP arguments */
+	size_t n;
+	dfactor *factors;  /* D_PROD */
+	size_t nfactors;
+};
+
+typedef struct printer {
+	expr_ctx *ctx;
+	prn_format format;
+	dnode **arena;
+	size_t narena, caparena;
+	expr_map rank_memo; /* node -> NUM holding its max symbol rank */
+} printer;
+
+static dnode *dnew(printer *p, dkind kind)
+{
+	dnode *d = xcalloc(1, sizeof *d);
+	d->kind = kind;
+	mpq_init(d->num);
+	if (p->narena == p->caparena) {
+		p->caparena = p->caparena ? p->caparena * 2 : 64;
+		p->arena = xreallocarray(p->arena, p->caparena, sizeof *p->arena);
+	}
+	p->arena[p->narena++] = d;
+	return d;
+}
+
+static void printer_free(printer *p)
+{
+	for (size_t i = 0; i < p->narena; i++) {
+		mpq_clear(p->arena[i]->num);
+		free(p->arena[i]->items);
+		free(p->arena[i]->factors);
+		free(p->arena[i]);
+	}
+	free(p->arena);
+	expr_map_free(&p->rank_memo);
+}
+
+/* ------------------------------------------------------------------ ranks */
+
+/* The highest display rank of a symbol in e; generic functions count as states. */
+static int max_rank(printer *p, const expr *e)
+{
+	switch (e->kind) {
+	case EXPR_NUM:
+		return 0;
+	case EXPR_SYM:
+		return e->u.sym.rank;
+	case EXPR_FAPP:
+		return PRN_RANK_STATE;
+	default:
+		break;
+	}
+	const expr *known = expr_map_get(&p->rank_memo, e);
+	if (known)
+		return (int)mpz_get_si(mpq_numref(known->u.num));
+	int best = 0;
+	if (e->kind == EXPR_ADD) {
+		for (size_t i = 0; i < e->nops; i++) {
+			int r = max_rank(p, e->u.add.terms[i]);
+			best = r > best ? r : best;
+		}
+	} else if (e->kind == EXPR_MUL) {
+		for (size_t i = 0; i < e->nops; i++) {
+			int r = max_rank(p, e->u.mul.bases[i]);
+			int s = max_rank(p, e->u.mul.exps[i]);
+			best = r > best ? r : best;
+			best = s > best ? s : best;
+		}
+	} else if (e->kind == EXPR_FUN) {
+		best = max_rank(p, e->u.fun.arg);
+	}
+	expr_map_put(&p->rank_memo, e, expr_int(p->ctx, best));
+	return best;
+}
+
+/* Display order key of a factor base: parameters, sums of parameters, time,
+ * states, noises; functions after symbols of their rank. */
+static int factor_rank(printer *p, const expr *base)
+{
+	int r = max_rank(p, base) * 4;
+	if (base->kind == EXPR_FUN || base->kind == EXPR_FAPP)
+		r += 2;
+	if (base->kind == EXPR_ADD)
+		r += r == 0 ? 1 : 3;
+	return r;
+}
+
+/* ------------------------------------------------------------------ building */
+
+static dnode *build(printer *p, const expr *e);
+
+static int compare_dfactors(const void *x, const void *y)
+{
+	const dfactor *a = x, *b = y;
+	if (a->rank != b->rank)
+		return a->rank < b->rank ? -1 : 1;
+	return 0;
+}
+
+static dnode *build_mul(printer *p, const expr *e)
+{
+	dnode *d = dnew(p, D_PROD);
+	mpq_abs(d->num, e->u.mul.coef);
+	d->factors = xcalloc(e->nops, sizeof *d->factors);
+	d->nfactors = e->nops;
+	for (size_t i = 0; i < e->nops; i++) {
+		dfactor *f = &d->factors[i];
+		f->base = build(p, e->u.mul.bases[i]);
+		f->exponent = e->u.mul.exps[i];
+		f->exp_display = f->exponent->kind == EXPR_NUM ? NULL : build(p, f->exponent);
+		f->rank = factor_rank(p, e->u.mul.bases[i]);
+	}
+	/* stable sort keeps the canonical order within a rank */
+	for (size_t i = 1; i < d->nfactors; i++)
+		for (size_t j = i; j > 0 && compare_dfactors(&d->factors[j - 1], &d->factors[j]) > 0; j--) {
+			dfactor t = d->factors[j - 1];
+			d->factors[j - 1] = d->factors[j];
+			d->factors[j] = t;
+		}
+	if (mpq_sgn(e->u.mul.coef) < 0) {
+		dnode *neg = dnew(p, D_NEG);
+		neg->child = d;
+		return neg;
+	}
+	return d;
+}
+
+/* The factor common to all terms of a sum: the symbolic bases present in every
+ * term with numeric exponents of one sign (the smaller power), and an integer
+ * content > 1 when every coefficient is an integer.  Returns 1 when none. */
+static const expr *common_factor(printer *p, const expr *sum)
+{
+	expr_ctx *ctx = p->ctx;
+	const expr *first = sum->u.add.terms[0];
+	if (first->kind == EXPR_NUM)
+		return expr_int(ctx, 1);
+	mpz_t content;
+	mpz_init(content);
+	bool integers = true;
+	for (size_t i = 0; i < sum->nops; i++) {
+		const expr *t = sum->u.add.terms[i];
+		const __mpq_struct *c = t->kind == EXPR_MUL ? t->u.mul.coef : NULL;
+		if (c && !rat_is_integer(c))
+			integers = false;
+		if (c)
+			mpz_gcd(content, content, mpq_numref(c));
+		else
+			mpz_set_ui(content, 1);
+	}
+	const expr *result = expr_int(ctx, 1);
+	if (integers && mpz_cmp_ui(content, 1) > 0) {
+		mpq_t q;
+		mpq_init(q);
+		mpq_set_z(q, content);
+		result = expr_num(ctx, q);
+		mpq_clear(q);
+	}
+	mpz_clear(content);
+	size_t nbases = first->kind == EXPR_MUL ? first->nops : 1;
+	for (size_t b = 0; b < nbases; b++) {
+		const expr *base = first->kind == EXPR_MUL ? first->u.mul.bases[b] : first;
+		const expr *exponent = first->kind == EXPR_MUL ? first->u.mul.exps[b] : expr_int(ctx, 1);
+		if (exponent->kind != EXPR_NUM)
+			continue;
+		mpq_t best;
+		mpq_init(best);
+		mpq_set(best, exponent->u.num);
+		bool everywhere = true;
+		for (size_t i = 1; i < sum->nops && everywhere; i++) {
+			const expr *t = sum->u.add.terms[i];
+			const expr *found = NULL;
+			if (t == base)
+				found = expr_int(ctx, 1);
+			else if (t->kind == EXPR_MUL)
+				for (size_t j = 0; j < t->nops; j++)
+					if (t->u.mul.bases[j] == base)
+						found = t->u.mul.exps[j];
+			if (!found || found->kind != EXPR_NUM ||
+			    mpq_sgn(found->u.num) != mpq_sgn(best)) {
+				everywhere = false;
+				break;
+			}
+			if (mpq_sgn(best) > 0 ? mpq_cmp(found->u.num, best) < 0
+					      : mpq_cmp(found->u.num, best) > 0)
+				mpq_set(best, found->u.num);
+		}
+		if (everywhere)
+			result = expr_mul(ctx, result, expr_pow(ctx, base, expr_num(ctx, best)));
+		mpq_clear(best);
+	}
+	return result;
+}
+
+/* Split a term into its parameter part and its state part (coefficient in the
+ * parameter part). */
+static const expr *state_part(printer *p, const expr *term, const expr **param_part)
+{
+	expr_ctx *ctx = p->ctx;
+	if (term->kind != EXPR_MUL) {
+		if (max_rank(p, term) == 0 && term->kind != EXPR_FAPP) {
+			*param_part = term;
+			return expr_int(ctx, 1);
+		}
+		*param_part = expr_int(ctx, 1);
+		return term;
+	}
+	const expr **params = xmalloc((term->nops + 1) * sizeof *params);
+	const expr **states = xmalloc((term->nops + 1) * sizeof *states);
+	size_t np = 0, ns = 0;
+	params[np++] = expr_num(ctx, term->u.mul.coef);
+	for (size_t i = 0; i < term->nops; i++) {
+		const expr *f = expr_pow_pair(ctx, term->u.mul.bases[i], term->u.mul.exps[i]);
+		if (max_rank(p, term->u.mul.bases[i]) == 0 && max_rank(p, term->u.mul.exps[i]) == 0)
+			params[np++] = f;
+		else
+			states[ns++] = f;
+	}
+	*param_part = expr_mul_n(ctx, np, params);
+	const expr *result = expr_mul_n(ctx, ns, states);
+	free(params);
+	free(states);
+	return result;
+}
+
+static dnode *build_sum_terms(printer *p, size_t n, const expr *const *terms);
+
+static dnode *build_add(printer *p, const expr *e)
+{
+	expr_ctx *ctx = p->ctx;
+	const expr *common = common_factor(p, e);
+	if (common && !expr_is_one(common)) {
+		const expr *inner = expr_div(ctx, e, common);
+		if (inner && inner->kind == EXPR_ADD) {
+			/* common * (inner): parameters of the factor first, then the sum, then states */
+			dnode *factor = build(p, common);
+			dnode *sum = build(p, inner);
+			dnode *d = dnew(p, D_PROD);
+			mpq_set_ui(d->num, 1, 1);
+			size_t nf = factor->kind == D_PROD ? factor->nfactors : 1;
+			d->factors = xcalloc(nf + 1, sizeof *d->factors);
+			if (factor->kind == D_PROD) {
+				mpq_set(d->num, factor->num);
+				memcpy(d->factors, factor->factors, nf * sizeof *d->factors);
+			} else if (factor->kind == D_NUM) {
+				mpq_set(d->num, factor->num);
+				nf = 0;
+			} else {
+				d->factors[0] = (dfactor){factor, expr_int(ctx, 1), NULL, factor_rank(p, common)};
+			}
+			d->nfactors = nf;
+			int sum_rank = max_rank(p, inner) == 0 ? 1 : 4 * max_rank(p, inner) - 1;
+			d->factors[d->nfactors++] = (dfactor){sum, expr_int(ctx, 1), NULL, sum_rank};
+			for (size_t i = 1; i < d->nfactors; i++)
+				for (size_t j = i; j > 0 && compare_dfactors(&d->factors[j - 1], &d->factors[j]) > 0; j--) {
+					dfactor t = d->factors[j - 1];
+					d->factors[j - 1] = d->factors[j];
+					d->factors[j] = t;
+				}
+			return d;
+		}
+	}
+	return build_sum_terms(p, e->nops, (const expr *const *)e->u.add.terms);
+}
+
+/* Group the terms by state part: sum_g (sum of parameter parts) * state part. */
+static dnode *build_sum_terms(printer *p, size_t n, const expr *const *terms)
+{
+	expr_ctx *ctx = p->ctx;
+	const expr **states = xmalloc(n * sizeof *states);
+	const expr **params = xmalloc(n * sizeof *params);
+	for (size_t i = 0; i < n; i++)
+		states[i] = state_part(p, terms[i], &params[i]);
+	bool *used = xcalloc(n, sizeof *used);
+	dnode *sum = dnew(p, D_SUM);
+	sum->items = xmalloc(n * sizeof *sum->items);
+	const expr **group = xmalloc(n * sizeof *group);
+	for (size_t i = 0; i < n; i++) {
+		if (used[i])
+			continue;
+		size_t ng = 0;
+		for (size_t j = i; j < n; j++)
+			if (!used[j] && states[j] == states[i] && states[i] && !expr_is_one(states[i])) {
+				group[ng++] = params[j];
+				used[j] = true;
+			}
+		if (ng <= 1) {
+			used[i] = true;
+			sum->items[sum->n++] = build(p, terms[i]);
+			continue;
+		}
+		const expr *coefficient = expr_add_n(ctx, ng, group);
+		const expr *whole = expr_mul(ctx, coefficient, states[i]);
+		if (!coefficient || coefficient->kind != EXPR_ADD) {
+			sum->items[sum->n++] = build(p, whole);
+			continue;
+		}
+		dnode *left = build(p, coefficient);
+		dnode *right = build(p, states[i]);
+		dnode *d = dnew(p, D_PROD);
+		mpq_set_ui(d->num, 1, 1);
+		size_t nr = right->kind == D_PROD ? right->nfactors : 1;
+		d->factors = xcalloc(nr + 1, sizeof *d->factors);
+		d->factors[0] = (dfactor){left, expr_int(ctx, 1), NULL, -1};
+		if (right->kind == D_PROD) {
+			mpq_set(d->num, right->num);
+			memcpy(d->factors + 1, right->factors, nr * sizeof *d->factors);
+		} else {
+			d->factors[1] = (dfactor){right, expr_int(ctx, 1), NULL, factor_rank(p, states[i])};
+		}
+		d->nfactors = nr + 1;
+		sum->items[sum->n++] = d;
+	}
+	/* start with a positive term when there is one: mu - 1/2*sigma^2 */
+	if (sum->n > 1 && sum->items[0]->kind == D_NEG) {
+		for (size_t i = 1; i < sum->n; i++)
+			if (sum->items[i]->kind != D_NEG) {
+				dnode *positive = sum->items[i];
+				memmove(sum->items + 1, sum->items, i * sizeof *sum->items);
+				sum->items[0] = positive;
+				break;
+			}
+	}
+	free(states);
+	free(params);
+	free(used);
+	free(group);
+	return sum;
+}
+
+static dnode *build(printer *p, const expr *e)
+{
+	dnode *d;
+	switch (e->kind) {
+	case EXPR_NUM:
+		d = dnew(p, D_NUM);
+		mpq_abs(d->num, e->u.num);
+		if (mpq_sgn(e->u.num) < 0) {
+			dnode *neg = dnew(p, D_NEG);
+			neg->child = d;
+			return neg;
+		}
+		return d;
+	case EXPR_SYM:
+		d = dnew(p, D_SYM);
+		d->e = e;
+		return d;
+	case EXPR_FUN:
+		d = dnew(p, D_FUN);
+		d->e = e;
+		d->child = build(p, e->u.fun.arg);
+		return d;
+	case EXPR_FAPP:
+		d = dnew(p, D_FAPP);
+		d->e = e;
+		d->items = xmalloc(e->nops * sizeof *d->items);
+		d->n = e->nops;
+		for (size_t i = 0; i < e->nops; i++)
+			d->items[i] = build(p, e->u.fapp.args[i]);
+		return d;
+	case EXPR_MUL:
+		return build_mul(p, e);
+	case EXPR_ADD:
+		return build_add(p, e);
+	}
+	return dnew(p, D_NUM);
+}
+
+/* ------------------------------------------------------------------ names */
+
+static const char *const greek[] = {
+	"alpha", "beta", "gamma", "delta", "epsilon", "zeta", "eta", "theta", "iota", "kappa",
+	"lambda", "mu", "nu", "xi", "pi", "rho", "sigma", "tau", "upsilon", "phi", "chi", "psi",
+	"omega", "Gamma", "Delta", "Theta", "Lambda", "Xi", "Pi", "Sigma", "Upsilon", "Phi", "Psi",
+	"Omega", NULL};
+
+static bool is_greek(const char *word, size_t length)
+{
+	for (size_t i = 0; greek[i]; i++)
+		if (strlen(greek[i]) == length && strncmp(greek[i], word, length) == 0)
+			return true;
+	return false;
+}
+
+char *prn_latex_name(const char *name, bool time_subscript)
+{
+	/* split into a stem and a subscript: sigma1 -> sigma_{1}, v_0 -> v_{0} */
+	size_t length = strlen(name);
+	size_t stem = 0;
+	while (stem < length && isalpha((unsigned char)name[stem]))
+		stem++;
+	const char *sub = name + stem;
+	if (*sub == '_')
+		sub++;
+	xbuf buf = {0};
+	if (is_greek(name, stem)) {
+		xbuf_putc(&buf, '\\');
+		if (strncmp(name, "epsilon", stem) == 0 && stem == 7)
+			xbuf_put(&buf, "varepsilon");
+		else
+			xbuf_putn(&buf, name, stem);
+	} else if (stem == 1) {
+		xbuf_putn(&buf, name, 1);
+	} else {
+		/* a longer stem: a Greek prefix (sigmaS) or an upright word */
+		bool done = false;
+		for (size_t i = 0; greek[i] && !done; i++) {
+			size_t g = strlen(greek[i]);
+			if (g < stem && strncmp(name, greek[i], g) == 0) {
+				xbuf_printf(&buf, "\\%s", greek[i]);
+				sub = name + g;
+				done = true;
+			}
+		}
+		if (!done)
+			xbuf_printf(&buf, "\\mathit{%.*s}", (int)stem, name);
+	}
+	if (*sub || time_subscript) {
+		xbuf_put(&buf, "_{");
+		for (const char *c = sub; *c; c++) {
+			if (*c == '_')
+				xbuf_putc(&buf, ',');
+			else
+				xbuf_putc(&buf, *c);
+		}
+		if (time_subscript)
+			xbuf_put(&buf, *sub ? ",t" : "t");
+		xbuf_putc(&buf, '}');
+	}
+	return xbuf_take(&buf);
+}
+
+static bool all_single_letters(const expr *func)
+{
+	for (size_t i = 0; i < expr_func_arity(func); i++)
+		if (strlen(expr_func_arg_name(func, i)) != 1)
+			return false;
+	return true;
+}
+
+char *prn_fapp_name(const expr *e)
+{
+	if (e->kind != EXPR_FAPP)
+		return NULL;
+	const expr *func = e->u.fapp.func;
+	xbuf buf = {0};
+	xbuf_put(&buf, func->u.sym.name);
+	size_t total = 0;
+	for (size_t i = 0; i < e->nops; i++)
+		total += e->u.fapp.counts[i];
+	if (total > 0) {
+		bool single = all_single_letters(func);
+		xbuf_put(&buf, single ? "_" : "_{");
+		bool first = true;
+		for (size_t i = 0; i < e->nops; i++)
+			for (unsigned k = 0; k < e->u.fapp.counts[i]; k++) {
+				if (!single && !first)
+					xbuf_putc(&buf, ',');
+				xbuf_put(&buf, expr_func_arg_name(func, i));
+				first = false;
+			}
+		if (!single)
+			xbuf_putc(&buf, '}');
+	}
+	return xbuf_take(&buf);
+}
+
+/* Are the arguments exactly the declared argument symbols? */
+static bool at_declared_args(const expr *e)
+{
+	const expr *func = e->u.fapp.func;
+	for (size_t i = 0; i < e->nops; i++) {
+		const expr *a = e->u.fapp.args[i];
+		if (a->kind != EXPR_SYM || strcmp(a->u.sym.name, expr_func_arg_name(func, i)) != 0)
+			return false;
+	}
+	return true;
+}
+
+/* ------------------------------------------------------------------ writing */
+
+enum { P_SUM = 1, P_NEG = 2, P_PROD = 3, P_POW = 4, P_ATOM = 5 };
+
+static int precedence(const dnode *d)
+{
+	switch (d->kind) {
+	case D_SUM:
+		return d->n > 1 ? P_SUM : precedence(d->items[0]);
+	case D_NEG:
+		return P_NEG;
+	case D_PROD: {
+		if (d->nfactors == 1 && mpq_cmp_ui(d->num, 1, 1) == 0 &&
+		    d->factors[0].exponent->kind == EXPR_NUM && mpq_sgn(d->factors[0].exponent->u.num) > 0)
+			return P_POW;
+		return P_PROD;
+	}
+	case D_NUM:
+		return rat_is_integer(d->num) ? P_ATOM : P_PROD;
+	default:
+		return P_ATOM;
+	}
+}
+
+static void emit(printer *p, xbuf *out, const dnode *d);
+
+static void emit_paren(printer *p, xbuf *out, const dnode *d, bool paren)
+{
+	if (paren)
+		xbuf_put(out, p->format == PRN_LATEX ? "\\left(" : "(");
+	emit(p, out, d);
+	if (paren)
+		xbuf_put(out, p->format == PRN_LATEX ? "\\right)" : ")");
+}
+
+static void emit_number(printer *p, xbuf *out, const mpq_t q)
+{
+	if (p->format == PRN_C) {
+		if (rat_is_integer(q)) {
+			char *s = rat_to_string(q);
+			xbuf_put(out, s);
+			free(s);
+			return;
+		}
+		double value = rat_to_double(q);
+		char text[64];
+		snprintf(text, sizeof text, "%.17g", value);
+		mpq_t back;
+		mpq_init(back);
+		rat_set_double(back, value);
+		bool exact = mpq_equal(back, q) && strlen(text) < 12;
+		mpq_clear(back);
+		if (exact) {
+			xbuf_put(out, text);
+		} else {
+			char *num = mpz_get_str(NULL, 10, mpq_numref(q));
+			char *den = mpz_get_str(NULL, 10, mpq_denref(q));
+			xbuf_printf(out, "(%s.0/%s.0)", num, den);
+			void (*release)(void *, size_t);
+			mp_get_memory_functions(NULL, NULL, &release);
+			release(num, strlen(num) + 1);
+			release(den, strlen(den) + 1);
+		}
+		return;
+	}
+	if (p->format == PRN_LATEX && !rat_is_integer(q)) {
+		char *num = rat_to_string(q);
+		char *slash = strchr(num, '/');
+		*slash = '\0';
+		xbuf_printf(out, "\\tfrac{%s}{%s}", num, slash + 1);
+		free(num);
+		return;
+	}
+	char *s = rat_to_string(q);
+	xbuf_put(out, s);
+	free(s);
+}
+
+static void emit_symbol(printer *p, xbuf *out, const expr *sym)
+{
+	if (p->format == PRN_LATEX) {
+		int rank = sym->u.sym.rank;
+		char *name = prn_latex_name(sym->u.sym.name, rank == PRN_RANK_STATE || rank == PRN_RANK_NOISE);
+		xbuf_put(out, name);
+		free(name);
+		return;
+	}
+	xbuf_put(out, sym->u.sym.name);
+}
+
+static bool is_atomic(const dnode *d)
+{
+	return precedence(d) == P_ATOM;
+}
+
+static void emit_fun(printer *p, xbuf *out, const dnode *d)
+{
+	expr_builtin fn = d->e->u.fun.fn;
+	if (p->format == PRN_C) {
+		if (fn == EXPR_F_NCDF) {
+			xbuf_put(out, "(0.5*erfc(-(");
+			emit(p, out, d->child);
+			xbuf_put(out, ")/M_SQRT2))");
+			return;
+		}
+		if (fn == EXPR_F_NPDF) {
+			xbuf_put(out, "(0.3989422804014327*exp(-0.5*(");
+			emit(p, out, d->child);
+			xbuf_put(out, ")*(");
+			emit(p, out, d->child);
+			xbuf_put(out, ")))");
+			return;
+		}
+		xbuf_printf(out, "%s(", expr_builtin_c_name(fn));
+		emit(p, out, d->child);
+		xbuf_putc(out, ')');
+		return;
+	}
+	if (p->format == PRN_LATEX) {
+		if (fn == EXPR_F_ABS) {
+			xbuf_put(out, "\\left|");
+			emit(p, out, d->child);
+			xbuf_put(out, "\\right|");
+			return;
+		}
+		if (fn == EXPR_F_EXP) {
+			xbuf_put(out, "e^{");
+			emit(p, out, d->child);
+			xbuf_putc(out, '}');
+			return;
+		}
+		xbuf_put(out, expr_builtin_latex(fn));
+		bool plain = fn == EXPR_F_LOG || fn == EXPR_F_SIN || fn == EXPR_F_COS;
+		if (plain && d->child->kind == D_SYM) {
+			xbuf_putc(out, ' ');
+			emit(p, out, d->child);
+		} else {
+			emit_paren(p, out, d->child, true);
+		}
+		return;
+	}
+	xbuf_printf(out, "%s(", expr_builtin_name(fn));
+	emit(p, out, d->child);
+	xbuf_putc(out, ')');
+}
+
+static void emit_fapp(printer *p, xbuf *out, const dnode *d)
+{
+	char *name = prn_fapp_name(d->e);
+	bool declared = at_declared_args(d->e);
+	if (p->format == PRN_C) {
+		for (char *c = name; *c; c++)
+			if (*c == '{' || *c == '}' || *c == ',')
+				*c = '_';
+		/* drop doubled underscores from f_{x,y} -> f__x_y_ */
+		xbuf clean = {0};
+		for (char *c = name; *c; c++)
+			if (!(*c == '_' && (c[1] == '_' || c[1] == '\0')))
+				xbuf_putc(&clean, *c);
+		xbuf_put(out, clean.data);
+		xbuf_free(&clean);
+		declared = false; /* C always names the arguments */
+	} else if (p->format == PRN_LATEX) {
+		const expr *func = d->e->u.fapp.func;
+		char *stem = prn_latex_name(func->u.sym.name, false);
+		xbuf_put(out, stem);
+		free(stem);
+		size_t total = 0;
+		for (size_t i = 0; i < d->e->nops; i++)
+			total += d->e->u.fapp.counts[i];
+		if (total) {
+			xbuf_put(out, "_{");
+			for (size_t i = 0; i < d->e->nops; i++)
+				for (unsigned k = 0; k < d->e->u.fapp.counts[i]; k++) {
+					char *arg = prn_latex_name(expr_func_arg_name(func, i), false);
+					xbuf_put(out, arg);
+					xbuf_putc(out, ' ');
+					free(arg);
+				}
+			out->data[--out->length] = '\0';
+			xbuf_putc(out, '}');
+		}
+	} else {
+		xbuf_put(out, name);
+	}
+	free(name);
+	if (declared)
+		return;
+	xbuf_put(out, p->format == PRN_LATEX ? "\\left(" : "(");
+	for (size_t i = 0; i < d->n; i++) {
+		if (i)
+			xbuf_put(out, ", ");
+		emit(p, out, d->items[i]);
+	}
+	xbuf_put(out, p->format == PRN_LATEX ? "\\right)" : ")");
+}
+
+/* base^exponent with |exponent| (the sign is handled by the caller). */
+static void emit_power(printer *p, xbuf *out, const dfactor *f, bool absolute)
+{
+	const dnode *base = f->base;
+	if (f->exp_display) {
+		const dnode *ex = f->exp_display;
+		if (absolute && ex->kind == D_NEG)
+			ex = ex->child;
+		if (p->format == PRN_C) {
+			xbuf_put(out, "pow(");
+			emit(p, out, base);
+			xbuf_put(out, ", ");
+			emit(p, out, ex);
+			xbuf_putc(out, ')');
+			return;
+		}
+		emit_paren(p, out, base, !is_atomic(base));
+		if (p->format == PRN_LATEX) {
+			xbuf_put(out, "^{");
+			emit(p, out, ex);
+			xbuf_putc(out, '}');
+		} else {
+			xbuf_putc(out, '^');
+			emit_paren(p, out, ex, !is_atomic(ex));
+		}
+		return;
+	}
+	mpq_t e;
+	mpq_init(e);
+	mpq_set(e, f->exponent->u.num);
+	if (absolute)
+		mpq_abs(e, e);
+	if (mpq_cmp_ui(e, 1, 1) == 0) {
+		emit_paren(p, out, base, precedence(base) < P_PROD + (p->format == PRN_LATEX ? 0 : 1) &&
+						 base->kind != D_FUN);
+	} else if (mpq_cmp_ui(e, 1, 2) == 0) {
+		if (p->format == PRN_LATEX) {
+			xbuf_put(out, "\\sqrt{");
+			emit(p, out, base);
+			xbuf_putc(out, '}');
+		} else {
+			xbuf_put(out, "sqrt(");
+			emit(p, out, base);
+			xbuf_putc(out, ')');
+		}
+	} else if (p->format == PRN_C) {
+		if (rat_is_integer(e) && mpz_cmp_ui(mpq_numref(e), 4) <= 0 && mpq_sgn(e) > 0 && is_atomic(base)) {
+			unsigned long n = mpz_get_ui(mpq_numref(e));
+			for (unsigned long i = 0; i < n; i++) {
+				if (i)
+					xbuf_putc(out, '*');
+				emit(p, out, base);
+			}
+		} else {
+			xbuf_put(out, "pow(");
+			emit(p, out, base);
+			xbuf_put(out, ", ");
+			emit_number(p, out, e);
+			xbuf_putc(out, ')');
+		}
+	} else {
+		bool base_paren = !is_atomic(base) || (base->kind == D_FUN && p->format == PRN_LATEX &&
+						      base->e->u.fun.fn != EXPR_F_ABS);
+		emit_paren(p, out, base, base_paren);
+		if (p->format == PRN_LATEX) {
+			xbuf_put(out, "^{");
+			char *s = rat_to_string(e);
+			if (rat_is_integer(e))
+				xbuf_put(out, s);
+			else
+				emit_number(p, out, e);
+			free(s);
+			xbuf_putc(out, '}');
+		} else {
+			char *s = rat_to_string(e);
+			if (rat_is_integer(e) && mpq_sgn(e) > 0)
+				xbuf_printf(out, "^%s", s);
+			else
+				xbuf_printf(out, "^(%s)", s);
+			free(s);
+		}
+	}
+	mpq_clear(e);
+}
+
+static bool in_denominator(const dfactor *f)
+{
+	if (f->exp_display)
+		return f->exp_display->kind == D_NEG;
+	return mpq_sgn(f->exponent->u.num) < 0;
+}
+
+static void emit_factor_list(printer *p, xbuf *out, const dnode *d, bool denominator,
+			     const char *coef_text, size_t *count)
+{
+	const char *times = p->format == PRN_LATEX ? " " : "*";
+	if (coef_text) {
+		xbuf_put(out, coef_text);
+		(*count)++;
+	}
+	for (size_t i = 0; i < d->nfactors; i++) {
+		const dfactor *f = &d->factors[i];
+		if (in_denominator(f) != denominator)
+			continue;
+		if (*count)
+			xbuf_put(out, times);
+		emit_power(p, out, f, denominator);
+		(*count)++;
+	}
+}
+
+static size_t count_side(const dnode *d, bool denominator)
+{
+	size_t n = 0;
+	for (size_t i = 0; i < d->nfactors; i++)
+		n += in_denominator(&d->factors[i]) == denominator;
+	return n;
+}
+
+static char *number_text(printer *p, const mpz_t z)
+{
+	mpq_t q;
+	mpq_init(q);
+	mpq_set_z(q, z);
+	xbuf buf = {0};
+	emit_number(p, &buf, q);
+	mpq_clear(q);
+	return xbuf_take(&buf);
+}
+
+static void emit_prod(printer *p, xbuf *out, const dnode *d)
+{
+	size_t nnum = count_side(d, false), nden = count_side(d, true);
+	bool integer = rat_is_integer(d->num);
+	bool unit = mpq_cmp_ui(d->num, 1, 1) == 0;
+	if (nden == 0) {
+		char *coef = NULL;
+		if (!unit || nnum == 0) {
+			xbuf buf = {0};
+			emit_number(p, &buf, d->num);
+			coef = xbuf_take(&buf);
+		}
+		size_t count = 0;
+		emit_factor_list(p, out, d, false, coef, &count);
+		free(coef);
+		return;
+	}
+	/* a fraction: numerator (with the coefficient's numerator) over denominator */
+	char *top = mpz_cmp_ui(mpq_numref(d->num), 1) != 0 || nnum == 0
+			    ? number_text(p, mpq_numref(d->num)) : NULL;
+	char *bottom = integer ? NULL : number_text(p, mpq_denref(d->num));
+	xbuf num = {0}, den = {0};
+	size_t count = 0;
+	emit_factor_list(p, &num, d, false, top, &count);
+	size_t nnum_parts = count;
+	count = 0;
+	emit_factor_list(p, &den, d, true, bottom, &count);
+	size_t nden_parts = count;
+	free(top);
+	free(bottom);
+	if (p->format == PRN_LATEX) {
+		xbuf_printf(out, "\\frac{%s}{%s}", num.data, den.data);
+	} else {
+		bool num_paren = p->format == PRN_C && nnum_parts > 1;
+		if (num_paren)
+			xbuf_putc(out, '(');
+		xbuf_put(out, num.data);
+		if (num_paren)
+			xbuf_putc(out, ')');
+		xbuf_putc(out, '/');
+		bool single = nden_parts == 1;
+		if (single && nden == 1) {
+			/* one factor: parenthesize unless it is atomic (x, sqrt(x), f(x)) */
+			const char *s = den.data;
+			bool simple = true;
+			for (const char *c = s; *c && simple; c++)
+				if (*c == '^' || *c == '*' || *c == '/' || *c == ' ')
+					simple = strncmp(s, "sqrt(", 5) == 0 || strncmp(s, "pow(", 4) == 0;
+			if (!simple)
+				single = false;
+		}
+		if (!single)
+			xbuf_putc(out, '(');
+		xbuf_put(out, den.data);
+		if (!single)
+			xbuf_putc(out, ')');
+	}
+	xbuf_free(&num);
+	xbuf_free(&den);
+}
+
+static void emit(printer *p, xbuf *out, const dnode *d)
+{
+	switch (d->kind) {
+	case D_NUM:
+		emit_number(p, out, d->num);
+		return;
+	case D_SYM:
+		emit_symbol(p, out, d->e);
+		return;
+	case D_FUN:
+		emit_fun(p, out, d);
+		return;
+	case D_FAPP:
+		emit_fapp(p, out, d);
+		return;
+	case D_NEG:
+		xbuf_putc(out, '-');
+		emit_paren(p, out, d->child, precedence(d->child) < P_PROD);
+		return;
+	case D_SUM:
+		for (size_t i = 0; i < d->n; i++) {
+			const dnode *term = d->items[i];
+			if (term->kind == D_NEG) {
+				xbuf_put(out, i ? " - " : "-");
+				emit_paren(p, out, term->child, precedence(term->child) < P_PROD);
+			} else {
+				if (i)
+					xbuf_put(out, " + ");
+				emit(p, out, term);
+			}
+		}
+		return;
+	case D_PROD:
+		emit_prod(p, out, d);
+		return;
+	case D_POWSUM:
+		return;
+	}
+}
+
+char *prn_expr(expr_ctx *ctx, const expr *e, prn_format format)
+{
+	if (!e)
+		return xstrdup("<error>");
+	printer p = {.ctx = ctx, .format = format};
+	dnode *d = build(&p, e);
+	xbuf out = {0};
+	emit(&p, &out, d);
+	printer_free(&p);
+	return xbuf_take(&out);
+}
+
+/* ------------------------------------------------------------------ flat printer */
+
+static void flat(expr_ctx *ctx, xbuf *out, const expr *e)
+{
+	switch (e->kind) {
+	case EXPR_NUM: {
+		char *s = rat_to_string(e->u.num);
+		bool paren = mpq_sgn(e->u.num) < 0 || !rat_is_integer(e->u.num);
+		xbuf_printf(out, paren ? "(%s)" : "%s", s);
+		free(s);
+		return;
+	}
+	case EXPR_SYM:
+		xbuf_put(out, e->u.sym.name);
+		return;
+	case EXPR_FUN:
+		xbuf_printf(out, "%s(", expr_builtin_name(e->u.fun.fn));
+		flat(ctx, out, e->u.fun.arg);
+		xbuf_putc(out, ')');
+		return;
+	case EXPR_FAPP: {
+		char *name = prn_fapp_name(e);
+		xbuf_printf(out, "%s(", name);
+		free(name);
+		for (size_t i = 0; i < e->nops; i++) {
+			if (i)
+				xbuf_put(out, ", ");
+			flat(ctx, out, e->u.fapp.args[i]);
+		}
+		xbuf_putc(out, ')');
+		return;
+	}
+	case EXPR_MUL: {
+		char *s = rat_to_string(e->u.mul.coef);
+		xbuf_printf(out, "(%s)", s);
+		free(s);
+		for (size_t i = 0; i < e->nops; i++) {
+			xbuf_put(out, "*(");
+			flat(ctx, out, e->u.mul.bases[i]);
+			xbuf_put(out, ")^(");
+			flat(ctx, out, e->u.mul.exps[i]);
+			xbuf_putc(out, ')');
+		}
+		return;
+	}
+	case EXPR_ADD:
+		xbuf_putc(out, '(');
+		for (size_t i = 0; i < e->nops; i++) {
+			if (i)
+				xbuf_put(out, " + ");
+			flat(ctx, out, e->u.add.terms[i]);
+		}
+		xbuf_putc(out, ')');
+		return;
+	}
+}
+
+char *prn_expr_flat(expr_ctx *ctx, const expr *e)
+{
+	if (!e)
+		return xstrdup("<error>");
+	xbuf out = {0};
+	flat(ctx, &out, e);
+	return xbuf_take(&out);
+}
+
+void prn_json_string(xbuf *buf, const char *text)
+{
+	xbuf_putc(buf, '"');
+	for (const unsigned char *c = (const unsigned char *)text; *c; c++) {
+		switch (*c) {
+		case '"':
+			xbuf_put(buf, "\\\"");
+			break;
+		case '\\':
+			xbuf_put(buf, "\\\\");
+			break;
+		case '\n':
+			xbuf_put(buf, "\\n");
+			break;
+		case '\t':
+			xbuf_put(buf, "\\t");
+			break;
+		default:
+			if (*c < 0x20)
+				xbuf_printf(buf, "\\u%04x", *c);
+			else
+				xbuf_putc(buf, (char)*c);
+		}
+	}
+	xbuf_putc(buf, '"');
+}

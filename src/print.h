@@ -1,0 +1,36 @@
+/* print.h - writers for expressions: text, LaTeX and C.
+ *
+ * The printers turn a canonical node into a display tree made for people:
+ * terms grouped by their state part, common factors pulled out
+ * (kappa*(theta - v)), negative powers written as fractions, sqrt for ^(1/2).
+ * The text form parses back to the very same node.
+ */
+#ifndef ITOX_PRINT_H
+#define ITOX_PRINT_H
+
+#include "expr.h"
+
+typedef enum prn_format { PRN_TEXT, PRN_LATEX, PRN_C } prn_format;
+
+/* Display classes of symbols (set with expr_sym_set_rank): parameters print
+ * before time, states and noises in products; LaTeX subscripts states with t. */
+enum { PRN_RANK_PARAM = 0, PRN_RANK_TIME = 1, PRN_RANK_STATE = 2, PRN_RANK_NOISE = 3 };
+
+/* The expression in the given format, as a new string to free. */
+char *prn_expr(expr_ctx *ctx, const expr *e, prn_format format);
+
+/* The plain printer: canonical order, no grouping (for debugging and tests). */
+char *prn_expr_flat(expr_ctx *ctx, const expr *e);
+
+/* LaTeX spelling of an identifier (Greek letters, subscripts); new string. */
+char *prn_latex_name(const char *name, bool time_subscript);
+
+/* The text name of a generic function's partial (f, f_x, f_tx, f_{x1,x2}),
+ * or NULL when e is not a FAPP; new string. */
+char *prn_fapp_name(const expr *e);
+
+/* Append text to buf as a JSON string literal (with quotes). */
+struct xbuf;
+void prn_json_string(struct xbuf *buf, const char *text);
+
+#endif

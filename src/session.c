@@ -1,0 +1,2371 @@
+/* session.c - statements in, results out.
+ *
+ * The parser gives a syntax tree with positions; this module resolves names
+ * against the model, evaluates expressions (numbers and differentials), calls
+ * the engine and writes each result in the session's format.  Every error is
+ * reported with its position and leaves the session as it was before the
+ * statement.
+ */
+#include "session.h"
+
+#include <ctype.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+#include "ast.h"
+#include "diff.h"
+#include "eval.h"
+#include "expr.h"
+#include "help.h"
+#include "ito.h"
+#include "model.h"
+#include "print.h"
+#include "rat.h"
+#include "simp.h"
+#include "verify.h"
+#include "xalloc.h"
+
+enum { MAX_NESTING = 1000, MAX_LINE = 1 << 20 };
+
+struct session {
+	session_options opt;
+	expr_ctx *ctx;
+	model model;
+	session_format format;
+	int status;
+	bool quit;
+	/* the source being run, for error lines */
+	const char *source;
+	size_t length;
+	const char *origin;
+	const model_measure *measure; /* the measure of the current query */
+	int load_depth;
+	unsigned long claim_count;
+};
+
+/* An evaluated expression: a number-valued expression or a differential. */
+typedef struct value {
+	bool is_diff;
+	const expr *e;
+	ito_diff d;
+} value;
+
+static void value_free(value *v)
+{
+	if (v->is_diff)
+		ito_diff_free(&v->d);
+	v->is_diff = false;
+}
+
+/* ------------------------------------------------------------------ errors */
+
+static void raise_status(session *s, int status)
+{
+	static const int rank[] = {0, 1, 2, 3};
+	if (rank[status] > rank[s->status])
+		s->status = status;
+}
+
+static void source_line(const session *s, int line, const char **start, size_t *length)
+{
+	const char *p = s->source, *end = s->source + s->length;
+	for (int l = 1; l < line && p < end; l++) {
+		const char *nl = memchr(p, '\n', (size_t)(end - p));
+		p = nl ? nl + 1 : end;
+	}
+	const char *nl = memchr(p, '\n', (size_t)(end - p));
+	*start = p;
+	*length = (size_t)((nl ? nl : end) - p);
+}
+
+static void report(session *s, int status, const ast_loc *loc, const char *format, ...)
+	__attribute__((format(printf, 4, 5)));
+
+static void report(session *s, int status, const ast_loc *loc, const char *format, ...)
+{
+	va_list args;
+	va_start(args, format);
+	char message[1024];
+	vsnprintf(message, sizeof message, format, args);
+	va_end(args);
+	raise_status(s, status);
+	int line = loc ? loc->first_line : 1, column = loc ? loc->first_column : 1;
+	fprintf(s->opt.err, "%s:%d:%d: error: %s\n", s->origin, line, column, message);
+	if (s->source && loc) {
+		const char *text;
+		size_t length;
+		source_line(s, line, &text, &length);
+		if (length > 200)
+			length = 200;
+		fprintf(s->opt.err, "  %.*s\n  ", (int)length, text);
+		for (int c = 1; c < column && (size_t)c <= length; c++)
+			fputc(text[c - 1] == '\t' ? '\t' : ' ', s->opt.err);
+		int width = 1;
+		if (loc->last_line == loc->first_line && loc->last_column > loc->first_column)
+			width = loc->last_column - loc->first_column;
+		for (int i = 0; i < width && i < 200; i++)
+			fputc(i == 0 ? '^' : '~', s->opt.err);
+		fputc('\n', s->opt.err);
+	}
+	if (s->format == FORMAT_JSON) {
+		xbuf buf = {0};
+		xbuf_printf(&buf, "{\"kind\":\"error\",\"line\":%d,\"column\":%d,\"status\":%d,\"message\":",
+			    line, column, status);
+		prn_json_string(&buf, message);
+		xbuf_put(&buf, "}\n");
+		fputs(buf.data, s->opt.out);
+		xbuf_free(&buf);
+	}
+}
+
+/* Report an engine error (limit, interrupt, division by zero) if one is set. */
+static bool engine_failed(session *s, const ast_loc *loc)
+{
+	expr_error_kind kind = expr_error(s->ctx);
+	if (!kind)
+		return false;
+	int status = kind == EXPR_ERR_DIVISION ? SESSION_INPUT : SESSION_LIMIT;
+	if (kind == EXPR_ERR_INTERRUPTED && s->opt.interrupt && *s->opt.interrupt == 2)
+		report(s, SESSION_LIMIT, loc, "time limit exceeded (%g s per statement; see --time-limit)",
+		       s->opt.time_limit);
+	else if (kind == EXPR_ERR_INTERRUPTED)
+		report(s, SESSION_LIMIT, loc, "interrupted");
+	else
+		report(s, status, loc, "%s", expr_error_message(s->ctx));
+	expr_clear_error(s->ctx);
+	return true;
+}
+
+/* ------------------------------------------------------------------ suggestions */
+
+static size_t edit_distance(const char *a, const char *b)
+{
+	size_t la = strlen(a), lb = strlen(b);
+	if (la > 64 || lb > 64)
+		return 99;
+	size_t row[65];
+	for (size_t j = 0; j <= lb; j++)
+		row[j] = j;
+	for (size_t i = 1; i <= la; i++) {
+		size_t diag = row[0];
+		row[0] = i;
+		for (size_t j = 1; j <= lb; j++) {
+			size_t up = row[j];
+			size_t cost = a[i - 1] == b[j - 1] ? 0 : 1;
+			size_t best = diag + cost;
+			if (row[j] + 1 < best)
+				best = row[j] + 1;
+			if (row[j - 1] + 1 < best)
+				best = row[j - 1] + 1;
+			row[j] = best;
+			diag = up;
+		}
+	}
+	return row[lb];
+}
+
+static void consider(const char *candidate, const char *name, const char **best, size_t *distance)
+{
+	size_t d = edit_distance(name, candidate);
+	if (d < *distance) {
+		*distance = d;
+		*best = candidate;
+	}
+}
+
+/* The closest known name, or NULL when nothing is close. */
+static const char *suggest(session *s, const char *name)
+{
+	const char *best = NULL;
+	size_t distance = (size_t)-1;
+	for (size_t i = 0; i < s->model.nentries; i++)
+		consider(s->model.entries[i].name, name, &best, &distance);
+	for (int f = 0; f < EXPR_F_COUNT; f++)
+		consider(expr_builtin_name((expr_builtin)f), name, &best, &distance);
+	consider("sqrt", name, &best, &distance);
+	consider("t", name, &best, &distance);
+	size_t length = strlen(name);
+	size_t limit = length <= 2 ? 0 : length <= 4 ? 1 : 2;
+	return distance <= limit ? best : NULL;
+}
+
+static void unknown_name(session *s, const ast_loc *loc, const char *name)
+{
+	const char *hint = suggest(s, name);
+	if (hint)
+		report(s, SESSION_INPUT, loc, "unknown name '%s'; did you mean '%s'?", name, hint);
+	else
+		report(s, SESSION_INPUT, loc, "unknown name '%s'", name);
+}
+
+/* ------------------------------------------------------------------ names */
+
+static bool is_identifier(const char *text)
+{
+	if (!isalpha((unsigned char)*text))
+		return false;
+	for (const char *c = text; *c; c++)
+		if (!isalnum((unsigned char)*c) && *c != '_')
+			return false;
+	return true;
+}
+
+/* A partial-derivative name f_x, f_tx, f_{x1,x2}: the function and counts. */
+static bool parse_partial_name(session *s, const char *name, model_entry **func,
+			       unsigned char *counts)
+{
+	for (const char *u = strchr(name, '_'); u; u = strchr(u + 1, '_')) {
+		char *stem = xstrndup(name, (size_t)(u - name));
+		model_entry *entry = model_lookup(&s->model, stem);
+		free(stem);
+		if (!entry || entry->kind != MODEL_FUNC)
+			continue;
+		const expr *f = entry->sym;
+		size_t nargs = expr_func_arity(f);
+		memset(counts, 0, EXPR_MAX_FUNC_ARGS);
+		const char *rest = u + 1;
+		bool ok = *rest != '\0';
+		if (*rest == '{') {
+			const char *close = strchr(rest, '}');
+			ok = close && close[1] == '\0';
+			const char *p = rest + 1;
+			while (ok && p < close) {
+				const char *comma = memchr(p, ',', (size_t)(close - p));
+				const char *end = comma ? comma : close;
+				size_t k = 0;
+				while (k < nargs && !(strlen(expr_func_arg_name(f, k)) == (size_t)(end - p) &&
+						      strncmp(expr_func_arg_name(f, k), p, (size_t)(end - p)) == 0))
+					k++;
+				ok = k < nargs && counts[k] < 255;
+				if (ok)
+					counts[k]++;
+				p = end + 1;
+			}
+		} else {
+			for (const char *c = rest; *c && ok; c++) {
+				size_t k = 0;
+				while (k < nargs && !(expr_func_arg_name(f, k)[0] == *c &&
+						      expr_func_arg_name(f, k)[1] == '\0'))
+					k++;
+				ok = k < nargs && counts[k] < 255;
+				if (ok)
+					counts[k]++;
+			}
+		}
+		if (ok) {
+			*func = entry;
+			return true;
+		}
+	}
+	return false;
+}
+
+static const expr *declared_args_application(session *s, const expr *f, const unsigned char *counts)
+{
+	size_t nargs = expr_func_arity(f);
+	const expr *args[EXPR_MAX_FUNC_ARGS];
+	for (size_t i = 0; i < nargs; i++)
+		args[i] = expr_sym(s->ctx, expr_func_arg_name(f, i));
+	return expr_fapp(s->ctx, f, counts, args);
+}
+
+/* The symbol of a name that has dynamics: "dX" -> X when X is a state or noise. */
+static const expr *differential_of(session *s, const char *name)
+{
+	if (name[0] != 'd' || !name[1])
+		return NULL;
+	model_entry *entry = model_lookup(&s->model, name + 1);
+	if (entry && (entry->kind == MODEL_STATE || entry->kind == MODEL_NOISE))
+		return entry->sym;
+	return NULL;
+}
+
+/* ------------------------------------------------------------------ evaluation */
+
+static bool eval_node(session *s, const ast_node *n, value *out);
+
+static bool eval_scalar(session *s, const ast_node *n, const expr **out)
+{
+	value v = {0};
+	if (!eval_node(s, n, &v))
+		return false;
+	if (v.is_diff) {
+		value_free(&v);
+		report(s, SESSION_INPUT, &n->loc, "a differential is not allowed here; expected an expression");
+		return false;
+	}
+	*out = v.e;
+	return true;
+}
+
+static bool make_scalar(session *s, const ast_node *n, const expr *e, value *out)
+{
+	if (!e) {
+		if (!engine_failed(s, &n->loc))
+			report(s, SESSION_INPUT, &n->loc, "cannot evaluate this expression");
+		return false;
+	}
+	out->is_diff = false;
+	out->e = e;
+	return true;
+}
+
+static bool make_diff(session *s, const ast_node *n, ito_diff *d, value *out)
+{
+	if (ito_diff_failed(d)) {
+		ito_diff_free(d);
+		if (!engine_failed(s, &n->loc))
+			report(s, SESSION_INPUT, &n->loc, "cannot evaluate this differential");
+		return false;
+	}
+	out->is_diff = true;
+	out->d = *d;
+	return true;
+}
+
+static bool eval_name(session *s, const ast_node *n, value *out)
+{
+	const char *name = n->text;
+	expr_ctx *ctx = s->ctx;
+	if (strcmp(name, "t") == 0)
+		return make_scalar(s, n, s->model.time, out);
+	if (strcmp(name, "dt") == 0) {
+		ito_diff d;
+		ito_diff_zero(&d, &s->model);
+		d.dt = expr_int(ctx, 1);
+		return make_diff(s, n, &d, out);
+	}
+	model_entry *entry = model_lookup(&s->model, name);
+	if (entry) {
+		switch (entry->kind) {
+		case MODEL_PARAM:
+		case MODEL_STATE:
+		case MODEL_NOISE:
+		case MODEL_ARG:
+			return make_scalar(s, n, entry->sym, out);
+		case MODEL_LET:
+			return make_scalar(s, n, entry->value, out);
+		case MODEL_FUNC:
+			return make_scalar(s, n, declared_args_application(s, entry->sym, NULL), out);
+		case MODEL_TIME:
+			return make_scalar(s, n, s->model.time, out);
+		case MODEL_MEASURE:
+			report(s, SESSION_INPUT, &n->loc, "'%s' is a measure, not a value", name);
+			return false;
+		}
+	}
+	const expr *process = differential_of(s, name);
+	if (process) {
+		ito_diff d;
+		ito_dynamics(&s->model, s->measure, process, &d);
+		return make_diff(s, n, &d, out);
+	}
+	model_entry *func;
+	unsigned char counts[EXPR_MAX_FUNC_ARGS];
+	if (parse_partial_name(s, name, &func, counts))
+		return make_scalar(s, n, declared_args_application(s, func->sym, counts), out);
+	if (name[0] == 'd' && name[1]) {
+		model_entry *target = model_lookup(&s->model, name + 1);
+		if (target && target->kind == MODEL_LET) {
+			report(s, SESSION_INPUT, &n->loc,
+			       "'%s' is not a differential name; write d(%s) for the differential of a derived process",
+			       name, name + 1);
+			return false;
+		}
+	}
+	unknown_name(s, &n->loc, name);
+	return false;
+}
+
+static bool eval_call(session *s, const ast_node *n, value *out)
+{
+	expr_ctx *ctx = s->ctx;
+	const char *name = n->text;
+	expr_builtin fn;
+	bool is_sqrt = strcmp(name, "sqrt") == 0;
+	if (is_sqrt || expr_builtin_lookup(name, &fn)) {
+		if (n->nitems != 1) {
+			report(s, SESSION_INPUT, &n->loc, "%s takes one argument, not %zu", name, n->nitems);
+			return false;
+		}
+		const expr *arg;
+		if (!eval_scalar(s, n->items[0], &arg))
+			return false;
+		return make_scalar(s, n, is_sqrt ? expr_pow_rat(ctx, arg, 1, 2) : expr_fun(ctx, fn, arg), out);
+	}
+	model_entry *entry = model_lookup(&s->model, name);
+	unsigned char counts[EXPR_MAX_FUNC_ARGS] = {0};
+	if (!entry || entry->kind != MODEL_FUNC) {
+		if (!parse_partial_name(s, name, &entry, counts)) {
+			if (entry) {
+				report(s, SESSION_INPUT, &n->loc, "'%s' is a %s, not a function", name,
+				       model_kind_name(entry->kind));
+				return false;
+			}
+			const char *hint = suggest(s, name);
+			if (hint)
+				report(s, SESSION_INPUT, &n->loc, "unknown function '%s'; did you mean '%s'?", name, hint);
+			else
+				report(s, SESSION_INPUT, &n->loc,
+				       "unknown function '%s' (declare it with: func %s(t, x))", name, name);
+			return false;
+		}
+	}
+	size_t nargs = expr_func_arity(entry->sym);
+	if (n->nitems != nargs) {
+		report(s, SESSION_INPUT, &n->loc, "%s takes %zu argument%s, not %zu", entry->name, nargs,
+		       nargs == 1 ? "" : "s", n->nitems);
+		return false;
+	}
+	const expr *args[EXPR_MAX_FUNC_ARGS];
+	for (size_t i = 0; i < nargs; i++)
+		if (!eval_scalar(s, n->items[i], &args[i]))
+			return false;
+	return make_scalar(s, n, expr_fapp(ctx, entry->sym, counts, args), out);
+}
+
+/* The symbol a name denotes for differentiation (a parameter, state, noise, t, argument). */
+static const expr *variable_symbol(session *s, const ast_node *n)
+{
+	if (strcmp(n->text, "t") == 0)
+		return s->model.time;
+	model_entry *entry = model_lookup(&s->model, n->text);
+	if (entry && (entry->kind == MODEL_PARAM || entry->kind == MODEL_STATE ||
+		      entry->kind == MODEL_NOISE || entry->kind == MODEL_ARG))
+		return entry->sym;
+	if (entry)
+		report(s, SESSION_INPUT, &n->loc, "cannot differentiate with respect to the %s '%s'",
+		       model_kind_name(entry->kind), n->text);
+	else
+		unknown_name(s, &n->loc, n->text);
+	return NULL;
+}
+
+static bool eval_arith(session *s, const ast_node *n, value *out)
+{
+	expr_ctx *ctx = s->ctx;
+	model *m = &s->model;
+	value a = {0}, b = {0};
+	if (!eval_node(s, n->a, &a))
+		return false;
+	if (!eval_node(s, n->b, &b)) {
+		value_free(&a);
+		return false;
+	}
+	bool ok = true;
+	ito_diff d;
+	switch (n->kind) {
+	case AST_ADD:
+	case AST_SUB:
+		if (a.is_diff != b.is_diff) {
+			report(s, SESSION_INPUT, &n->loc,
+			       "cannot add an expression and a differential (each term needs a dt or a noise differential)");
+			ok = false;
+		} else if (a.is_diff) {
+			if (n->kind == AST_SUB) {
+				ito_diff neg;
+				ito_diff_scale(m, &b.d, expr_int(ctx, -1), &neg);
+				ito_diff_add(m, &a.d, &neg, &d);
+				ito_diff_free(&neg);
+			} else {
+				ito_diff_add(m, &a.d, &b.d, &d);
+			}
+			ok = make_diff(s, n, &d, out);
+		} else {
+			ok = make_scalar(s, n, n->kind == AST_ADD ? expr_add(ctx, a.e, b.e) : expr_sub(ctx, a.e, b.e), out);
+		}
+		break;
+	case AST_MUL:
+		if (a.is_diff && b.is_diff) {
+			ito_mul(m, &a.d, &b.d, &d);
+			ok = make_diff(s, n, &d, out);
+		} else if (a.is_diff || b.is_diff) {
+			ito_diff_scale(m, a.is_diff ? &a.d : &b.d, a.is_diff ? b.e : a.e, &d);
+			ok = make_diff(s, n, &d, out);
+		} else {
+			ok = make_scalar(s, n, expr_mul(ctx, a.e, b.e), out);
+		}
+		break;
+	case AST_DIV:
+		if (b.is_diff) {
+			report(s, SESSION_INPUT, &n->b->loc, "cannot divide by a differential");
+			ok = false;
+		} else if (expr_is_zero(b.e)) {
+			report(s, SESSION_INPUT, &n->b->loc, "division by zero");
+			ok = false;
+		} else if (a.is_diff) {
+			ito_diff_scale(m, &a.d, expr_pow(ctx, b.e, expr_int(ctx, -1)), &d);
+			ok = make_diff(s, n, &d, out);
+		} else {
+			ok = make_scalar(s, n, expr_div(ctx, a.e, b.e), out);
+		}
+		break;
+	case AST_POW:
+		if (b.is_diff) {
+			report(s, SESSION_INPUT, &n->b->loc, "an exponent cannot be a differential");
+			ok = false;
+		} else if (a.is_diff) {
+			/* (dX)^1 = dX, (dX)^2 by the table, higher powers vanish */
+			if (!expr_is_integer(b.e) || mpq_sgn(expr_num_value(b.e)) <= 0) {
+				report(s, SESSION_INPUT, &n->b->loc, "a differential can only be raised to a positive integer power");
+				ok = false;
+			} else if (expr_is_one(b.e)) {
+				ito_diff_scale(m, &a.d, expr_int(ctx, 1), &d);
+				ok = make_diff(s, n, &d, out);
+			} else if (mpz_cmp_ui(mpq_numref(expr_num_value(b.e)), 2) == 0) {
+				ito_mul(m, &a.d, &a.d, &d);
+				ok = make_diff(s, n, &d, out);
+			} else {
+				ito_diff_zero(&d, m);
+				ok = make_diff(s, n, &d, out);
+			}
+		} else {
+			ok = make_scalar(s, n, expr_pow(ctx, a.e, b.e), out);
+		}
+		break;
+	default:
+		ok = false;
+	}
+	value_free(&a);
+	value_free(&b);
+	return ok;
+}
+
+static bool eval_node(session *s, const ast_node *n, value *out)
+{
+	expr_ctx *ctx = s->ctx;
+	memset(out, 0, sizeof *out);
+	if (expr_poll_interrupt(ctx)) {
+		engine_failed(s, &n->loc);
+		return false;
+	}
+	switch (n->kind) {
+	case AST_NUM: {
+		const expr *e = expr_decimal(ctx, n->text);
+		if (!e) {
+			report(s, SESSION_LIMIT, &n->loc, "number '%s' is too large (decimal exponents are limited to %d)",
+			       n->text, RAT_MAX_DECIMAL_EXPONENT);
+			return false;
+		}
+		return make_scalar(s, n, e, out);
+	}
+	case AST_NAME:
+		return eval_name(s, n, out);
+	case AST_NEG: {
+		value a;
+		if (!eval_node(s, n->a, &a))
+			return false;
+		if (!a.is_diff)
+			return make_scalar(s, n, expr_neg(ctx, a.e), out);
+		ito_diff d;
+		ito_diff_scale(&s->model, &a.d, expr_int(ctx, -1), &d);
+		value_free(&a);
+		return make_diff(s, n, &d, out);
+	}
+	case AST_ADD:
+	case AST_SUB:
+	case AST_MUL:
+	case AST_DIV:
+	case AST_POW:
+		return eval_arith(s, n, out);
+	case AST_CALL:
+		return eval_call(s, n, out);
+	case AST_PARTIAL: {
+		const expr *e;
+		if (!eval_scalar(s, n->a, &e))
+			return false;
+		for (size_t i = 0; i < n->nitems; i++) {
+			const expr *x = variable_symbol(s, n->items[i]);
+			if (!x)
+				return false;
+			e = diff(ctx, e, x);
+		}
+		return make_scalar(s, n, e, out);
+	}
+	case AST_DIFF: {
+		const expr *e;
+		if (!eval_scalar(s, n->a, &e))
+			return false;
+		ito_diff d;
+		ito_d(&s->model, s->measure, e, &d);
+		return make_diff(s, n, &d, out);
+	}
+	default:
+		report(s, SESSION_INPUT, &n->loc, "not an expression");
+		return false;
+	}
+}
+
+/* ------------------------------------------------------------------ output */
+
+static prn_format printer_format(const session *s)
+{
+	switch (s->format) {
+	case FORMAT_LATEX:
+		return PRN_LATEX;
+	case FORMAT_C:
+		return PRN_C;
+	default:
+		return PRN_TEXT;
+	}
+}
+
+static char *show_expr(session *s, const expr *e)
+{
+	return prn_expr(s->ctx, e, printer_format(s));
+}
+
+static char *text_expr(session *s, const expr *e)
+{
+	return prn_expr(s->ctx, e, PRN_TEXT);
+}
+
+static void put_line(session *s, const char *text)
+{
+	fputs(text, s->opt.out);
+	fputc('\n', s->opt.out);
+	fflush(s->opt.out);
+}
+
+static const expr *noise_name(session *s, size_t k)
+{
+	return s->measure ? s->measure->names[k] : s->model.noises[k];
+}
+
+static const char *measure_label(session *s)
+{
+	return s->measure ? s->measure->name : "P";
+}
+
+/* "d(log(S))", "dS" in text; LaTeX "\mathrm{d}\log S_t". */
+static char *differential_label(session *s, const expr *e, prn_format format)
+{
+	char *body = prn_expr(s->ctx, e, format);
+	char *label;
+	bool symbol = expr_kind_of(e) == EXPR_SYM;
+	if (format == PRN_LATEX) {
+		bool plain = symbol || expr_kind_of(e) == EXPR_FUN;
+		label = xasprintf(plain ? "\\mathrm{d}%s" : "\\mathrm{d}\\left(%s\\right)", body);
+	} else {
+		label = xasprintf(symbol ? "d%s" : "d(%s)", body);
+	}
+	free(body);
+	return label;
+}
+
+/* Does printed text have a + or - outside all parentheses (so it needs them)? */
+static bool top_level_sum(const char *text)
+{
+	int depth = 0;
+	for (const char *c = text; *c; c++) {
+		if (*c == '(' || *c == '{' || *c == '[')
+			depth++;
+		else if (*c == ')' || *c == '}' || *c == ']')
+			depth--;
+		else if (depth == 0 && c != text && (*c == '+' || *c == '-') && c[-1] == ' ')
+			return true;
+	}
+	return false;
+}
+
+/* coefficient*increment for a text or LaTeX line; first says whether it leads. */
+static void put_term(session *s, xbuf *buf, const expr *c, const char *increment, bool latex, bool first)
+{
+	char *text = prn_expr(s->ctx, c, latex ? PRN_LATEX : PRN_TEXT);
+	const char *times = latex ? "\\," : "*";
+	if (top_level_sum(text)) {
+		xbuf_put(buf, first ? "" : " + ");
+		xbuf_printf(buf, latex ? "\\left(%s\\right)%s" : "(%s)*%s", text, increment);
+		free(text);
+		return;
+	}
+	bool negative = text[0] == '-';
+	const char *body = negative ? text + 1 : text;
+	if (first)
+		xbuf_put(buf, negative ? "-" : "");
+	else
+		xbuf_put(buf, negative ? " - " : " + ");
+	if (strcmp(body, "1") == 0)
+		xbuf_put(buf, increment);
+	else
+		xbuf_printf(buf, "%s%s%s", body, times, increment);
+	free(text);
+}
+
+static char *differential_text(session *s, const ito_diff *d, bool latex)
+{
+	xbuf buf = {0};
+	bool first = true;
+	if (!expr_is_zero(d->dt)) {
+		put_term(s, &buf, d->dt, latex ? "\\mathrm{d}t" : "dt", latex, first);
+		first = false;
+	}
+	for (size_t k = 0; k < d->n; k++) {
+		if (expr_is_zero(d->dw[k]))
+			continue;
+		const char *name = expr_sym_name(noise_name(s, k));
+		char *increment;
+		if (latex) {
+			char *l = prn_latex_name(name, true);
+			increment = xasprintf("\\mathrm{d}%s", l);
+			free(l);
+		} else {
+			increment = xasprintf("d%s", name);
+		}
+		put_term(s, &buf, d->dw[k], increment, latex, first);
+		free(increment);
+		first = false;
+	}
+	if (first)
+		xbuf_put(&buf, "0");
+	return xbuf_take(&buf);
+}
+
+static void json_field(xbuf *buf, const char *key, const char *text)
+{
+	xbuf_printf(buf, ",\"%s\":", key);
+	prn_json_string(buf, text);
+}
+
+static void json_diffusion(session *s, xbuf *buf, const ito_diff *d)
+{
+	xbuf_put(buf, ",\"diffusion\":{");
+	bool first = true;
+	for (size_t k = 0; k < d->n; k++) {
+		if (expr_is_zero(d->dw[k]))
+			continue;
+		if (!first)
+			xbuf_putc(buf, ',');
+		prn_json_string(buf, expr_sym_name(noise_name(s, k)));
+		xbuf_putc(buf, ':');
+		char *text = text_expr(s, d->dw[k]);
+		prn_json_string(buf, text);
+		free(text);
+		first = false;
+	}
+	xbuf_putc(buf, '}');
+}
+
+static void c_declaration(session *s, xbuf *buf, const char *name, const expr *e)
+{
+	char *code = prn_expr(s->ctx, e, PRN_C);
+	xbuf_printf(buf, "double %s = %s;\n", name, code);
+	free(code);
+}
+
+/* A differential: d(EXPR) = ... (label NULL for a bare differential value). */
+static void output_differential(session *s, const char *kind, const expr *of, const char *label_text,
+				const ito_diff *d)
+{
+	xbuf buf = {0};
+	switch (s->format) {
+	case FORMAT_TEXT:
+	case FORMAT_LATEX: {
+		bool latex = s->format == FORMAT_LATEX;
+		char *body = differential_text(s, d, latex);
+		if (of) {
+			char *label = differential_label(s, of, latex ? PRN_LATEX : PRN_TEXT);
+			xbuf_printf(&buf, "%s = %s", label, body);
+			free(label);
+		} else {
+			xbuf_put(&buf, body);
+		}
+		free(body);
+		break;
+	}
+	case FORMAT_C: {
+		char *label = of ? differential_label(s, of, PRN_TEXT) : xstrdup(label_text);
+		xbuf_printf(&buf, "/* %s%s%s */\n", label, s->measure ? " under " : "",
+			    s->measure ? s->measure->name : "");
+		free(label);
+		c_declaration(s, &buf, "drift", d->dt);
+		for (size_t k = 0; k < d->n; k++) {
+			if (expr_is_zero(d->dw[k]))
+				continue;
+			char *name = xasprintf("diffusion_%s", expr_sym_name(noise_name(s, k)));
+			c_declaration(s, &buf, name, d->dw[k]);
+			free(name);
+		}
+		buf.data[--buf.length] = '\0';
+		break;
+	}
+	case FORMAT_JSON: {
+		xbuf_printf(&buf, "{\"kind\":\"%s\"", kind);
+		if (of) {
+			char *text = text_expr(s, of);
+			json_field(&buf, "expr", text);
+			free(text);
+		}
+		json_field(&buf, "measure", measure_label(s));
+		char *drift = text_expr(s, d->dt);
+		json_field(&buf, "drift", drift);
+		free(drift);
+		json_diffusion(s, &buf, d);
+		xbuf_putc(&buf, '}');
+		break;
+	}
+	}
+	put_line(s, buf.data);
+	xbuf_free(&buf);
+}
+
+/* A single expression result: kind "value", "drift", "generator", "qv", "product". */
+static void output_scalar(session *s, const char *kind, const char *query, const expr *of, const expr *e)
+{
+	xbuf buf = {0};
+	char *text = show_expr(s, e);
+	switch (s->format) {
+	case FORMAT_TEXT:
+	case FORMAT_LATEX:
+		xbuf_put(&buf, text);
+		break;
+	case FORMAT_C: {
+		xbuf_printf(&buf, "/* %s */\n", query);
+		char *code = prn_expr(s->ctx, e, PRN_C);
+		xbuf_printf(&buf, "double value = %s;", code);
+		free(code);
+		break;
+	}
+	case FORMAT_JSON: {
+		xbuf_printf(&buf, "{\"kind\":\"%s\"", kind);
+		if (of) {
+			char *o = text_expr(s, of);
+			json_field(&buf, "expr", o);
+			free(o);
+		}
+		if (s->measure)
+			json_field(&buf, "measure", measure_label(s));
+		char *v = text_expr(s, e);
+		json_field(&buf, "value", v);
+		free(v);
+		xbuf_putc(&buf, '}');
+		break;
+	}
+	}
+	free(text);
+	put_line(s, buf.data);
+	xbuf_free(&buf);
+}
+
+/* The source text of a node, for C comments. */
+static char *node_text(session *s, const ast_node *n)
+{
+	if (!s->source || n->loc.first_line != n->loc.last_line)
+		return xstrdup("query");
+	const char *line;
+	size_t length;
+	source_line(s, n->loc.first_line, &line, &length);
+	size_t from = (size_t)(n->loc.first_column - 1), to = (size_t)(n->loc.last_column - 1);
+	if (to > length)
+		to = length;
+	if (from >= to)
+		return xstrdup("query");
+	char *text = xstrndup(line + from, to - from);
+	for (char *c = text; *c; c++)
+		if (*c == '*' && c[1] == '/')
+			c[1] = ' ';
+	return text;
+}
+
+/* ------------------------------------------------------------------ declarations */
+
+static bool check_new_name(session *s, const ast_loc *loc, const char *name, bool allow_arg)
+{
+	if (strcmp(name, "t") == 0 || strcmp(name, "dt") == 0) {
+		report(s, SESSION_INPUT, loc, "'%s' is reserved (time and its differential)", name);
+		return false;
+	}
+	model_entry *entry = model_lookup(&s->model, name);
+	if (entry && !(allow_arg && entry->kind == MODEL_ARG)) {
+		report(s, SESSION_INPUT, loc, "'%s' is already declared as a %s", name, model_kind_name(entry->kind));
+		return false;
+	}
+	/* dW beside a noise W (or a state W) would be ambiguous */
+	if (name[0] == 'd' && name[1]) {
+		model_entry *base = model_lookup(&s->model, name + 1);
+		if (base && (base->kind == MODEL_NOISE || base->kind == MODEL_STATE)) {
+			report(s, SESSION_INPUT, loc, "'%s' would be ambiguous: it is the differential of the %s '%s'",
+			       name, model_kind_name(base->kind), name + 1);
+			return false;
+		}
+	}
+	char *dname = xasprintf("d%s", name);
+	model_entry *clash = model_lookup(&s->model, dname);
+	free(dname);
+	if (clash) {
+		report(s, SESSION_INPUT, loc, "'%s' would make the name 'd%s' (a %s) ambiguous", name, name,
+		       model_kind_name(clash->kind));
+		return false;
+	}
+	return true;
+}
+
+static int sign_from_bound(const expr *bound, ast_rel op)
+{
+	if (!expr_is_num(bound))
+		return EXPR_SIGN_UNKNOWN;
+	int sgn = mpq_sgn(expr_num_value(bound));
+	switch (op) {
+	case REL_GT:
+		return sgn >= 0 ? EXPR_SIGN_POS : EXPR_SIGN_UNKNOWN;
+	case REL_GE:
+		return sgn > 0 ? EXPR_SIGN_POS : sgn == 0 ? EXPR_SIGN_NONNEG : EXPR_SIGN_UNKNOWN;
+	case REL_LT:
+		return sgn <= 0 ? EXPR_SIGN_NEG : EXPR_SIGN_UNKNOWN;
+	case REL_LE:
+		return sgn < 0 ? EXPR_SIGN_NEG : sgn == 0 ? EXPR_SIGN_NONPOS : EXPR_SIGN_UNKNOWN;
+	default:
+		return EXPR_SIGN_UNKNOWN;
+	}
+}
+
+/* Apply a COND (x > 0, x in [a, b]) to the entry's range and the symbol's sign. */
+static bool apply_condition(session *s, model_entry *entry, const ast_node *cond)
+{
+	if (cond->op == REL_NONE)
+		return true;
+	const expr *lo = NULL, *hi = NULL;
+	int sign = EXPR_SIGN_UNKNOWN;
+	if (cond->op == REL_IN) {
+		if (!eval_scalar(s, cond->a->a, &lo) || !eval_scalar(s, cond->a->b, &hi))
+			return false;
+		if (expr_is_num(lo) && expr_is_num(hi) && mpq_cmp(expr_num_value(lo), expr_num_value(hi)) > 0) {
+			report(s, SESSION_INPUT, &cond->a->loc, "empty range: the lower bound is above the upper bound");
+			return false;
+		}
+		if (expr_is_num(lo) && mpq_sgn(expr_num_value(lo)) > 0)
+			sign = EXPR_SIGN_POS;
+		else if (expr_is_num(lo) && mpq_sgn(expr_num_value(lo)) == 0)
+			sign = EXPR_SIGN_NONNEG;
+		else if (expr_is_num(hi) && mpq_sgn(expr_num_value(hi)) < 0)
+			sign = EXPR_SIGN_NEG;
+		else if (expr_is_num(hi) && mpq_sgn(expr_num_value(hi)) == 0)
+			sign = EXPR_SIGN_NONPOS;
+		entry->lo = lo;
+		entry->hi = hi;
+		entry->lo_strict = entry->hi_strict = false;
+	} else {
+		const expr *bound;
+		if (!eval_scalar(s, cond->a, &bound))
+			return false;
+		sign = sign_from_bound(bound, cond->op);
+		if (cond->op == REL_GT || cond->op == REL_GE) {
+			entry->lo = bound;
+			entry->lo_strict = cond->op == REL_GT;
+		} else {
+			entry->hi = bound;
+			entry->hi_strict = cond->op == REL_LT;
+		}
+	}
+	if (sign != EXPR_SIGN_UNKNOWN) {
+		int old = expr_sym_sign(entry->sym);
+		int combined = old & sign;
+		expr_sym_set_sign(s->ctx, entry->sym, combined ? combined : sign);
+	}
+	return true;
+}
+
+static bool run_param(session *s, const ast_node *st)
+{
+	for (size_t i = 0; i < st->nitems; i++)
+		if (!check_new_name(s, &st->items[i]->loc, st->items[i]->text, true))
+			return false;
+	for (size_t i = 0; i < st->nitems; i++) {
+		const ast_node *cond = st->items[i];
+		const expr *sym = expr_sym(s->ctx, cond->text);
+		model_entry *entry = model_add(&s->model, cond->text, MODEL_PARAM, sym);
+		expr_sym_set_rank(s->ctx, sym, PRN_RANK_PARAM);
+		if (!apply_condition(s, entry, cond))
+			return false;
+	}
+	return true;
+}
+
+static bool run_assume(session *s, const ast_node *st)
+{
+	for (size_t i = 0; i < st->nitems; i++) {
+		const ast_node *cond = st->items[i];
+		model_entry *entry = model_lookup(&s->model, cond->text);
+		if (entry && entry->kind != MODEL_PARAM && entry->kind != MODEL_STATE &&
+		    entry->kind != MODEL_ARG) {
+			report(s, SESSION_INPUT, &cond->loc, "cannot assume anything about the %s '%s'",
+			       model_kind_name(entry->kind), cond->text);
+			return false;
+		}
+		if (!entry) {
+			/* an assumption about a state declared later: keep it as an argument-like name */
+			if (!check_new_name(s, &cond->loc, cond->text, false))
+				return false;
+			entry = model_add(&s->model, cond->text, MODEL_ARG, expr_sym(s->ctx, cond->text));
+		}
+		if (!apply_condition(s, entry, cond))
+			return false;
+	}
+	return true;
+}
+
+static bool run_noise(session *s, const ast_node *st)
+{
+	for (size_t i = 0; i < st->nitems; i++)
+		if (!check_new_name(s, &st->items[i]->loc, st->items[i]->text, false))
+			return false;
+	for (size_t i = 0; i < st->nitems; i++) {
+		const expr *sym = expr_sym(s->ctx, st->items[i]->text);
+		model_add(&s->model, st->items[i]->text, MODEL_NOISE, sym);
+		expr_sym_set_rank(s->ctx, sym, PRN_RANK_NOISE);
+		model_add_noise(&s->model, sym);
+	}
+	return true;
+}
+
+/* Cholesky on the numeric correlation matrix: is it positive semi-definite? */
+static bool numeric_psd(const model *m)
+{
+	size_t n = m->nnoises;
+	for (size_t i = 0; i < n * n; i++)
+		if (m->corr[i] && !expr_is_num(m->corr[i]))
+			return true; /* symbolic entries: decided later, at sampled points */
+	double *a = xcalloc(n * n, sizeof *a);
+	for (size_t i = 0; i < n; i++)
+		for (size_t j = 0; j < n; j++)
+			a[i * n + j] = rat_to_double(expr_num_value(model_corr(m, i, j)));
+	bool ok = true;
+	for (size_t j = 0; j < n && ok; j++) {
+		double d = a[j * n + j];
+		for (size_t k = 0; k < j; k++)
+			d -= a[j * n + k] * a[j * n + k];
+		if (d < -1e-12) {
+			ok = false;
+			break;
+		}
+		d = d > 0 ? sqrt(d) : 0;
+		a[j * n + j] = d;
+		for (size_t i = j + 1; i < n; i++) {
+			double v = a[i * n + j];
+			for (size_t k = 0; k < j; k++)
+				v -= a[i * n + k] * a[j * n + k];
+			a[i * n + j] = d > 0 ? v / d : 0;
+			if (d == 0 && fabs(v) > 1e-12)
+				ok = false;
+		}
+	}
+	free(a);
+	return ok;
+}
+
+static bool run_corr(session *s, const ast_node *st)
+{
+	model *m = &s->model;
+	long idx[2];
+	const ast_node *names[2] = {st->a, st->b};
+	for (int i = 0; i < 2; i++) {
+		model_entry *entry = model_lookup(m, names[i]->text);
+		if (!entry || entry->kind != MODEL_NOISE) {
+			if (entry)
+				report(s, SESSION_INPUT, &names[i]->loc, "'%s' is a %s, not a noise", names[i]->text,
+				       model_kind_name(entry->kind));
+			else
+				unknown_name(s, &names[i]->loc, names[i]->text);
+			return false;
+		}
+		idx[i] = model_noise_index(m, entry->sym);
+	}
+	if (idx[0] == idx[1]) {
+		report(s, SESSION_INPUT, &st->loc, "a noise is perfectly correlated with itself; name two different noises");
+		return false;
+	}
+	const expr *rho;
+	if (!eval_scalar(s, st->c, &rho))
+		return false;
+	if (expr_is_num(rho) && mpz_cmpabs(mpq_numref(expr_num_value(rho)), mpq_denref(expr_num_value(rho))) > 0) {
+		report(s, SESSION_INPUT, &st->c->loc, "a correlation must lie in [-1, 1]");
+		return false;
+	}
+	const expr *old = m->corr[(size_t)idx[0] * m->nnoises + (size_t)idx[1]];
+	model_set_corr(m, (size_t)idx[0], (size_t)idx[1], rho);
+	if (!numeric_psd(m)) {
+		model_set_corr(m, (size_t)idx[0], (size_t)idx[1], old);
+		report(s, SESSION_INPUT, &st->loc,
+		       "the correlation matrix would not be positive semi-definite");
+		return false;
+	}
+	return true;
+}
+
+static bool run_func(session *s, const ast_node *st)
+{
+	if (!check_new_name(s, &st->loc, st->text, false))
+		return false;
+	if (st->nitems > EXPR_MAX_FUNC_ARGS) {
+		report(s, SESSION_INPUT, &st->loc, "a function may have at most %d arguments", EXPR_MAX_FUNC_ARGS);
+		return false;
+	}
+	const char *names[EXPR_MAX_FUNC_ARGS];
+	for (size_t i = 0; i < st->nitems; i++) {
+		names[i] = st->items[i]->text;
+		for (size_t j = 0; j < i; j++)
+			if (strcmp(names[i], names[j]) == 0) {
+				report(s, SESSION_INPUT, &st->items[i]->loc, "argument '%s' is repeated", names[i]);
+				return false;
+			}
+		model_entry *entry = model_lookup(&s->model, names[i]);
+		if (entry && (entry->kind == MODEL_FUNC || entry->kind == MODEL_LET || entry->kind == MODEL_MEASURE)) {
+			report(s, SESSION_INPUT, &st->items[i]->loc, "argument '%s' is already a %s", names[i],
+			       model_kind_name(entry->kind));
+			return false;
+		}
+	}
+	const expr *sym = expr_sym(s->ctx, st->text);
+	expr_func_declare(s->ctx, sym, st->nitems, names);
+	model_add(&s->model, st->text, MODEL_FUNC, sym);
+	for (size_t i = 0; i < st->nitems; i++)
+		if (strcmp(names[i], "t") != 0 && !model_lookup(&s->model, names[i])) {
+			const expr *arg = expr_sym(s->ctx, names[i]);
+			model_add(&s->model, names[i], MODEL_ARG, arg);
+		}
+	return true;
+}
+
+static bool run_let(session *s, const ast_node *st)
+{
+	model_entry *entry = model_lookup(&s->model, st->text);
+	if (entry && entry->kind != MODEL_LET) {
+		report(s, SESSION_INPUT, &st->loc, "'%s' is already declared as a %s", st->text,
+		       model_kind_name(entry->kind));
+		return false;
+	}
+	if (!entry && !check_new_name(s, &st->loc, st->text, false))
+		return false;
+	/* a let may not refer to itself */
+	const char *name = st->text;
+	const ast_node *stack[256];
+	size_t top = 0;
+	stack[top++] = st->a;
+	while (top) {
+		const ast_node *n = stack[--top];
+		if (!n)
+			continue;
+		if ((n->kind == AST_NAME || n->kind == AST_CALL) && strcmp(n->text, name) == 0) {
+			report(s, SESSION_INPUT, &n->loc, "circular definition: '%s' refers to itself", name);
+			return false;
+		}
+		if (top + 3 + n->nitems < 256) {
+			stack[top++] = n->a;
+			stack[top++] = n->b;
+			stack[top++] = n->c;
+			for (size_t i = 0; i < n->nitems; i++)
+				stack[top++] = n->items[i];
+		}
+	}
+	const expr *value_expr;
+	if (!eval_scalar(s, st->a, &value_expr))
+		return false;
+	entry = model_add(&s->model, st->text, MODEL_LET, NULL);
+	entry->value = value_expr;
+	return true;
+}
+
+/* An SDE's right side must be a sum of coefficient*dt and coefficient*dNOISE. */
+static bool check_sde_term(session *s, const ast_node *term)
+{
+	/* count the differential factors in a product */
+	const ast_node *stack[512];
+	size_t top = 0, found = 0;
+	bool bad = false;
+	const char *why = NULL;
+	stack[top++] = term;
+	while (top && !bad) {
+		const ast_node *n = stack[--top];
+		switch (n->kind) {
+		case AST_MUL:
+			if (top + 2 < 512) {
+				stack[top++] = n->a;
+				stack[top++] = n->b;
+			}
+			break;
+		case AST_DIV:
+			stack[top++] = n->a;
+			if (n->b->kind == AST_NAME && (strcmp(n->b->text, "dt") == 0 || differential_of(s, n->b->text)))
+				bad = true, why = "a differential cannot be a divisor";
+			break;
+		case AST_NEG:
+			stack[top++] = n->a;
+			break;
+		case AST_NAME:
+			if (strcmp(n->text, "dt") == 0) {
+				found++;
+			} else {
+				const expr *p = differential_of(s, n->text);
+				if (p) {
+					if (model_noise_index(&s->model, p) < 0)
+						bad = true, why = "a state differential cannot drive an SDE; use the noises";
+					found++;
+				}
+			}
+			break;
+		case AST_POW:
+			if (n->a->kind == AST_NAME && (strcmp(n->a->text, "dt") == 0 || differential_of(s, n->a->text)))
+				bad = true, why = "powers of differentials vanish or are dt; write the dt term";
+			break;
+		case AST_DIFF:
+			bad = true, why = "d(...) cannot appear in an SDE; use dt and the noises";
+			break;
+		default:
+			break;
+		}
+	}
+	if (!bad && found != 1)
+		why = found == 0 ? "this term has no dt or noise differential"
+				 : "this term multiplies two differentials";
+	if (why) {
+		report(s, SESSION_INPUT, &term->loc, "the right side of an SDE must be a sum of coefficient*dt and coefficient*dNOISE terms: %s", why);
+		return false;
+	}
+	return true;
+}
+
+static bool check_sde_terms(session *s, const ast_node *n)
+{
+	if (n->kind == AST_ADD || n->kind == AST_SUB)
+		return check_sde_terms(s, n->a) && check_sde_terms(s, n->b);
+	if (n->kind == AST_NEG && (n->a->kind == AST_ADD || n->a->kind == AST_SUB))
+		return check_sde_terms(s, n->a);
+	return check_sde_term(s, n);
+}
+
+static bool run_sde(session *s, const ast_node *st, bool stratonovich)
+{
+	model *m = &s->model;
+	const char *dname = st->text;
+	if (dname[0] != 'd' || !dname[1] || !is_identifier(dname + 1)) {
+		report(s, SESSION_INPUT, &st->loc,
+		       "'%s = ...' is not a statement: an SDE is written dX = ...*dt + ...*dW, a definition let %s = ...",
+		       dname, dname);
+		return false;
+	}
+	const char *name = dname + 1;
+	model_entry *entry = model_lookup(m, name);
+	if (entry && entry->kind != MODEL_ARG && entry->kind != MODEL_STATE) {
+		report(s, SESSION_INPUT, &st->loc, "'%s' is a %s; an SDE declares a new state", name,
+		       model_kind_name(entry->kind));
+		return false;
+	}
+	if (entry && entry->kind == MODEL_STATE) {
+		report(s, SESSION_INPUT, &st->loc, "the state '%s' already has an SDE", name);
+		return false;
+	}
+	if (!entry && !check_new_name(s, &st->loc, name, false))
+		return false;
+	if (m->nnoises == 0 && !check_sde_terms(s, st->a))
+		return false;
+	if (!check_sde_terms(s, st->a))
+		return false;
+	/* declare the state first so its own SDE may use it */
+	const expr *sym = expr_sym(s->ctx, name);
+	model_entry saved = entry ? *entry : (model_entry){0};
+	bool existed = entry != NULL;
+	entry = model_add(m, name, MODEL_STATE, sym);
+	expr_sym_set_rank(s->ctx, sym, PRN_RANK_STATE);
+	value v;
+	model_sde *sde = model_add_sde(m, sym);
+	sde->stratonovich = stratonovich;
+	if (!eval_node(s, st->a, &v) || !v.is_diff) {
+		if (!v.is_diff && v.e)
+			report(s, SESSION_INPUT, &st->a->loc, "the right side of an SDE must contain dt or a noise differential");
+		model_remove_sde(m, sym);
+		entry = model_lookup(m, name);
+		if (existed) {
+			entry->kind = saved.kind;
+		} else {
+			/* forget the name again */
+			entry->kind = MODEL_ARG;
+			size_t index = (size_t)(entry - m->entries);
+			free(entry->name);
+			memmove(entry, entry + 1, (m->nentries - index - 1) * sizeof *entry);
+			m->nentries--;
+		}
+		expr_sym_set_rank(s->ctx, sym, PRN_RANK_PARAM);
+		return false;
+	}
+	sde = model_sde_of(m, sym);
+	sde->drift = v.d.dt;
+	for (size_t k = 0; k < m->nnoises; k++)
+		sde->diffusion[k] = v.d.dw[k];
+	value_free(&v);
+	return true;
+}
+
+/* dW = dZ - lambda*dt: find the new noise name and the dt coefficient. */
+static bool run_measure(session *s, const ast_node *st)
+{
+	model *m = &s->model;
+	model_entry *existing = model_lookup(m, st->text);
+	if (existing && existing->kind != MODEL_MEASURE) {
+		report(s, SESSION_INPUT, &st->loc, "'%s' is already declared as a %s", st->text,
+		       model_kind_name(existing->kind));
+		return false;
+	}
+	if (!existing && !check_new_name(s, &st->loc, st->text, false))
+		return false;
+	if (strcmp(st->text, "P") == 0) {
+		report(s, SESSION_INPUT, &st->loc, "'P' names the model's own measure; choose another name");
+		return false;
+	}
+	size_t n = m->nnoises;
+	const expr **shift = xcalloc(n ? n : 1, sizeof *shift);
+	const expr **names = xcalloc(n ? n : 1, sizeof *names);
+	bool *listed = xcalloc(n ? n : 1, sizeof *listed);
+	bool ok = true;
+	for (size_t i = 0; i < st->nitems && ok; i++) {
+		const ast_node *as = st->items[i];
+		const expr *w = differential_of(s, as->text);
+		long k = w ? model_noise_index(m, w) : -1;
+		if (k < 0) {
+			report(s, SESSION_INPUT, &as->loc, "'%s' is not the differential of a declared noise", as->text);
+			ok = false;
+			break;
+		}
+		if (listed[k]) {
+			report(s, SESSION_INPUT, &as->loc, "the noise '%s' is listed twice", as->text + 1);
+			ok = false;
+			break;
+		}
+		/* split the right side into the new noise's differential and the rest */
+		const ast_node *rhs = as->a;
+		const ast_node *newname = NULL, *rest = NULL;
+		bool rest_negated = false;
+		if (rhs->kind == AST_NAME)
+			newname = rhs;
+		else if ((rhs->kind == AST_ADD || rhs->kind == AST_SUB) && rhs->a->kind == AST_NAME &&
+			 rhs->a->text[0] == 'd' && strcmp(rhs->a->text, "dt") != 0) {
+			newname = rhs->a;
+			rest = rhs->b;
+			rest_negated = rhs->kind == AST_SUB;
+		} else if (rhs->kind == AST_ADD && rhs->b->kind == AST_NAME && rhs->b->text[0] == 'd' &&
+			   strcmp(rhs->b->text, "dt") != 0) {
+			newname = rhs->b;
+			rest = rhs->a;
+		}
+		if (!newname || newname->text[0] != 'd' || !is_identifier(newname->text + 1) ||
+		    strcmp(newname->text, "dt") == 0) {
+			report(s, SESSION_INPUT, &rhs->loc,
+			       "expected dNEW + (shift)*dt, the differential of the new noise plus a drift term");
+			ok = false;
+			break;
+		}
+		const char *zname = newname->text + 1;
+		model_entry *clash = model_lookup(m, zname);
+		if (clash && !(clash->kind == MODEL_NOISE && clash->sym == w)) {
+			report(s, SESSION_INPUT, &newname->loc, "'%s' is already declared as a %s; name the new noise differently",
+			       zname, model_kind_name(clash->kind));
+			ok = false;
+			break;
+		}
+		const expr *theta = expr_int(s->ctx, 0);
+		if (rest) {
+			value v;
+			if (!eval_node(s, rest, &v)) {
+				ok = false;
+				break;
+			}
+			bool pure_dt = v.is_diff;
+			for (size_t j = 0; pure_dt && j < v.d.n; j++)
+				pure_dt = expr_is_zero(v.d.dw[j]);
+			if (!pure_dt) {
+				value_free(&v);
+				report(s, SESSION_INPUT, &rest->loc, "the shift of a noise must be a coefficient times dt");
+				ok = false;
+				break;
+			}
+			theta = rest_negated ? expr_neg(s->ctx, v.d.dt) : v.d.dt;
+			value_free(&v);
+		}
+		listed[k] = true;
+		shift[k] = theta;
+		names[k] = expr_sym(s->ctx, zname);
+		expr_sym_set_rank(s->ctx, names[k], PRN_RANK_NOISE);
+	}
+	if (ok) {
+		/* unlisted noises: the minimal change, shift_U = rho_UL rho_LL^-1 shift_L */
+		size_t nl = 0;
+		size_t *L = xcalloc(n ? n : 1, sizeof *L);
+		for (size_t k = 0; k < n; k++)
+			if (listed[k])
+				L[nl++] = k;
+		/* solve rho_LL x = shift_L by Gaussian elimination on expressions */
+		const expr **a = xcalloc(nl * (nl + 1) + 1, sizeof *a);
+		for (size_t i = 0; i < nl; i++) {
+			for (size_t j = 0; j < nl; j++)
+				a[i * (nl + 1) + j] = model_corr(m, L[i], L[j]);
+			a[i * (nl + 1) + nl] = shift[L[i]];
+		}
+		for (size_t col = 0; col < nl && ok; col++) {
+			size_t pivot = col;
+			while (pivot < nl && expr_is_zero(a[pivot * (nl + 1) + col]))
+				pivot++;
+			if (pivot == nl) {
+				report(s, SESSION_INPUT, &st->loc, "the listed noises are perfectly correlated; list fewer");
+				ok = false;
+				break;
+			}
+			for (size_t j = 0; j <= nl; j++) {
+				const expr *t = a[col * (nl + 1) + j];
+				a[col * (nl + 1) + j] = a[pivot * (nl + 1) + j];
+				a[pivot * (nl + 1) + j] = t;
+			}
+			const expr *p = a[col * (nl + 1) + col];
+			for (size_t j = 0; j <= nl; j++)
+				a[col * (nl + 1) + j] = expr_div(s->ctx, a[col * (nl + 1) + j], p);
+			for (size_t i = 0; i < nl; i++) {
+				if (i == col)
+					continue;
+				const expr *factor = a[i * (nl + 1) + col];
+				if (expr_is_zero(factor))
+					continue;
+				for (size_t j = 0; j <= nl; j++)
+					a[i * (nl + 1) + j] = expr_sub(s->ctx, a[i * (nl + 1) + j],
+								       expr_mul(s->ctx, factor, a[col * (nl + 1) + j]));
+			}
+		}
+		for (size_t k = 0; k < n && ok; k++) {
+			if (listed[k])
+				continue;
+			names[k] = m->noises[k];
+			expr_vec parts = {0};
+			for (size_t i = 0; i < nl; i++)
+				expr_vec_push(&parts, expr_mul(s->ctx, model_corr(m, k, L[i]), a[i * (nl + 1) + nl]));
+			shift[k] = expr_add_n(s->ctx, parts.n, parts.items);
+			expr_vec_free(&parts);
+		}
+		free(a);
+		free(L);
+	}
+	if (ok && engine_failed(s, &st->loc))
+		ok = false;
+	if (ok) {
+		model_measure *q = model_add_measure(m, st->text);
+		for (size_t k = 0; k < n; k++) {
+			q->shift[k] = shift[k];
+			q->names[k] = names[k];
+		}
+		model_add(m, st->text, MODEL_MEASURE, NULL);
+	}
+	free(shift);
+	free(names);
+	free(listed);
+	return ok;
+}
+
+/* state x = log(S) where S = exp(x): rewrite the model in x. */
+static bool run_state(session *s, const ast_node *st)
+{
+	model *m = &s->model;
+	expr_ctx *ctx = s->ctx;
+	const ast_node *where = st->b;
+	model_entry *old = model_lookup(m, where->text);
+	if (!old || old->kind != MODEL_STATE) {
+		if (old)
+			report(s, SESSION_INPUT, &where->loc, "'%s' is a %s, not a state", where->text,
+			       model_kind_name(old->kind));
+		else
+			unknown_name(s, &where->loc, where->text);
+		return false;
+	}
+	if (!check_new_name(s, &st->loc, st->text, false))
+		return false;
+	const expr *old_sym = old->sym;
+	const expr *forward;
+	if (!eval_scalar(s, st->a, &forward))
+		return false;
+	/* the new name is visible in the inverse */
+	const expr *new_sym = expr_sym(ctx, st->text);
+	model_entry *tmp = model_add(m, st->text, MODEL_PARAM, new_sym);
+	(void)tmp;
+	const expr *inverse = NULL;
+	bool ok = eval_scalar(s, where->a, &inverse);
+	model_entry *e = model_lookup(m, st->text);
+	size_t index = (size_t)(e - m->entries);
+	free(e->name);
+	memmove(e, e + 1, (m->nentries - index - 1) * sizeof *e);
+	m->nentries--;
+	if (!ok)
+		return false;
+	/* the inverse must undo the forward map: forward(inverse(x)) = x */
+	const expr *round = expr_subst(ctx, forward, 1, &old_sym, &inverse);
+	if (engine_failed(s, &st->loc))
+		return false;
+	if (round != new_sym) {
+		char *text = text_expr(s, round);
+		report(s, SESSION_INPUT, &where->a->loc,
+		       "the inverse does not undo the new state: substituting it gives %s, not %s", text, st->text);
+		free(text);
+		return false;
+	}
+	ito_diff d;
+	ito_d(m, NULL, forward, &d);
+	if (ito_diff_failed(&d)) {
+		ito_diff_free(&d);
+		engine_failed(s, &st->loc);
+		return false;
+	}
+	/* the new state's SDE in its own variable */
+	model_sde *old_sde = model_sde_of(m, old_sym);
+	size_t position = (size_t)(old_sde - m->sdes);
+	const expr *drift = expr_subst(ctx, d.dt, 1, &old_sym, &inverse);
+	const expr **dw = xcalloc(m->nnoises ? m->nnoises : 1, sizeof *dw);
+	for (size_t k = 0; k < m->nnoises; k++)
+		dw[k] = expr_subst(ctx, d.dw[k], 1, &old_sym, &inverse);
+	ito_diff_free(&d);
+	/* every other coefficient and definition in the new variable */
+	for (size_t i = 0; i < m->nsdes; i++) {
+		if (i == position)
+			continue;
+		model_sde *sde = &m->sdes[i];
+		sde->drift = expr_subst(ctx, sde->drift, 1, &old_sym, &inverse);
+		for (size_t k = 0; k < sde->ndiffusion; k++)
+			sde->diffusion[k] = expr_subst(ctx, sde->diffusion[k], 1, &old_sym, &inverse);
+	}
+	for (size_t i = 0; i < m->nentries; i++)
+		if (m->entries[i].kind == MODEL_LET)
+			m->entries[i].value = expr_subst(ctx, m->entries[i].value, 1, &old_sym, &inverse);
+	for (size_t i = 0; i < m->nmeasures; i++)
+		for (size_t k = 0; k < m->measures[i].nnoises; k++)
+			m->measures[i].shift[k] = expr_subst(ctx, m->measures[i].shift[k], 1, &old_sym, &inverse);
+	model_sde *sde = &m->sdes[position];
+	sde->state = new_sym;
+	sde->stratonovich = false;
+	sde->drift = drift;
+	for (size_t k = 0; k < m->nnoises; k++)
+		sde->diffusion[k] = dw[k];
+	free(dw);
+	model_entry *x = model_add(m, st->text, MODEL_STATE, new_sym);
+	(void)x;
+	expr_sym_set_rank(ctx, new_sym, PRN_RANK_STATE);
+	/* the old name stays usable as a derived process */
+	old = model_lookup(m, where->text);
+	old->kind = MODEL_LET;
+	old->value = inverse;
+	expr_sym_set_rank(ctx, old_sym, PRN_RANK_PARAM);
+	return !engine_failed(s, &st->loc);
+}
+
+/* ------------------------------------------------------------------ show / save */
+
+static void dump_model(session *s, xbuf *out, const char *only)
+{
+	model *m = &s->model;
+	char *text;
+	prn_format keep = PRN_TEXT;
+	(void)keep;
+	for (size_t i = 0; i < m->nentries; i++) {
+		model_entry *e = &m->entries[i];
+		if (only && strcmp(e->name, only) != 0)
+			continue;
+		switch (e->kind) {
+		case MODEL_PARAM:
+			xbuf_printf(out, "param %s", e->name);
+			if (e->lo && e->hi && !e->lo_strict && !e->hi_strict) {
+				char *lo = text_expr(s, e->lo), *hi = text_expr(s, e->hi);
+				xbuf_printf(out, " in [%s, %s]", lo, hi);
+				free(lo);
+				free(hi);
+			} else {
+				if (e->lo) {
+					text = text_expr(s, e->lo);
+					xbuf_printf(out, "\nassume %s %s %s", e->name, e->lo_strict ? ">" : ">=", text);
+					free(text);
+				}
+				if (e->hi) {
+					text = text_expr(s, e->hi);
+					xbuf_printf(out, "\nassume %s %s %s", e->name, e->hi_strict ? "<" : "<=", text);
+					free(text);
+				}
+			}
+			xbuf_putc(out, '\n');
+			break;
+		case MODEL_NOISE:
+			xbuf_printf(out, "noise %s\n", e->name);
+			break;
+		case MODEL_FUNC: {
+			xbuf_printf(out, "func %s(", e->name);
+			for (size_t k = 0; k < expr_func_arity(e->sym); k++)
+				xbuf_printf(out, "%s%s", k ? ", " : "", expr_func_arg_name(e->sym, k));
+			xbuf_put(out, ")\n");
+			break;
+		}
+		default:
+			break;
+		}
+	}
+	if (!only)
+		for (size_t i = 0; i < m->nnoises; i++)
+			for (size_t j = i + 1; j < m->nnoises; j++) {
+				const expr *rho = model_corr(m, i, j);
+				if (expr_is_zero(rho))
+					continue;
+				text = text_expr(s, rho);
+				xbuf_printf(out, "corr(%s, %s) = %s\n", expr_sym_name(m->noises[i]),
+					    expr_sym_name(m->noises[j]), text);
+				free(text);
+			}
+	/* assumptions on states and on names not declared yet */
+	for (size_t i = 0; i < m->nentries; i++) {
+		model_entry *e = &m->entries[i];
+		if ((e->kind != MODEL_STATE && e->kind != MODEL_ARG) || (only && strcmp(e->name, only) != 0))
+			continue;
+		if (e->lo && e->hi && !e->lo_strict && !e->hi_strict) {
+			char *lo = text_expr(s, e->lo), *hi = text_expr(s, e->hi);
+			xbuf_printf(out, "assume %s in [%s, %s]\n", e->name, lo, hi);
+			free(lo);
+			free(hi);
+			continue;
+		}
+		if (e->lo) {
+			text = text_expr(s, e->lo);
+			xbuf_printf(out, "assume %s %s %s\n", e->name, e->lo_strict ? ">" : ">=", text);
+			free(text);
+		}
+		if (e->hi) {
+			text = text_expr(s, e->hi);
+			xbuf_printf(out, "assume %s %s %s\n", e->name, e->hi_strict ? "<" : "<=", text);
+			free(text);
+		}
+	}
+	const model_measure *keep_measure = s->measure;
+	s->measure = NULL;
+	for (size_t i = 0; i < m->nsdes; i++) {
+		model_sde *sde = &m->sdes[i];
+		if (only && strcmp(expr_sym_name(sde->state), only) != 0)
+			continue;
+		ito_diff d = {.dt = sde->drift, .dw = sde->diffusion, .n = sde->ndiffusion};
+		char *body = differential_text(s, &d, false);
+		xbuf_printf(out, "%sd%s = %s\n", sde->stratonovich ? "stratonovich " : "", expr_sym_name(sde->state), body);
+		free(body);
+	}
+	s->measure = keep_measure;
+	for (size_t i = 0; i < m->nentries; i++) {
+		model_entry *e = &m->entries[i];
+		if (e->kind != MODEL_LET || (only && strcmp(e->name, only) != 0))
+			continue;
+		text = text_expr(s, e->value);
+		xbuf_printf(out, "let %s = %s\n", e->name, text);
+		free(text);
+	}
+	for (size_t i = 0; i < m->nmeasures; i++) {
+		model_measure *q = &m->measures[i];
+		if (only && strcmp(q->name, only) != 0)
+			continue;
+		xbuf_printf(out, "measure %s:", q->name);
+		bool first = true;
+		for (size_t k = 0; k < q->nnoises; k++) {
+			if (q->names[k] == m->noises[k])
+				continue; /* implied by the correlations */
+			text = text_expr(s, q->shift[k]);
+			xbuf_printf(out, "%s d%s = d%s + (%s)*dt", first ? "" : ",", expr_sym_name(m->noises[k]),
+				    expr_sym_name(q->names[k]), text);
+			free(text);
+			first = false;
+		}
+		xbuf_putc(out, '\n');
+	}
+}
+
+/* ------------------------------------------------------------------ queries */
+
+static bool run_d(session *s, const ast_node *st)
+{
+	const expr *e;
+	if (!eval_scalar(s, st->a, &e))
+		return false;
+	ito_diff d;
+	ito_d(&s->model, s->measure, e, &d);
+	if (ito_diff_failed(&d) || engine_failed(s, &st->loc)) {
+		ito_diff_free(&d);
+		return false;
+	}
+	output_differential(s, "differential", e, NULL, &d);
+	ito_diff_free(&d);
+	return true;
+}
+
+static bool run_part(session *s, const ast_node *st)
+{
+	const expr *e;
+	if (!eval_scalar(s, st->a, &e))
+		return false;
+	ito_diff d;
+	ito_d(&s->model, s->measure, e, &d);
+	if (ito_diff_failed(&d) || engine_failed(s, &st->loc)) {
+		ito_diff_free(&d);
+		return false;
+	}
+	char *query = node_text(s, st);
+	if (st->kind == AST_S_DIFFUSION) {
+		ito_diff only = d;
+		only.dt = expr_int(s->ctx, 0);
+		if (s->format == FORMAT_JSON) {
+			xbuf buf = {0};
+			char *text = text_expr(s, e);
+			xbuf_put(&buf, "{\"kind\":\"diffusion\"");
+			json_field(&buf, "expr", text);
+			free(text);
+			json_field(&buf, "measure", measure_label(s));
+			json_diffusion(s, &buf, &d);
+			xbuf_putc(&buf, '}');
+			put_line(s, buf.data);
+			xbuf_free(&buf);
+		} else if (s->format == FORMAT_C) {
+			xbuf buf = {0};
+			xbuf_printf(&buf, "/* %s */\n", query);
+			for (size_t k = 0; k < d.n; k++) {
+				if (expr_is_zero(d.dw[k]))
+					continue;
+				char *name = xasprintf("diffusion_%s", expr_sym_name(noise_name(s, k)));
+				c_declaration(s, &buf, name, d.dw[k]);
+				free(name);
+			}
+			if (buf.data[buf.length - 1] == '\n')
+				buf.data[--buf.length] = '\0';
+			put_line(s, buf.data);
+			xbuf_free(&buf);
+		} else {
+			char *body = differential_text(s, &only, s->format == FORMAT_LATEX);
+			put_line(s, body);
+			free(body);
+		}
+	} else {
+		const char *kind = st->kind == AST_S_DRIFT ? "drift" : "generator";
+		output_scalar(s, kind, query, e, d.dt);
+	}
+	free(query);
+	ito_diff_free(&d);
+	return true;
+}
+
+static bool run_qv(session *s, const ast_node *st)
+{
+	const expr *a, *b = NULL;
+	if (!eval_scalar(s, st->a, &a))
+		return false;
+	if (st->b && !eval_scalar(s, st->b, &b))
+		return false;
+	ito_diff da, db;
+	ito_d(&s->model, s->measure, a, &da);
+	if (b)
+		ito_d(&s->model, s->measure, b, &db);
+	const expr *rate = ito_covariation(&s->model, &da, b ? &db : &da);
+	ito_diff_free(&da);
+	if (b)
+		ito_diff_free(&db);
+	if (!rate) {
+		engine_failed(s, &st->loc);
+		return false;
+	}
+	char *query = node_text(s, st);
+	output_scalar(s, "qv", query, NULL, rate);
+	free(query);
+	return true;
+}
+
+static bool run_pde(session *s, const ast_node *st)
+{
+	model *m = &s->model;
+	model_entry *entry = model_lookup(m, st->text);
+	if (entry && entry->kind != MODEL_FUNC) {
+		report(s, SESSION_INPUT, &st->loc, "'%s' is a %s; pde needs an unknown function", st->text,
+		       model_kind_name(entry->kind));
+		return false;
+	}
+	for (size_t i = 0; i < st->nitems; i++) {
+		const ast_node *arg = st->items[i];
+		if (arg->kind != AST_NAME) {
+			report(s, SESSION_INPUT, &arg->loc, "the arguments of pde are names (t and states)");
+			return false;
+		}
+		if (strcmp(arg->text, "t") == 0)
+			continue;
+		model_entry *a = model_lookup(m, arg->text);
+		if (!a) {
+			unknown_name(s, &arg->loc, arg->text);
+			return false;
+		}
+	}
+	if (!entry) {
+		ast_node fake = *st;
+		fake.kind = AST_S_FUNC;
+		if (!run_func(s, &fake))
+			return false;
+		entry = model_lookup(m, st->text);
+	} else if (expr_func_arity(entry->sym) != st->nitems) {
+		report(s, SESSION_INPUT, &st->loc, "%s was declared with %zu arguments", st->text,
+		       expr_func_arity(entry->sym));
+		return false;
+	}
+	const expr *args[EXPR_MAX_FUNC_ARGS];
+	for (size_t i = 0; i < st->nitems; i++) {
+		value v;
+		if (!eval_node(s, st->items[i], &v) || v.is_diff) {
+			value_free(&v);
+			return false;
+		}
+		args[i] = v.e;
+	}
+	const expr *V = expr_fapp(s->ctx, entry->sym, NULL, args);
+	const expr *discount = NULL;
+	if (st->a && !eval_scalar(s, st->a, &discount))
+		return false;
+	const expr *lhs = ito_pde(m, s->measure, V, discount);
+	if (!lhs || engine_failed(s, &st->loc))
+		return false;
+	char *text = show_expr(s, lhs);
+	xbuf buf = {0};
+	switch (s->format) {
+	case FORMAT_TEXT:
+	case FORMAT_LATEX:
+		xbuf_printf(&buf, "%s = 0", text);
+		break;
+	case FORMAT_C: {
+		char *query = node_text(s, st);
+		char *code = prn_expr(s->ctx, lhs, PRN_C);
+		xbuf_printf(&buf, "/* %s (left side of = 0) */\ndouble value = %s;", query, code);
+		free(code);
+		free(query);
+		break;
+	}
+	case FORMAT_JSON: {
+		char *plain = text_expr(s, lhs);
+		xbuf_put(&buf, "{\"kind\":\"pde\"");
+		json_field(&buf, "function", st->text);
+		json_field(&buf, "measure", measure_label(s));
+		json_field(&buf, "equation", plain);
+		xbuf_putc(&buf, '}');
+		free(plain);
+		break;
+	}
+	}
+	free(text);
+	put_line(s, buf.data);
+	xbuf_free(&buf);
+	return true;
+}
+
+static bool run_convention(session *s, const ast_node *st, bool stratonovich)
+{
+	model *m = &s->model;
+	model_entry *entry = model_lookup(m, st->text);
+	if (!entry || entry->kind != MODEL_STATE) {
+		if (entry)
+			report(s, SESSION_INPUT, &st->loc, "'%s' is a %s, not a state", st->text, model_kind_name(entry->kind));
+		else
+			unknown_name(s, &st->loc, st->text);
+		return false;
+	}
+	model_sde *sde = model_sde_of(m, entry->sym);
+	ito_diff d;
+	ito_dynamics(m, s->measure, entry->sym, &d);
+	if (stratonovich) {
+		/* the Stratonovich drift under the measure: shift applies to both conventions alike */
+		const expr *shift = expr_sub(s->ctx, d.dt, ito_state_ito_drift(m, sde));
+		d.dt = expr_add(s->ctx, ito_state_stratonovich_drift(m, sde), shift);
+	}
+	if (ito_diff_failed(&d) || engine_failed(s, &st->loc)) {
+		ito_diff_free(&d);
+		return false;
+	}
+	xbuf buf = {0};
+	const char *convention = stratonovich ? "stratonovich" : "ito";
+	switch (s->format) {
+	case FORMAT_TEXT: {
+		char *body = differential_text(s, &d, false);
+		xbuf_printf(&buf, "%sd%s = %s", stratonovich ? "stratonovich " : "", st->text, body);
+		free(body);
+		break;
+	}
+	case FORMAT_LATEX: {
+		char *body = differential_text(s, &d, true);
+		char *name = prn_latex_name(st->text, true);
+		if (stratonovich) {
+			/* Stratonovich increments are written with a circle */
+			xbuf_printf(&buf, "\\mathrm{d}%s = %s \\quad\\text{(Stratonovich)}", name, body);
+		} else {
+			xbuf_printf(&buf, "\\mathrm{d}%s = %s", name, body);
+		}
+		free(name);
+		free(body);
+		break;
+	}
+	case FORMAT_C: {
+		xbuf_printf(&buf, "/* %s d%s */\n", convention, st->text);
+		c_declaration(s, &buf, "drift", d.dt);
+		for (size_t k = 0; k < d.n; k++) {
+			if (expr_is_zero(d.dw[k]))
+				continue;
+			char *name = xasprintf("diffusion_%s", expr_sym_name(noise_name(s, k)));
+			c_declaration(s, &buf, name, d.dw[k]);
+			free(name);
+		}
+		buf.data[--buf.length] = '\0';
+		break;
+	}
+	case FORMAT_JSON: {
+		xbuf_put(&buf, "{\"kind\":\"sde\"");
+		json_field(&buf, "state", st->text);
+		json_field(&buf, "convention", convention);
+		json_field(&buf, "measure", measure_label(s));
+		char *drift = text_expr(s, d.dt);
+		json_field(&buf, "drift", drift);
+		free(drift);
+		json_diffusion(s, &buf, &d);
+		xbuf_putc(&buf, '}');
+		break;
+	}
+	}
+	put_line(s, buf.data);
+	xbuf_free(&buf);
+	ito_diff_free(&d);
+	return true;
+}
+
+static bool run_expr_statement(session *s, const ast_node *st)
+{
+	value v;
+	if (!eval_node(s, st->a, &v))
+		return false;
+	if (engine_failed(s, &st->loc)) {
+		value_free(&v);
+		return false;
+	}
+	char *query = node_text(s, st);
+	if (!v.is_diff) {
+		output_scalar(s, "value", query, NULL, v.e);
+	} else {
+		bool product = true;
+		for (size_t k = 0; k < v.d.n; k++)
+			product &= expr_is_zero(v.d.dw[k]);
+		if (product && s->format == FORMAT_JSON)
+			output_scalar(s, "product", query, NULL, v.d.dt);
+		else
+			output_differential(s, product ? "product" : "differential", NULL, query, &v.d);
+	}
+	free(query);
+	value_free(&v);
+	return true;
+}
+
+static bool run_show(session *s, const ast_node *st)
+{
+	if (st->text && !model_lookup(&s->model, st->text)) {
+		unknown_name(s, &st->loc, st->text);
+		return false;
+	}
+	xbuf buf = {0};
+	dump_model(s, &buf, st->text);
+	if (s->format == FORMAT_JSON) {
+		/* one object per state */
+		for (size_t i = 0; i < s->model.nsdes; i++) {
+			model_sde *sde = &s->model.sdes[i];
+			if (st->text && strcmp(expr_sym_name(sde->state), st->text) != 0)
+				continue;
+			ast_node fake = *st;
+			fake.text = (char *)expr_sym_name(sde->state);
+			run_convention(s, &fake, sde->stratonovich);
+		}
+	} else if (buf.length) {
+		if (buf.data[buf.length - 1] == '\n')
+			buf.data[--buf.length] = '\0';
+		put_line(s, buf.data);
+	}
+	xbuf_free(&buf);
+	return true;
+}
+
+static bool run_save(session *s, const ast_node *st)
+{
+	FILE *file = fopen(st->text, "w");
+	if (!file) {
+		report(s, SESSION_INPUT, &st->loc, "cannot write '%s'", st->text);
+		return false;
+	}
+	xbuf buf = {0};
+	dump_model(s, &buf, NULL);
+	fprintf(file, "# itox session saved as a script\n%s", buf.data ? buf.data : "");
+	bool ok = fclose(file) == 0;
+	xbuf_free(&buf);
+	if (!ok)
+		report(s, SESSION_INPUT, &st->loc, "cannot write '%s'", st->text);
+	return ok;
+}
+
+static bool run_format(session *s, const ast_node *st)
+{
+	static const char *const names[] = {"text", "latex", "c", "json"};
+	for (int i = 0; i < 4; i++)
+		if (strcmp(st->text, names[i]) == 0) {
+			s->format = (session_format)i;
+			return true;
+		}
+	report(s, SESSION_INPUT, &st->loc, "unknown format '%s' (text, latex, c or json)", st->text);
+	return false;
+}
+
+static bool run_help(session *s, const ast_node *st)
+{
+	const char *text = help_text(st->text);
+	if (!text) {
+		report(s, SESSION_INPUT, &st->loc, "no help on '%s'; try 'help' for the list of topics", st->text);
+		return false;
+	}
+	fputs(text, s->opt.out);
+	fflush(s->opt.out);
+	return true;
+}
+
+static bool run_statement(session *s, const ast_node *st);
+
+static bool run_under(session *s, const ast_node *st)
+{
+	model_measure *q = model_measure_find(&s->model, st->text);
+	if (!q) {
+		model_entry *entry = model_lookup(&s->model, st->text);
+		if (entry)
+			report(s, SESSION_INPUT, &st->loc, "'%s' is a %s, not a measure", st->text, model_kind_name(entry->kind));
+		else if (strcmp(st->text, "P") == 0)
+			return run_statement(s, st->a);
+		else
+			report(s, SESSION_INPUT, &st->loc, "unknown measure '%s' (declare it with: measure %s: dW = dZ - lambda*dt)",
+			       st->text, st->text);
+		return false;
+	}
+	const model_measure *keep = s->measure;
+	s->measure = q;
+	bool ok = run_statement(s, st->a);
+	s->measure = keep;
+	return ok;
+}
+
+static bool run_claim(session *s, const ast_node *st);
+static bool run_check(session *s, const ast_node *st);
+
+static bool run_statement(session *s, const ast_node *st)
+{
+	expr_clear_error(s->ctx);
+	switch (st->kind) {
+	case AST_S_EXPR:
+		return run_expr_statement(s, st);
+	case AST_S_D:
+		return run_d(s, st);
+	case AST_S_DRIFT:
+	case AST_S_DIFFUSION:
+	case AST_S_GENERATOR:
+		return run_part(s, st);
+	case AST_S_QV:
+		return run_qv(s, st);
+	case AST_S_PDE:
+		return run_pde(s, st);
+	case AST_S_ITO:
+		return run_convention(s, st, false);
+	case AST_S_STRAT:
+		return run_convention(s, st, true);
+	case AST_S_PARAM:
+		return run_param(s, st);
+	case AST_S_ASSUME:
+		return run_assume(s, st);
+	case AST_S_NOISE:
+		return run_noise(s, st);
+	case AST_S_CORR:
+		return run_corr(s, st);
+	case AST_S_FUNC:
+		return run_func(s, st);
+	case AST_S_SDE:
+		return run_sde(s, st, false);
+	case AST_S_STRAT_SDE:
+		return run_sde(s, st, true);
+	case AST_S_LET:
+		return run_let(s, st);
+	case AST_S_MEASURE:
+		return run_measure(s, st);
+	case AST_S_UNDER:
+		return run_under(s, st);
+	case AST_S_STATE:
+		return run_state(s, st);
+	case AST_S_CLAIM:
+		return run_claim(s, st);
+	case AST_S_CHECK:
+		return run_check(s, st);
+	case AST_S_SHOW:
+		return run_show(s, st);
+	case AST_S_SAVE:
+		return run_save(s, st);
+	case AST_S_LOAD: {
+		if (s->load_depth > 16) {
+			report(s, SESSION_LIMIT, &st->loc, "load nested too deeply");
+			return false;
+		}
+		s->load_depth++;
+		int before = s->status;
+		s->status = SESSION_OK;
+		int status = session_run_file(s, st->text);
+		s->load_depth--;
+		if (status == SESSION_INPUT && !s->status)
+			report(s, SESSION_INPUT, &st->loc, "cannot read '%s'", st->text);
+		raise_status(s, before);
+		return status < SESSION_INPUT;
+	}
+	case AST_S_FORMAT:
+		return run_format(s, st);
+	case AST_S_HELP:
+		return run_help(s, st);
+	case AST_S_QUIT:
+		s->quit = true;
+		return true;
+	default:
+		report(s, SESSION_INPUT, &st->loc, "not a statement");
+		return false;
+	}
+}
+
+/* ------------------------------------------------------------------ claim and check */
+
+static bool run_claim(session *s, const ast_node *st)
+{
+	verify_claim_input in = {0};
+	const ast_node *lhs = st->a;
+	value left = {0}, right = {0};
+	bool ok = true;
+	if (lhs->kind == AST_S_D || lhs->kind == AST_S_DRIFT || lhs->kind == AST_S_DIFFUSION ||
+	    lhs->kind == AST_S_GENERATOR || lhs->kind == AST_S_QV) {
+		const expr *e;
+		if (!eval_scalar(s, lhs->a, &e))
+			return false;
+		ito_diff d;
+		ito_d(&s->model, s->measure, e, &d);
+		if (lhs->kind == AST_S_D || lhs->kind == AST_S_DIFFUSION) {
+			if (lhs->kind == AST_S_DIFFUSION)
+				d.dt = expr_int(s->ctx, 0);
+			left.is_diff = true;
+			left.d = d;
+		} else if (lhs->kind == AST_S_QV) {
+			const expr *rate = ito_covariation(&s->model, &d, &d);
+			if (lhs->b) {
+				const expr *b;
+				ito_diff db;
+				if (!eval_scalar(s, lhs->b, &b)) {
+					ito_diff_free(&d);
+					return false;
+				}
+				ito_d(&s->model, s->measure, b, &db);
+				rate = ito_covariation(&s->model, &d, &db);
+				ito_diff_free(&db);
+			}
+			left.e = rate;
+			ito_diff_free(&d);
+		} else {
+			left.e = d.dt;
+			ito_diff_free(&d);
+		}
+	} else if (!eval_node(s, lhs, &left)) {
+		return false;
+	}
+	if (!eval_node(s, st->b, &right)) {
+		value_free(&left);
+		return false;
+	}
+	if (left.is_diff != right.is_diff) {
+		report(s, SESSION_INPUT, &st->b->loc, left.is_diff ? "the left side is a differential, the right side is not"
+								   : "the right side is a differential, the left side is not");
+		ok = false;
+	}
+	if (ok && engine_failed(s, &st->loc))
+		ok = false;
+	if (ok) {
+		in.is_diff = left.is_diff;
+		if (left.is_diff) {
+			in.nparts = left.d.n + 1;
+			in.lhs = xcalloc(in.nparts, sizeof *in.lhs);
+			in.rhs = xcalloc(in.nparts, sizeof *in.rhs);
+			in.lhs[0] = left.d.dt;
+			in.rhs[0] = right.d.dt;
+			for (size_t k = 0; k < left.d.n; k++) {
+				in.lhs[k + 1] = left.d.dw[k];
+				in.rhs[k + 1] = k < right.d.n ? right.d.dw[k] : expr_int(s->ctx, 0);
+			}
+		} else {
+			in.nparts = 1;
+			in.lhs = xcalloc(1, sizeof *in.lhs);
+			in.rhs = xcalloc(1, sizeof *in.rhs);
+			in.lhs[0] = left.e;
+			in.rhs[0] = right.e;
+		}
+		verify_result result;
+		verify_claim(s->ctx, &s->model, &in, s->opt.seed + s->claim_count++, &result);
+		const char *part_names[64];
+		(void)part_names;
+		xbuf buf = {0};
+		char *part = NULL;
+		if (!result.holds && result.part >= 0) {
+			if (!in.is_diff)
+				part = xstrdup("the two sides differ");
+			else if (result.part == 0)
+				part = xstrdup("the dt part differs");
+			else
+				part = xasprintf("the d%s part differs", expr_sym_name(noise_name(s, (size_t)result.part - 1)));
+		}
+		if (s->format == FORMAT_JSON) {
+			xbuf_printf(&buf, "{\"kind\":\"claim\",\"holds\":%s", result.holds ? "true" : "false");
+			json_field(&buf, "method", result.method == VERIFY_EXACT ? "exact" : "numeric");
+			if (result.method == VERIFY_NUMERIC)
+				xbuf_printf(&buf, ",\"points\":%zu,\"max_relative_difference\":%.3g", result.points,
+					    result.max_relative);
+			if (!result.holds) {
+				json_field(&buf, "part", part ? part : "");
+				if (result.difference) {
+					char *diff_text = text_expr(s, result.difference);
+					json_field(&buf, "difference", diff_text);
+					free(diff_text);
+				}
+				if (result.point_text)
+					json_field(&buf, "at", result.point_text);
+			}
+			xbuf_putc(&buf, '}');
+		} else {
+			if (result.holds && result.method == VERIFY_EXACT)
+				xbuf_put(&buf, "holds (exact)");
+			else if (result.holds)
+				xbuf_printf(&buf, "holds (numeric: %zu points, max relative difference %.2g)", result.points,
+					    result.max_relative);
+			else {
+				char *diff_text = result.difference ? text_expr(s, result.difference) : xstrdup("?");
+				xbuf_printf(&buf, "fails: %s by %s", part ? part : "the sides differ", diff_text);
+				if (result.point_text)
+					xbuf_printf(&buf, "; at %s", result.point_text);
+				free(diff_text);
+			}
+		}
+		put_line(s, buf.data);
+		xbuf_free(&buf);
+		free(part);
+		if (!result.holds)
+			raise_status(s, SESSION_FAILED);
+		verify_result_free(&result);
+		free(in.lhs);
+		free(in.rhs);
+	}
+	value_free(&left);
+	value_free(&right);
+	return ok;
+}
+
+static bool run_check(session *s, const ast_node *st)
+{
+	report(s, SESSION_INPUT, &st->loc,
+	       "check (the numerical cross-check) is not available in this version; use claim for identities");
+	return false;
+}
+
+/* ------------------------------------------------------------------ running */
+
+session *session_new(const session_options *options)
+{
+	session *s = xcalloc(1, sizeof *s);
+	s->opt = *options;
+	if (!s->opt.out)
+		s->opt.out = stdout;
+	if (!s->opt.err)
+		s->opt.err = stderr;
+	s->format = options->format;
+	xalloc_use_for_gmp();
+	s->ctx = expr_ctx_new();
+	expr_ctx_limits(s->ctx)->interrupt = options->interrupt;
+	model_init(&s->model, s->ctx);
+	expr_sym_set_rank(s->ctx, s->model.time, PRN_RANK_TIME);
+	return s;
+}
+
+void session_free(session *s)
+{
+	if (!s)
+		return;
+	model_free(&s->model);
+	expr_ctx_free(s->ctx);
+	free(s);
+}
+
+int session_status(const session *s)
+{
+	return s->status;
+}
+
+bool session_quit_requested(const session *s)
+{
+	return s->quit;
+}
+
+void session_each_name(const session *s, void (*fn)(const char *name, void *data), void *data)
+{
+	for (size_t i = 0; i < s->model.nentries; i++)
+		fn(s->model.entries[i].name, data);
+}
+
+bool session_incomplete(const char *source, size_t length)
+{
+	ast_list list;
+	ast_parse(source, length, MAX_NESTING, &list);
+	bool incomplete = list.error.present && list.error.incomplete;
+	ast_list_free(&list);
+	return incomplete;
+}
+
+int session_run(session *s, const char *source, size_t length, const char *origin)
+{
+	const char *keep_source = s->source, *keep_origin = s->origin;
+	size_t keep_length = s->length;
+	int keep_status = s->status;
+	s->source = source;
+	s->length = length;
+	s->origin = origin;
+	s->status = SESSION_OK;
+	ast_list list;
+	ast_parse(source, length, MAX_NESTING, &list);
+	for (size_t i = 0; i < list.n && !s->quit; i++) {
+		if (s->opt.before_statement)
+			s->opt.before_statement(s->opt.hook_data);
+		if (!run_statement(s, list.stmts[i]) && s->status >= SESSION_INPUT)
+			break;
+		if (s->opt.interrupt && *s->opt.interrupt)
+			break;
+	}
+	if (list.error.present && s->status < SESSION_INPUT && !s->quit)
+		report(s, strstr(list.error.message, "too deep") || strstr(list.error.message, "too long")
+				  ? SESSION_LIMIT : SESSION_INPUT,
+		       &list.error.loc, "%s", list.error.message);
+	ast_list_free(&list);
+	int status = s->status;
+	s->source = keep_source;
+	s->length = keep_length;
+	s->origin = keep_origin;
+	s->status = keep_status;
+	raise_status(s, status);
+	return status;
+}
+
+int session_run_file(session *s, const char *path)
+{
+	FILE *file = fopen(path, "rb");
+	if (!file) {
+		fprintf(s->opt.err, "%s: error: cannot open the file\n", path);
+		raise_status(s, SESSION_INPUT);
+		return SESSION_INPUT;
+	}
+	xbuf buf = {0};
+	char chunk[65536];
+	size_t n;
+	while ((n = fread(chunk, 1, sizeof chunk, file)) > 0)
+		xbuf_putn(&buf, chunk, n);
+	fclose(file);
+	int status = session_run(s, buf.data ? buf.data : "", buf.length, path);
+	xbuf_free(&buf);
+	return status;
+}

@@ -1,0 +1,56 @@
+/* session.h - runs statements: syntax tree -> model/ito/verify -> printer.
+ *
+ * A session is the whole state of one run: the expression context, the model,
+ * the output format and the exit status so far.  It writes results to `out`
+ * and diagnostics to `err`, streams its caller chose.
+ */
+#ifndef ITOX_SESSION_H
+#define ITOX_SESSION_H
+
+#include <signal.h>
+#include <stdbool.h>
+#include <stdio.h>
+
+/* Exit statuses (LANGUAGE.md). */
+enum {
+	SESSION_OK = 0,
+	SESSION_FAILED = 1,   /* a claim or check failed */
+	SESSION_INPUT = 2,    /* an error in the input */
+	SESSION_LIMIT = 3,    /* an internal limit was hit */
+};
+
+typedef enum session_format { FORMAT_TEXT, FORMAT_LATEX, FORMAT_C, FORMAT_JSON } session_format;
+
+typedef struct session_options {
+	FILE *out, *err;
+	session_format format;
+	unsigned long seed;
+	bool quiet;
+	double time_limit;			/* seconds per statement; 0 for none */
+	volatile sig_atomic_t *interrupt;	/* 1: Ctrl-C, 2: time limit; may be NULL */
+	void (*before_statement)(void *data);	/* e.g. arm the time limit; may be NULL */
+	void *hook_data;
+} session_options;
+
+typedef struct session session;
+
+session *session_new(const session_options *options);
+void session_free(session *s);
+
+/* Run a source text (a script, one -e statement, a REPL entry).  origin names
+ * it in messages ("model.itox", "-e:2", "<stdin>").  Returns the status of
+ * this run; session_status() is the worst status so far. */
+int session_run(session *s, const char *source, size_t length, const char *origin);
+int session_run_file(session *s, const char *path);
+
+/* Does source end in the middle of a statement (open parenthesis, trailing
+ * operator)?  The REPL then reads a continuation line. */
+bool session_incomplete(const char *source, size_t length);
+
+int session_status(const session *s);
+bool session_quit_requested(const session *s);
+
+/* Names declared so far (for completion): calls fn for each. */
+void session_each_name(const session *s, void (*fn)(const char *name, void *data), void *data);
+
+#endif

@@ -1,0 +1,16 @@
+/* simp.h - simplification rules that depend on assumptions.
+ *
+ * The rules are applied by the expression constructors themselves (expr_fun,
+ * expr_pow), so every node is simplified when it is made; this header exposes
+ * the sign oracle and the rule switches for tests.
+ */
+#ifndef ITOX_SIMP_H
+#define ITOX_SIMP_H
+
+#include "expr.h"
+
+/* Rewrite e bottom-up with the current assumptions (for nodes built before an
+ * `assume` statement). */
+const expr *simp_refresh(expr_ctx *ctx, const expr *e);
+
+#endif
