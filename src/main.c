@@ -148,9 +148,7 @@ int main(int argc, char **argv)
 	for (int i = optind; i < argc && session_status(s) < 2 && !session_quit_requested(s); i++)
 		session_run_file(s, argv[i]);
 	for (size_t i = 0; i < nstatements && session_status(s) < 2 && !session_quit_requested(s); i++) {
-		char origin[32];
-		snprintf(origin, sizeof origin, "-e:%zu", i + 1);
-		session_run(s, statements[i], strlen(statements[i]), origin);
+		session_run_argument(s, statements[i], (int)i + 1);
 	}
 	if (optind == argc && nstatements == 0) {
 		if (isatty(STDIN_FILENO)) {

@@ -228,38 +228,259 @@ static const expr *common_factor(printer *p, const expr *sum)
 	return result;
 }
 
-/* Split a term into its parameter part and its state part (coefficient in the
- * parameter part). */
-static const expr *state_part(printer *p, const expr *term, const expr **param_part)
+static void sort_factors(dnode *d)
 {
-	expr_ctx *ctx = p->ctx;
-	if (term->kind != EXPR_MUL) {
-		if (max_rank(p, term) == 0 && term->kind != EXPR_FAPP) {
-			*param_part = term;
-			return expr_int(ctx, 1);
+	/* stable insertion sort: canonical order is kept within a rank */
+	for (size_t i = 1; i < d->nfactors; i++)
+		for (size_t j = i; j > 0 && compare_dfactors(&d->factors[j - 1], &d->factors[j]) > 0; j--) {
+			dfactor t = d->factors[j - 1];
+			d->factors[j - 1] = d->factors[j];
+			d->factors[j] = t;
 		}
-		*param_part = expr_int(ctx, 1);
-		return term;
-	}
-	const expr **params = xmalloc((term->nops + 1) * sizeof *params);
-	const expr **states = xmalloc((term->nops + 1) * sizeof *states);
-	size_t np = 0, ns = 0;
-	params[np++] = expr_num(ctx, term->u.mul.coef);
-	for (size_t i = 0; i < term->nops; i++) {
-		const expr *f = expr_pow_pair(ctx, term->u.mul.bases[i], term->u.mul.exps[i]);
-		if (max_rank(p, term->u.mul.bases[i]) == 0 && max_rank(p, term->u.mul.exps[i]) == 0)
-			params[np++] = f;
-		else
-			states[ns++] = f;
-	}
-	*param_part = expr_mul_n(ctx, np, params);
-	const expr *result = expr_mul_n(ctx, ns, states);
-	free(params);
-	free(states);
-	return result;
 }
 
-static dnode *build_sum_terms(printer *p, size_t n, const expr *const *terms);
+/* Append the display of e to the factors of product d (flattening products). */
+static void absorb(printer *p, dnode *d, const expr *e, int sum_rank)
+{
+	dnode *part = build(p, e);
+	bool negative = part->kind == D_NEG;
+	if (negative) {
+		/* keep the sign in the coefficient: -(x)*y reads -x*y */
+		mpq_neg(d->num, d->num);
+		part = part->child;
+	}
+	if (part->kind == D_PROD) {
+		mpq_mul(d->num, d->num, part->num);
+		d->factors = xreallocarray(d->factors, d->nfactors + part->nfactors, sizeof *d->factors);
+		memcpy(d->factors + d->nfactors, part->factors, part->nfactors * sizeof *d->factors);
+		d->nfactors += part->nfactors;
+		return;
+	}
+	if (part->kind == D_NUM) {
+		mpq_mul(d->num, d->num, part->num);
+		return;
+	}
+	d->factors = xreallocarray(d->factors, d->nfactors + 1, sizeof *d->factors);
+	int rank = part->kind == D_SUM ? sum_rank : factor_rank(p, e);
+	d->factors[d->nfactors++] = (dfactor){part, expr_int(p->ctx, 1), NULL, rank};
+}
+
+/* The display of factor * inner, with inner (usually a sum) kept together:
+ * kappa*(theta - v), (mu - 1/2*sigma^2)*S, (...)*V_v. */
+static dnode *product_display(printer *p, const expr *factor, const expr *inner)
+{
+	dnode *d = dnew(p, D_PROD);
+	mpq_set_ui(d->num, 1, 1);
+	int inner_rank = max_rank(p, inner) == 0 ? 1 : 4 * max_rank(p, inner) - 1;
+	absorb(p, d, factor, 0);
+	absorb(p, d, inner, inner_rank);
+	sort_factors(d);
+	if (mpq_sgn(d->num) < 0) {
+		mpq_neg(d->num, d->num);
+		dnode *neg = dnew(p, D_NEG);
+		neg->child = d;
+		return neg;
+	}
+	return d;
+}
+
+static bool is_generic_factor(const expr *base)
+{
+	return base->kind == EXPR_FAPP;
+}
+
+/* Split a term into its generic-function part (f_x, V_SS) and the rest. */
+static const expr *function_part(printer *p, const expr *term, const expr **rest)
+{
+	expr_ctx *ctx = p->ctx;
+	if (term->kind == EXPR_FAPP) {
+		*rest = expr_int(ctx, 1);
+		return term;
+	}
+	if (term->kind != EXPR_MUL) {
+		*rest = term;
+		return expr_int(ctx, 1);
+	}
+	expr_vec keys = {0}, others = {0};
+	expr_vec_push(&others, expr_num(ctx, term->u.mul.coef));
+	for (size_t i = 0; i < term->nops; i++) {
+		const expr *f = expr_pow_pair(ctx, term->u.mul.bases[i], term->u.mul.exps[i]);
+		expr_vec_push(is_generic_factor(term->u.mul.bases[i]) ? &keys : &others, f);
+	}
+	*rest = expr_mul_n(ctx, others.n, others.items);
+	const expr *key = expr_mul_n(ctx, keys.n, keys.items);
+	expr_vec_free(&keys);
+	expr_vec_free(&others);
+	return key;
+}
+
+/* Sort key of a generic-function group: time derivatives first, then by
+ * order, the function itself last (V_t + ... V_S ... V_SS ... - r*V). */
+static int derivative_rank(const expr *key)
+{
+	const expr *f = key;
+	if (key->kind == EXPR_MUL && key->nops > 0)
+		f = key->u.mul.bases[0];
+	if (f->kind != EXPR_FAPP)
+		return 1000;
+	int total = 0, time = 0;
+	for (size_t i = 0; i < f->nops; i++) {
+		total += f->u.fapp.counts[i];
+		if (strcmp(expr_func_arg_name(f->u.fapp.func, i), "t") == 0)
+			time += f->u.fapp.counts[i];
+	}
+	if (total == 0)
+		return 999;
+	return time ? total : 100 + total;
+}
+
+static void push_sum_item(dnode *sum, dnode *item)
+{
+	sum->items = xreallocarray(sum->items, sum->n + 1, sizeof *sum->items);
+	sum->items[sum->n++] = item;
+}
+
+static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *terms);
+
+/* Terms that contain generic functions: grouped by the function part. */
+static void build_function_groups(printer *p, dnode *sum, size_t n, const expr *const *terms)
+{
+	expr_ctx *ctx = p->ctx;
+	const expr **keys = xmalloc(n * sizeof *keys);
+	const expr **rests = xmalloc(n * sizeof *rests);
+	size_t *order = xmalloc(n * sizeof *order);
+	for (size_t i = 0; i < n; i++) {
+		keys[i] = function_part(p, terms[i], &rests[i]);
+		order[i] = i;
+	}
+	/* order by derivative rank, stable */
+	for (size_t i = 1; i < n; i++)
+		for (size_t j = i; j > 0 && derivative_rank(keys[order[j - 1]]) > derivative_rank(keys[order[j]]); j--) {
+			size_t t = order[j - 1];
+			order[j - 1] = order[j];
+			order[j] = t;
+		}
+	bool *used = xcalloc(n, sizeof *used);
+	const expr **group = xmalloc(n * sizeof *group);
+	for (size_t oi = 0; oi < n; oi++) {
+		size_t i = order[oi];
+		if (used[i])
+			continue;
+		size_t ng = 0;
+		for (size_t j = 0; j < n; j++)
+			if (!used[j] && keys[j] == keys[i]) {
+				group[ng++] = rests[j];
+				used[j] = true;
+			}
+		if (expr_is_one(keys[i])) {
+			build_terms(p, sum, ng, group);
+			continue;
+		}
+		const expr *coefficient = expr_add_n(ctx, ng, group);
+		if (ng == 1 || !coefficient || coefficient->kind != EXPR_ADD)
+			push_sum_item(sum, build(p, expr_mul(ctx, coefficient, keys[i])));
+		else
+			push_sum_item(sum, product_display(p, keys[i], coefficient));
+	}
+	free(keys);
+	free(rests);
+	free(order);
+	free(used);
+	free(group);
+}
+
+/* The factor base^e of term (e numeric), or NULL. */
+static const expr *exponent_in(const expr *term, const expr *base)
+{
+	if (term == base)
+		return NULL;
+	if (term->kind != EXPR_MUL)
+		return NULL;
+	for (size_t i = 0; i < term->nops; i++)
+		if (term->u.mul.bases[i] == base && term->u.mul.exps[i]->kind == EXPR_NUM)
+			return term->u.mul.exps[i];
+	return NULL;
+}
+
+static bool term_has(const expr *term, const expr *base, int sign)
+{
+	if (term == base)
+		return sign > 0;
+	const expr *e = exponent_in(term, base);
+	return e && mpq_sgn(e->u.num) == sign;
+}
+
+/* Greedy collection: pull the factor shared by the most terms out of those
+ * terms (states before parameters on ties), then collect the rest. */
+static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *terms)
+{
+	expr_ctx *ctx = p->ctx;
+	if (n == 0)
+		return;
+	if (n == 1) {
+		push_sum_item(sum, build(p, terms[0]));
+		return;
+	}
+	const expr *best = NULL;
+	int best_sign = 0;
+	size_t best_count = 1;
+	int best_rank = -1;
+	for (size_t i = 0; i < n; i++) {
+		const expr *t = terms[i];
+		size_t nb = t->kind == EXPR_MUL ? t->nops : 1;
+		for (size_t b = 0; b < nb; b++) {
+			const expr *base = t->kind == EXPR_MUL ? t->u.mul.bases[b] : t;
+			const expr *ex = t->kind == EXPR_MUL ? t->u.mul.exps[b] : NULL;
+			if (base->kind == EXPR_NUM || (ex && ex->kind != EXPR_NUM))
+				continue;
+			int sign = ex ? mpq_sgn(ex->u.num) : 1;
+			size_t count = 0;
+			for (size_t j = 0; j < n; j++)
+				count += term_has(terms[j], base, sign);
+			int rank = max_rank(p, base);
+			if (count > best_count || (count == best_count && count >= 2 && rank > best_rank)) {
+				best = base;
+				best_sign = sign;
+				best_count = count;
+				best_rank = rank;
+			}
+		}
+	}
+	if (!best || best_count < 2) {
+		for (size_t i = 0; i < n; i++)
+			push_sum_item(sum, build(p, terms[i]));
+		return;
+	}
+	expr_vec with = {0}, without = {0};
+	for (size_t i = 0; i < n; i++)
+		expr_vec_push(term_has(terms[i], best, best_sign) ? &with : &without, terms[i]);
+	const expr *subset = expr_add_n(ctx, with.n, with.items);
+	const expr *common = subset && subset->kind == EXPR_ADD ? common_factor(p, subset) : NULL;
+	const expr *inner = common ? expr_div(ctx, subset, common) : NULL;
+	if (!inner || inner->kind != EXPR_ADD || expr_is_one(common)) {
+		for (size_t i = 0; i < n; i++)
+			push_sum_item(sum, build(p, terms[i]));
+	} else {
+		push_sum_item(sum, product_display(p, common, inner));
+		build_terms(p, sum, without.n, without.items);
+	}
+	expr_vec_free(&with);
+	expr_vec_free(&without);
+}
+
+static bool sum_has_generic(const expr *e)
+{
+	for (size_t i = 0; i < e->nops; i++) {
+		const expr *t = e->u.add.terms[i];
+		if (t->kind == EXPR_FAPP)
+			return true;
+		if (t->kind == EXPR_MUL)
+			for (size_t j = 0; j < t->nops; j++)
+				if (t->u.mul.bases[j]->kind == EXPR_FAPP)
+					return true;
+	}
+	return false;
+}
 
 static dnode *build_add(printer *p, const expr *e)
 {
@@ -267,101 +488,34 @@ static dnode *build_add(printer *p, const expr *e)
 	const expr *common = common_factor(p, e);
 	if (common && !expr_is_one(common)) {
 		const expr *inner = expr_div(ctx, e, common);
-		if (inner && inner->kind == EXPR_ADD) {
-			/* common * (inner): parameters of the factor first, then the sum, then states */
-			dnode *factor = build(p, common);
-			dnode *sum = build(p, inner);
-			dnode *d = dnew(p, D_PROD);
-			mpq_set_ui(d->num, 1, 1);
-			size_t nf = factor->kind == D_PROD ? factor->nfactors : 1;
-			d->factors = xcalloc(nf + 1, sizeof *d->factors);
-			if (factor->kind == D_PROD) {
-				mpq_set(d->num, factor->num);
-				memcpy(d->factors, factor->factors, nf * sizeof *d->factors);
-			} else if (factor->kind == D_NUM) {
-				mpq_set(d->num, factor->num);
-				nf = 0;
-			} else {
-				d->factors[0] = (dfactor){factor, expr_int(ctx, 1), NULL, factor_rank(p, common)};
-			}
-			d->nfactors = nf;
-			int sum_rank = max_rank(p, inner) == 0 ? 1 : 4 * max_rank(p, inner) - 1;
-			d->factors[d->nfactors++] = (dfactor){sum, expr_int(ctx, 1), NULL, sum_rank};
-			for (size_t i = 1; i < d->nfactors; i++)
-				for (size_t j = i; j > 0 && compare_dfactors(&d->factors[j - 1], &d->factors[j]) > 0; j--) {
-					dfactor t = d->factors[j - 1];
-					d->factors[j - 1] = d->factors[j];
-					d->factors[j] = t;
-				}
-			return d;
-		}
+		if (inner && inner->kind == EXPR_ADD)
+			return product_display(p, common, inner);
 	}
-	return build_sum_terms(p, e->nops, (const expr *const *)e->u.add.terms);
-}
-
-/* Group the terms by state part: sum_g (sum of parameter parts) * state part. */
-static dnode *build_sum_terms(printer *p, size_t n, const expr *const *terms)
-{
-	expr_ctx *ctx = p->ctx;
-	const expr **states = xmalloc(n * sizeof *states);
-	const expr **params = xmalloc(n * sizeof *params);
-	for (size_t i = 0; i < n; i++)
-		states[i] = state_part(p, terms[i], &params[i]);
-	bool *used = xcalloc(n, sizeof *used);
 	dnode *sum = dnew(p, D_SUM);
-	sum->items = xmalloc(n * sizeof *sum->items);
-	const expr **group = xmalloc(n * sizeof *group);
-	for (size_t i = 0; i < n; i++) {
-		if (used[i])
-			continue;
-		size_t ng = 0;
-		for (size_t j = i; j < n; j++)
-			if (!used[j] && states[j] == states[i] && states[i] && !expr_is_one(states[i])) {
-				group[ng++] = params[j];
-				used[j] = true;
-			}
-		if (ng <= 1) {
-			used[i] = true;
-			sum->items[sum->n++] = build(p, terms[i]);
-			continue;
-		}
-		const expr *coefficient = expr_add_n(ctx, ng, group);
-		const expr *whole = expr_mul(ctx, coefficient, states[i]);
-		if (!coefficient || coefficient->kind != EXPR_ADD) {
-			sum->items[sum->n++] = build(p, whole);
-			continue;
-		}
-		dnode *left = build(p, coefficient);
-		dnode *right = build(p, states[i]);
-		dnode *d = dnew(p, D_PROD);
-		mpq_set_ui(d->num, 1, 1);
-		size_t nr = right->kind == D_PROD ? right->nfactors : 1;
-		d->factors = xcalloc(nr + 1, sizeof *d->factors);
-		d->factors[0] = (dfactor){left, expr_int(ctx, 1), NULL, -1};
-		if (right->kind == D_PROD) {
-			mpq_set(d->num, right->num);
-			memcpy(d->factors + 1, right->factors, nr * sizeof *d->factors);
-		} else {
-			d->factors[1] = (dfactor){right, expr_int(ctx, 1), NULL, factor_rank(p, states[i])};
-		}
-		d->nfactors = nr + 1;
-		sum->items[sum->n++] = d;
+	if (sum_has_generic(e))
+		build_function_groups(p, sum, e->nops, (const expr *const *)e->u.add.terms);
+	else
+		build_terms(p, sum, e->nops, (const expr *const *)e->u.add.terms);
+	/* flatten nested sums and start with a positive term: mu - 1/2*sigma^2 */
+	dnode *flat = dnew(p, D_SUM);
+	for (size_t i = 0; i < sum->n; i++) {
+		dnode *item = sum->items[i];
+		if (item->kind == D_SUM)
+			for (size_t j = 0; j < item->n; j++)
+				push_sum_item(flat, item->items[j]);
+		else
+			push_sum_item(flat, item);
 	}
-	/* start with a positive term when there is one: mu - 1/2*sigma^2 */
-	if (sum->n > 1 && sum->items[0]->kind == D_NEG) {
-		for (size_t i = 1; i < sum->n; i++)
-			if (sum->items[i]->kind != D_NEG) {
-				dnode *positive = sum->items[i];
-				memmove(sum->items + 1, sum->items, i * sizeof *sum->items);
-				sum->items[0] = positive;
+	if (flat->n > 1 && flat->items[0]->kind == D_NEG) {
+		for (size_t i = 1; i < flat->n; i++)
+			if (flat->items[i]->kind != D_NEG) {
+				dnode *positive = flat->items[i];
+				memmove(flat->items + 1, flat->items, i * sizeof *flat->items);
+				flat->items[0] = positive;
 				break;
 			}
 	}
-	free(states);
-	free(params);
-	free(used);
-	free(group);
-	return sum;
+	return flat;
 }
 
 static dnode *build(printer *p, const expr *e)

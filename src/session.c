@@ -44,6 +44,7 @@ struct session {
 	const model_measure *measure; /* the measure of the current query */
 	int load_depth;
 	unsigned long claim_count;
+	int fixed_line; /* for -e statements: messages say -e:N:COLUMN */
 };
 
 /* An evaluated expression: a number-valued expression or a differential. */
@@ -93,7 +94,10 @@ static void report(session *s, int status, const ast_loc *loc, const char *forma
 	va_end(args);
 	raise_status(s, status);
 	int line = loc ? loc->first_line : 1, column = loc ? loc->first_column : 1;
-	fprintf(s->opt.err, "%s:%d:%d: error: %s\n", s->origin, line, column, message);
+	if (s->fixed_line)
+		fprintf(s->opt.err, "%s:%d:%d: error: %s\n", s->origin, s->fixed_line, column, message);
+	else
+		fprintf(s->opt.err, "%s:%d:%d: error: %s\n", s->origin, line, column, message);
 	if (s->source && loc) {
 		const char *text;
 		size_t length;
@@ -105,7 +109,7 @@ static void report(session *s, int status, const ast_loc *loc, const char *forma
 			fputc(text[c - 1] == '\t' ? '\t' : ' ', s->opt.err);
 		int width = 1;
 		if (loc->last_line == loc->first_line && loc->last_column > loc->first_column)
-			width = loc->last_column - loc->first_column;
+			width = loc->last_column - loc->first_column + 1; /* last_column is inclusive */
 		for (int i = 0; i < width && i < 200; i++)
 			fputc(i == 0 ? '^' : '~', s->opt.err);
 		fputc('\n', s->opt.err);
@@ -113,7 +117,7 @@ static void report(session *s, int status, const ast_loc *loc, const char *forma
 	if (s->format == FORMAT_JSON) {
 		xbuf buf = {0};
 		xbuf_printf(&buf, "{\"kind\":\"error\",\"line\":%d,\"column\":%d,\"status\":%d,\"message\":",
-			    line, column, status);
+			    s->fixed_line ? s->fixed_line : line, column, status);
 		prn_json_string(&buf, message);
 		xbuf_put(&buf, "}\n");
 		fputs(buf.data, s->opt.out);
@@ -858,7 +862,7 @@ static char *node_text(session *s, const ast_node *n)
 	const char *line;
 	size_t length;
 	source_line(s, n->loc.first_line, &line, &length);
-	size_t from = (size_t)(n->loc.first_column - 1), to = (size_t)(n->loc.last_column - 1);
+	size_t from = (size_t)(n->loc.first_column - 1), to = (size_t)n->loc.last_column;
 	if (to > length)
 		to = length;
 	if (from >= to)
@@ -2351,6 +2355,15 @@ int session_run(session *s, const char *source, size_t length, const char *origi
 	return status;
 }
 
+int session_run_argument(session *s, const char *statement, int index)
+{
+	int keep = s->fixed_line;
+	s->fixed_line = index;
+	int status = session_run(s, statement, strlen(statement), "-e");
+	s->fixed_line = keep;
+	return status;
+}
+
 int session_run_file(session *s, const char *path)
 {
 	FILE *file = fopen(path, "rb");
@@ -2368,4 +2381,32 @@ int session_run_file(session *s, const char *path)
 	int status = session_run(s, buf.data ? buf.data : "", buf.length, path);
 	xbuf_free(&buf);
 	return status;
+}
+
+const expr *session_expr(session *s, const char *text)
+{
+	const char *keep_source = s->source, *keep_origin = s->origin;
+	size_t keep_length = s->length;
+	s->source = text;
+	s->length = strlen(text);
+	s->origin = "<expr>";
+	ast_list list;
+	ast_parse(text, s->length, MAX_NESTING, &list);
+	const expr *result = NULL;
+	if (list.error.present)
+		report(s, SESSION_INPUT, &list.error.loc, "%s", list.error.message);
+	else if (list.n != 1 || list.stmts[0]->kind != AST_S_EXPR)
+		report(s, SESSION_INPUT, NULL, "expected one expression");
+	else if (!eval_scalar(s, list.stmts[0]->a, &result))
+		result = NULL;
+	ast_list_free(&list);
+	s->source = keep_source;
+	s->length = keep_length;
+	s->origin = keep_origin;
+	return result;
+}
+
+expr_ctx *session_expr_ctx(session *s)
+{
+	return s->ctx;
 }

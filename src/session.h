@@ -42,6 +42,8 @@ void session_free(session *s);
  * this run; session_status() is the worst status so far. */
 int session_run(session *s, const char *source, size_t length, const char *origin);
 int session_run_file(session *s, const char *path);
+/* Run the index'th -e statement (messages are -e:INDEX:COLUMN). */
+int session_run_argument(session *s, const char *statement, int index);
 
 /* Does source end in the middle of a statement (open parenthesis, trailing
  * operator)?  The REPL then reads a continuation line. */
@@ -49,6 +51,13 @@ bool session_incomplete(const char *source, size_t length);
 
 int session_status(const session *s);
 bool session_quit_requested(const session *s);
+
+/* Parse and evaluate one expression in the session (for tests and tools):
+ * returns the canonical node, or NULL after reporting an error. */
+struct expr;
+struct expr_ctx;
+const struct expr *session_expr(session *s, const char *text);
+struct expr_ctx *session_expr_ctx(session *s);
 
 /* Names declared so far (for completion): calls fn for each. */
 void session_each_name(const session *s, void (*fn)(const char *name, void *data), void *data);
