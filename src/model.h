@@ -28,6 +28,7 @@ typedef struct model_entry {
 	const expr *value; /* MODEL_LET: the definition */
 	const expr *lo, *hi; /* declared range, or NULL */
 	bool lo_strict, hi_strict;
+	bool pending_state; /* named by assume before its SDE: not usable yet */
 } model_entry;
 
 /* The SDE of a state: Itô coefficients, or Stratonovich ones as declared. */

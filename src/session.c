@@ -16,6 +16,7 @@
 #include <time.h>
 
 #include "ast.h"
+#include "check.h"
 #include "diff.h"
 #include "eval.h"
 #include "expr.h"
@@ -45,6 +46,7 @@ struct session {
 	int load_depth;
 	unsigned long claim_count;
 	int fixed_line; /* for -e statements: messages say -e:N:COLUMN */
+	bool in_sde;	/* evaluating an SDE's right side: assumed states may appear */
 };
 
 /* An evaluated expression: a number-valued expression or a differential. */
@@ -345,10 +347,16 @@ static bool eval_name(session *s, const ast_node *n, value *out)
 	model_entry *entry = model_lookup(&s->model, name);
 	if (entry) {
 		switch (entry->kind) {
+		case MODEL_ARG:
+			if (entry->pending_state && !s->in_sde) {
+				report(s, SESSION_INPUT, &n->loc,
+				       "'%s' is used before its SDE (declare d%s = ... first, or param %s)", name, name, name);
+				return false;
+			}
+			return make_scalar(s, n, entry->sym, out);
 		case MODEL_PARAM:
 		case MODEL_STATE:
 		case MODEL_NOISE:
-		case MODEL_ARG:
 			return make_scalar(s, n, entry->sym, out);
 		case MODEL_LET:
 			return make_scalar(s, n, entry->value, out);
@@ -981,6 +989,7 @@ static bool run_param(session *s, const ast_node *st)
 		const ast_node *cond = st->items[i];
 		const expr *sym = expr_sym(s->ctx, cond->text);
 		model_entry *entry = model_add(&s->model, cond->text, MODEL_PARAM, sym);
+		entry->pending_state = false;
 		expr_sym_set_rank(s->ctx, sym, PRN_RANK_PARAM);
 		if (!apply_condition(s, entry, cond))
 			return false;
@@ -1004,6 +1013,7 @@ static bool run_assume(session *s, const ast_node *st)
 			if (!check_new_name(s, &cond->loc, cond->text, false))
 				return false;
 			entry = model_add(&s->model, cond->text, MODEL_ARG, expr_sym(s->ctx, cond->text));
+			entry->pending_state = true;
 		}
 		if (!apply_condition(s, entry, cond))
 			return false;
@@ -1136,7 +1146,7 @@ static bool run_func(session *s, const ast_node *st)
 static bool run_let(session *s, const ast_node *st)
 {
 	model_entry *entry = model_lookup(&s->model, st->text);
-	if (entry && entry->kind != MODEL_LET) {
+	if (entry && entry->kind != MODEL_LET && !(entry->kind == MODEL_ARG && !entry->pending_state)) {
 		report(s, SESSION_INPUT, &st->loc, "'%s' is already declared as a %s", st->text,
 		       model_kind_name(entry->kind));
 		return false;
@@ -1272,11 +1282,15 @@ static bool run_sde(session *s, const ast_node *st, bool stratonovich)
 	model_entry saved = entry ? *entry : (model_entry){0};
 	bool existed = entry != NULL;
 	entry = model_add(m, name, MODEL_STATE, sym);
+	entry->pending_state = false;
 	expr_sym_set_rank(s->ctx, sym, PRN_RANK_STATE);
 	value v;
 	model_sde *sde = model_add_sde(m, sym);
 	sde->stratonovich = stratonovich;
-	if (!eval_node(s, st->a, &v) || !v.is_diff) {
+	s->in_sde = true;
+	bool evaluated = eval_node(s, st->a, &v);
+	s->in_sde = false;
+	if (!evaluated || !v.is_diff) {
 		if (!v.is_diff && v.e)
 			report(s, SESSION_INPUT, &st->a->loc, "the right side of an SDE must contain dt or a noise differential");
 		model_remove_sde(m, sym);
@@ -1576,17 +1590,20 @@ static void dump_model(session *s, xbuf *out, const char *only)
 				xbuf_printf(out, " in [%s, %s]", lo, hi);
 				free(lo);
 				free(hi);
-			} else {
-				if (e->lo) {
-					text = text_expr(s, e->lo);
-					xbuf_printf(out, "\nassume %s %s %s", e->name, e->lo_strict ? ">" : ">=", text);
-					free(text);
-				}
-				if (e->hi) {
-					text = text_expr(s, e->hi);
-					xbuf_printf(out, "\nassume %s %s %s", e->name, e->hi_strict ? "<" : "<=", text);
-					free(text);
-				}
+			} else if (e->lo && !e->hi) {
+				text = text_expr(s, e->lo);
+				xbuf_printf(out, " %s %s", e->lo_strict ? ">" : ">=", text);
+				free(text);
+			} else if (e->hi && !e->lo) {
+				text = text_expr(s, e->hi);
+				xbuf_printf(out, " %s %s", e->hi_strict ? "<" : "<=", text);
+				free(text);
+			} else if (e->lo && e->hi) {
+				char *lo = text_expr(s, e->lo), *hi = text_expr(s, e->hi);
+				xbuf_printf(out, "\nassume %s %s %s, %s %s %s", e->name, e->lo_strict ? ">" : ">=", lo, e->name,
+					    e->hi_strict ? "<" : "<=", hi);
+				free(lo);
+				free(hi);
 			}
 			xbuf_putc(out, '\n');
 			break;
@@ -2053,9 +2070,43 @@ static bool run_under(session *s, const ast_node *st)
 static bool run_claim(session *s, const ast_node *st);
 static bool run_check(session *s, const ast_node *st);
 
+/* Queries need every state that an SDE uses to have its own SDE. */
+static bool model_complete(session *s, const ast_node *st)
+{
+	model *m = &s->model;
+	for (size_t i = 0; i < m->nentries; i++) {
+		model_entry *e = &m->entries[i];
+		if (e->kind != MODEL_ARG || !e->pending_state)
+			continue;
+		for (size_t j = 0; j < m->nsdes; j++) {
+			model_sde *sde = &m->sdes[j];
+			bool uses = expr_has(s->ctx, sde->drift, e->sym);
+			for (size_t k = 0; k < sde->ndiffusion && !uses; k++)
+				uses = expr_has(s->ctx, sde->diffusion[k], e->sym);
+			if (uses) {
+				report(s, SESSION_INPUT, &st->loc,
+				       "the SDE of '%s' uses '%s', which has no SDE yet (declare d%s = ... or param %s)",
+				       expr_sym_name(sde->state), e->name, e->name, e->name);
+				return false;
+			}
+		}
+	}
+	return true;
+}
+
 static bool run_statement(session *s, const ast_node *st)
 {
 	expr_clear_error(s->ctx);
+	switch (st->kind) {
+	case AST_S_EXPR: case AST_S_D: case AST_S_DRIFT: case AST_S_DIFFUSION: case AST_S_GENERATOR:
+	case AST_S_QV: case AST_S_PDE: case AST_S_ITO: case AST_S_STRAT: case AST_S_CLAIM: case AST_S_CHECK:
+	case AST_S_STATE: case AST_S_MEASURE:
+		if (!model_complete(s, st))
+			return false;
+		break;
+	default:
+		break;
+	}
 	switch (st->kind) {
 	case AST_S_EXPR:
 		return run_expr_statement(s, st);
@@ -2262,11 +2313,123 @@ static bool run_claim(session *s, const ast_node *st)
 	return ok;
 }
 
+static bool numeric_value(session *s, const ast_node *n, double *out)
+{
+	const expr *e;
+	if (!eval_scalar(s, n, &e))
+		return false;
+	bool ok;
+	*out = eval_at(s->ctx, e, 0, NULL, NULL, &ok);
+	if (!ok || !isfinite(*out)) {
+		report(s, SESSION_INPUT, &n->loc, "expected a number here");
+		return false;
+	}
+	return true;
+}
+
 static bool run_check(session *s, const ast_node *st)
 {
-	report(s, SESSION_INPUT, &st->loc,
-	       "check (the numerical cross-check) is not available in this version; use claim for identities");
-	return false;
+	model *m = &s->model;
+	const expr *f;
+	if (!eval_scalar(s, st->a, &f))
+		return false;
+	check_input in = {.m = m, .q = s->measure, .f = f, .horizon = 1, .steps = 1000,
+			  .paths = 20000, .seed = s->opt.seed, .verbose = st->verbose};
+	ito_diff engine;
+	ito_d(m, s->measure, f, &engine);
+	value hand = {0};
+	bool ok = !ito_diff_failed(&engine);
+	if (ok && st->b) {
+		ok = eval_node(s, st->b, &hand);
+		if (ok && !hand.is_diff) {
+			report(s, SESSION_INPUT, &st->b->loc, "expected a differential (terms in dt and the noises)");
+			ok = false;
+		}
+		in.hand_derived = true;
+	}
+	in.d = st->b ? &hand.d : &engine;
+	const expr **symbols = xcalloc(st->nitems + 1, sizeof *symbols);
+	double *values = xcalloc(st->nitems + 1, sizeof *values);
+	for (size_t i = 0; i < st->nitems && ok; i++) {
+		const ast_node *as = st->items[i];
+		const expr *sym = NULL;
+		model_entry *entry = model_lookup(m, as->text);
+		if (strcmp(as->text, "t") == 0)
+			sym = m->time;
+		else if (entry && (entry->kind == MODEL_PARAM || entry->kind == MODEL_STATE ||
+				   entry->kind == MODEL_NOISE || entry->kind == MODEL_ARG))
+			sym = entry->sym;
+		if (!sym) {
+			if (entry)
+				report(s, SESSION_INPUT, &as->loc, "cannot set the %s '%s' at a point", model_kind_name(entry->kind), as->text);
+			else
+				unknown_name(s, &as->loc, as->text);
+			ok = false;
+			break;
+		}
+		symbols[in.nvalues] = sym;
+		ok = numeric_value(s, as->a, &values[in.nvalues]);
+		in.nvalues++;
+	}
+	for (size_t i = 0; i < st->nextra && ok; i++) {
+		const ast_node *as = st->extra[i];
+		double v = 0;
+		if (strcmp(as->text, "scheme") == 0) {
+			if (as->a->kind == AST_NAME && strcmp(as->a->text, "milstein") == 0)
+				in.milstein = true;
+			else if (as->a->kind == AST_NAME && strcmp(as->a->text, "euler") == 0)
+				in.milstein = false;
+			else {
+				report(s, SESSION_INPUT, &as->a->loc, "scheme is euler or milstein");
+				ok = false;
+			}
+			continue;
+		}
+		if (!numeric_value(s, as->a, &v)) {
+			ok = false;
+			break;
+		}
+		if (strcmp(as->text, "T") == 0 && v > 0)
+			in.horizon = v;
+		else if (strcmp(as->text, "steps") == 0 && v >= 1 && v == (long)v)
+			in.steps = (long)v;
+		else if (strcmp(as->text, "paths") == 0 && v >= 2 && v == (long)v)
+			in.paths = (long)v;
+		else if (strcmp(as->text, "seed") == 0 && v >= 0 && v == (unsigned long)v)
+			in.seed = (unsigned long)v;
+		else {
+			report(s, SESSION_INPUT, &as->loc,
+			       "over takes T > 0, steps >= 1, paths >= 2 (integers), seed and scheme=euler|milstein");
+			ok = false;
+		}
+	}
+	in.symbols = symbols;
+	in.values = values;
+	if (ok) {
+		check_result result;
+		check_run(s->ctx, &in, &result);
+		if (result.error) {
+			report(s, result.limit_hit ? SESSION_LIMIT : SESSION_INPUT, &st->loc, "%s", result.error);
+			ok = false;
+		} else if (s->format == FORMAT_JSON) {
+			xbuf buf = {0};
+			xbuf_printf(&buf, "{\"kind\":\"check\",\"consistent\":%s%s%s}", result.consistent ? "true" : "false",
+				    result.json && *result.json ? "," : "", result.json ? result.json : "");
+			put_line(s, buf.data);
+			xbuf_free(&buf);
+		} else {
+			fputs(result.text ? result.text : "", s->opt.out);
+			fflush(s->opt.out);
+		}
+		if (ok && !result.consistent)
+			raise_status(s, SESSION_FAILED);
+		check_result_free(&result);
+	}
+	free(symbols);
+	free(values);
+	ito_diff_free(&engine);
+	value_free(&hand);
+	return ok;
 }
 
 /* ------------------------------------------------------------------ running */
