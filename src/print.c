@@ -45,6 +45,7 @@ typedef struct printer {
 	dnode **arena;
 	size_t narena, caparena;
 	expr_map rank_memo; /* node -> NUM holding its max symbol rank */
+	bool frac_part;	    /* LaTeX: writing the only factor of a \\frac part */
 } printer;
 
 static dnode *dnew(printer *p, dkind kind)
@@ -868,6 +869,8 @@ static void emit_fapp(printer *p, xbuf *out, const dnode *d)
 static void emit_power(printer *p, xbuf *out, const dfactor *f, bool absolute)
 {
 	const dnode *base = f->base;
+	bool bare = p->frac_part; /* only this factor may drop its parentheses */
+	p->frac_part = false;
 	if (f->exp_display) {
 		const dnode *ex = f->exp_display;
 		if (absolute && ex->kind == D_NEG)
@@ -897,8 +900,8 @@ static void emit_power(printer *p, xbuf *out, const dfactor *f, bool absolute)
 	if (absolute)
 		mpq_abs(e, e);
 	if (mpq_cmp_ui(e, 1, 1) == 0) {
-		emit_paren(p, out, base, precedence(base) < P_PROD + (p->format == PRN_LATEX ? 0 : 1) &&
-						 base->kind != D_FUN);
+		bool paren = precedence(base) < P_PROD + (p->format == PRN_LATEX ? 0 : 1) && base->kind != D_FUN;
+		emit_paren(p, out, base, paren && !bare);
 	} else if (mpq_cmp_ui(e, 1, 2) == 0) {
 		if (p->format == PRN_LATEX) {
 			xbuf_put(out, "\\sqrt{");
@@ -1017,10 +1020,13 @@ static void emit_prod(printer *p, xbuf *out, const dnode *d)
 	char *bottom = integer ? NULL : number_text(p, mpq_denref(d->num));
 	xbuf num = {0}, den = {0};
 	size_t count = 0;
+	p->frac_part = p->format == PRN_LATEX && nnum + (top != NULL) == 1;
 	emit_factor_list(p, &num, d, false, top, &count);
 	size_t nnum_parts = count;
 	count = 0;
+	p->frac_part = p->format == PRN_LATEX && nden + (bottom != NULL) == 1;
 	emit_factor_list(p, &den, d, true, bottom, &count);
+	p->frac_part = false;
 	size_t nden_parts = count;
 	free(top);
 	free(bottom);

@@ -1,0 +1,116 @@
+"""The C output compiles with cc and evaluates to the same numbers as the text output.
+
+Each query of a stochastic-variance model is printed twice by itox: in C
+(--format=c, one `double NAME = ...;` per coefficient) and in JSON (text
+syntax).  The C declarations are compiled into a small program that prints
+every value at a fixed point; the text expressions are evaluated at the same
+point by SymPy (an independent parser and evaluator).  Every pair must agree.
+Common practice, no source: this only checks that two writers of one result
+agree numerically.
+"""
+import json
+import math
+import os
+import re
+import subprocess
+import sys
+import tempfile
+
+try:
+    import sympy
+except ImportError:
+    print("sympy missing: skipped")
+    sys.exit(77)
+
+ITOX = os.environ.get("ITOX", "./itox")
+MODEL = """\
+param mu, kappa, theta, xi, r, K, sigma1, sigma2 > 0
+param rho in [-1, 1]
+assume S > 0, v > 0, S1 > 0, S2 > 0
+noise W, B
+corr(W, B) = rho
+dS = mu*S*dt + sqrt(v)*S*dW
+dv = kappa*(theta - v)*dt + xi*sqrt(v)*dB
+dS1 = mu*S1*dt + sigma1*S1*dW
+dS2 = r*S2*dt + sigma2*S2*dB
+"""
+QUERIES = [
+    "d log(S)", "d sqrt(v)", "d S1/S2", "d S^(3/2)*exp(-r*t)", "drift Phi(log(S/K)/sqrt(v))",
+    "generator S^2*v", "qv log(S), v", "d(S)*d(v)", "diffusion log(S1*S2)",
+    "d abs(S - K)", "d erf(v) + tanh(S)", "d v^(-1/3)", "partial(phi(log(S))/v, S, v)",
+]
+POINT = {"mu": 0.07, "kappa": 1.3, "theta": 0.04, "xi": 0.5, "r": 0.02, "K": 95.0,
+         "sigma1": 0.25, "sigma2": 0.15, "rho": -0.6, "S": 101.5, "v": 0.035,
+         "S1": 12.0, "S2": 7.5, "t": 0.25}
+
+
+def run(fmt):
+    src = MODEL + "\n".join(QUERIES) + "\n"
+    out = subprocess.run([ITOX, "--format=" + fmt], input=src, capture_output=True, text=True)
+    if out.returncode != 0:
+        print(out.stderr)
+        sys.exit(1)
+    return out.stdout
+
+
+def sympy_value(text):
+    names = {n: sympy.Symbol(n) for n in POINT}
+    names.update({"Phi": lambda x: (1 + sympy.erf(x / sympy.sqrt(2))) / 2,
+                  "phi": lambda x: sympy.exp(-x ** 2 / 2) / sympy.sqrt(2 * sympy.pi),
+                  "abs": sympy.Abs, "erf": sympy.erf, "tanh": sympy.tanh,
+                  "log": sympy.log, "exp": sympy.exp, "sqrt": sympy.sqrt})
+    e = sympy.sympify(text.replace("^", "**"), locals=names)
+    return float(e.subs({names[k]: v for k, v in POINT.items()}).evalf(30))
+
+
+def main():
+    c_text = run("c")
+    blocks = re.split(r"^/\*.*\*/$", c_text, flags=re.M)[1:]
+    json_lines = [json.loads(l) for l in run("json").splitlines() if l.strip()]
+    if len(blocks) != len(json_lines):
+        print("block count differs:", len(blocks), len(json_lines))
+        return 1
+    expected, program = [], []
+    for i, (block, obj) in enumerate(zip(blocks, json_lines)):
+        decls = re.findall(r"double (\w+) = (.*);", block)
+        texts = {}
+        if "drift" in obj:
+            texts["drift"] = obj["drift"]
+        for k, v in obj.get("diffusion", {}).items():
+            texts["diffusion_" + k] = v
+        if "value" in obj:
+            texts["value" if obj["kind"] != "product" else "drift"] = obj["value"]
+        program.append("  {")
+        for name, code in decls:
+            program.append(f"    double {name} = {code};")
+            program.append(f'    printf("%.17g\\n", {name});')
+            expected.append((QUERIES[i], name, sympy_value(texts[name])))
+        program.append("  }")
+    decl_point = "\n".join(f"  double {k} = {v!r};" for k, v in POINT.items())
+    source = ("#include <math.h>\n#include <stdio.h>\nint main(void)\n{\n" + decl_point +
+              "\n" + "\n".join(program) + "\n  return 0;\n}\n")
+    with tempfile.TemporaryDirectory() as d:
+        path = os.path.join(d, "coefficients.c")
+        with open(path, "w") as f:
+            f.write(source)
+        exe = os.path.join(d, "coefficients")
+        cc = subprocess.run(["cc", "-std=c99", "-D_XOPEN_SOURCE=700", "-Wall", "-Werror",
+                             "-Wno-unused-variable", path, "-o", exe, "-lm"],
+                            capture_output=True, text=True)
+        if cc.returncode != 0:
+            print(source)
+            print(cc.stderr)
+            return 1
+        values = [float(x) for x in subprocess.run([exe], capture_output=True, text=True).stdout.split()]
+    passed = failed = 0
+    for (query, name, want), got in zip(expected, values):
+        if math.isclose(got, want, rel_tol=1e-10, abs_tol=1e-12):
+            passed += 1
+        else:
+            failed += 1
+            print(f"DIFFERS {query} {name}: C {got!r}, text {want!r}")
+    print(f"{passed} passed, {failed} failed")
+    return 1 if failed or not passed else 0
+
+
+sys.exit(main())

@@ -1,0 +1,51 @@
+#!/bin/sh
+# latex-compiles.sh - every LaTeX result of a model with all query kinds must
+# compile in display math with amsmath (pdflatex from Debian texlive-latex-base).
+# Skipped (77) when pdflatex is not installed.
+set -u
+command -v pdflatex >/dev/null 2>&1 || { echo "pdflatex not installed: skipped"; exit 77; }
+ITOX=${ITOX:-./itox}
+dir=$(mktemp -d)
+trap 'rm -rf "$dir"' EXIT
+cat > "$dir/model.itox" <<'MODEL'
+param mu, kappa, theta, xi, r, sigma1, sigma2 > 0
+param rho in [-1, 1]
+assume S > 0, v > 0, S1 > 0, S2 > 0
+noise W, B
+corr(W, B) = rho
+dS = mu*S*dt + sqrt(v)*S*dW
+dv = kappa*(theta - v)*dt + xi*sqrt(v)*dB
+dS1 = mu*S1*dt + sigma1*S1*dW
+dS2 = r*S2*dt + sigma2*S2*dB
+func f(t, x)
+d log(S)
+d sqrt(v)
+d S1/S2
+d f(t, log(S))
+dS*dv
+qv log(S), v
+generator S^2
+pde V(t, S, v) discount r
+ito v
+stratonovich v
+partial(Phi(log(S)/sqrt(v)), S)
+exp(-r*t)*abs(S - 1)
+measure Q: dW = dZ - (mu - r)/sqrt(v)*dt
+d S under Q
+MODEL
+if ! "$ITOX" --format=latex "$dir/model.itox" > "$dir/lines.txt"; then
+	echo "itox failed"; exit 1
+fi
+{
+	printf '\\documentclass{article}\n\\usepackage{amsmath}\n\\begin{document}\n'
+	while IFS= read -r line; do printf '\\[ %s \\]\n' "$line"; done < "$dir/lines.txt"
+	printf '\\end{document}\n'
+} > "$dir/doc.tex"
+lines=$(wc -l < "$dir/lines.txt")
+if (cd "$dir" && pdflatex -interaction=nonstopmode -halt-on-error doc.tex > latex.log 2>&1); then
+	echo "$lines LaTeX results compiled"
+	exit 0
+fi
+cat "$dir/doc.tex"
+grep -A3 '^!' "$dir/latex.log"
+exit 1
