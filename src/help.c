@@ -84,9 +84,10 @@ const char *const help_topics[] = {
 
 static const char overview[] =
 	"itox: symbolic Ito calculus.  Statements (help TOPIC for each):\n"
-	"  declarations  param assume noise corr func sde let measure state\n"
-	"  queries       EXPR  d drift diffusion generator qv pde ito stratonovich under\n"
-	"  verification  claim check\n"
+	"  declarations  param (in) assume noise corr func sde let measure state (where)\n"
+	"  queries       EXPR partial d drift diffusion generator qv pde (discount)\n"
+	"                ito stratonovich, any query followed by: under MEASURE\n"
+	"  verification  claim check (at, over, verbose)\n"
 	"  session       show save load format help quit\n"
 	"Example:\n"
 	"  param mu, sigma > 0\n"

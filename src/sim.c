@@ -82,3 +82,77 @@ double sim_normal(sim_rng *rng)
 	rng->has_spare = 1;
 	return u * factor;
 }
+
+/* c = l l^T column by column: l_jj = sqrt(c_jj - sum_k<j l_jk^2),
+ * l_ij = (c_ij - sum_k<j l_ik l_jk) / l_jj. */
+bool sim_cholesky(size_t n, const double *c, double *l)
+{
+	const double slack = 1e-12;
+	for (size_t i = 0; i < n * n; i++)
+		l[i] = 0;
+	for (size_t i = 0; i < n; i++)
+		for (size_t j = 0; j < i; j++)
+			if (!(fabs(c[i * n + j] - c[j * n + i]) <= slack))
+				return false;
+	for (size_t j = 0; j < n; j++) {
+		double pivot = c[j * n + j];
+		for (size_t k = 0; k < j; k++)
+			pivot -= l[j * n + k] * l[j * n + k];
+		if (!(pivot >= -slack))
+			return false;
+		if (pivot <= slack) {
+			/* degenerate: the rest of the column must vanish */
+			for (size_t i = j + 1; i < n; i++) {
+				double rest = c[i * n + j];
+				for (size_t k = 0; k < j; k++)
+					rest -= l[i * n + k] * l[j * n + k];
+				if (!(fabs(rest) <= 1e-9))
+					return false;
+			}
+			continue;
+		}
+		double root = sqrt(pivot);
+		l[j * n + j] = root;
+		for (size_t i = j + 1; i < n; i++) {
+			double rest = c[i * n + j];
+			for (size_t k = 0; k < j; k++)
+				rest -= l[i * n + k] * l[j * n + k];
+			l[i * n + j] = rest / root;
+		}
+	}
+	return true;
+}
+
+void sim_stat_add(sim_stat *s, double x)
+{
+	s->n += 1;
+	double delta = x - s->mean;
+	s->mean += delta / s->n;
+	s->m2 += delta * (x - s->mean);
+}
+
+/* Chan, Golub and LeVeque: M2 = M2a + M2b + delta^2 na nb / n. */
+void sim_stat_merge(sim_stat *into, const sim_stat *other)
+{
+	if (other->n == 0)
+		return;
+	if (into->n == 0) {
+		*into = *other;
+		return;
+	}
+	double n = into->n + other->n;
+	double delta = other->mean - into->mean;
+	into->mean += delta * other->n / n;
+	into->m2 += other->m2 + delta * delta * into->n * other->n / n;
+	into->n = n;
+}
+
+double sim_stat_sd(const sim_stat *s)
+{
+	return s->n > 1 ? sqrt(s->m2 / (s->n - 1)) : 0;
+}
+
+double sim_stat_se(const sim_stat *s)
+{
+	return s->n > 1 ? sim_stat_sd(s) / sqrt(s->n) : 0;
+}
