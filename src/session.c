@@ -2005,6 +2005,10 @@ static bool run_show(session *s, const ast_node *st)
 
 static bool run_save(session *s, const ast_node *st)
 {
+	if (s->opt.no_files) {
+		report(s, SESSION_INPUT, &st->loc, "save is disabled in this session");
+		return false;
+	}
 	FILE *file = fopen(st->text, "w");
 	if (!file) {
 		report(s, SESSION_INPUT, &st->loc, "cannot write '%s'", st->text);
@@ -2155,6 +2159,10 @@ static bool run_statement(session *s, const ast_node *st)
 	case AST_S_SAVE:
 		return run_save(s, st);
 	case AST_S_LOAD: {
+		if (s->opt.no_files) {
+			report(s, SESSION_INPUT, &st->loc, "load is disabled in this session");
+			return false;
+		}
 		if (s->load_depth > 16) {
 			report(s, SESSION_LIMIT, &st->loc, "load nested too deeply");
 			return false;
@@ -2334,7 +2342,8 @@ static bool run_check(session *s, const ast_node *st)
 	if (!eval_scalar(s, st->a, &f))
 		return false;
 	check_input in = {.m = m, .q = s->measure, .f = f, .horizon = 1, .steps = 1000,
-			  .paths = 20000, .seed = s->opt.seed, .verbose = st->verbose};
+			  .paths = 20000, .seed = s->opt.seed, .verbose = st->verbose,
+			  .max_work = s->opt.max_simulation};
 	ito_diff engine;
 	ito_d(m, s->measure, f, &engine);
 	value hand = {0};

@@ -29,6 +29,8 @@ typedef struct session_options {
 	double time_limit;			/* seconds per statement; 0 for none */
 	volatile sig_atomic_t *interrupt;	/* 1: Ctrl-C, 2: time limit; may be NULL */
 	void (*before_statement)(void *data);	/* e.g. arm the time limit; may be NULL */
+	bool no_files;				/* refuse save and load (fuzzing, sandboxes) */
+	long max_simulation;			/* limit on steps*paths of check; 0: default */
 	void *hook_data;
 } session_options;
 

@@ -99,10 +99,19 @@ START_TEST(test_sum_order)
 	ck_assert_uint_eq(expr_nops(want), 3);
 	/* nested sums flatten: (a + b) + (c + x) has four terms */
 	ck_assert_uint_eq(expr_nops(ADD(ADD(a, b), ADD(c, x))), 4);
-	/* the terms are sorted by the node order */
-	const expr *sum = ADD(ADD(x, MUL(N(2), a)), ADD(FN(SIN, y), N(7)));
-	for (size_t i = 1; i < expr_nops(sum); i++)
-		ck_assert_int_lt(expr_compare(expr_op(sum, i - 1), expr_op(sum, i)), 0);
+	/* the terms are sorted by the node order of their coefficient-free parts */
+	const expr *sum = ADD(ADD(x, MUL(N(2), a)), ADD(FN(SIN, y), MUL(N(-3), MUL(a, b))));
+	mpq_t coef;
+	mpq_init(coef);
+	for (size_t i = 1; i < expr_nops(sum); i++) {
+		const expr *before = expr_split_coef(ctx, expr_op(sum, i - 1), coef);
+		const expr *after = expr_split_coef(ctx, expr_op(sum, i), coef);
+		ck_assert_int_lt(expr_compare(before, after), 0);
+	}
+	/* split: -3ab is -3 times ab */
+	SAME(expr_split_coef(ctx, MUL(N(-3), MUL(a, b)), coef), MUL(a, b));
+	ck_assert_int_eq(mpq_cmp_si(coef, -3, 1), 0);
+	mpq_clear(coef);
 }
 END_TEST
 
@@ -179,9 +188,32 @@ START_TEST(test_expansion)
 	/* a sum to a negative power stays a power of the sum */
 	const expr *inverse = POW(ADD(a, b), N(-1));
 	ck_assert_int_eq(expr_kind_of(inverse), EXPR_MUL);
-	SAME(MUL(inverse, ADD(a, b)), N(1));
-	/* (a+b)^2 * (a+b)^-1 = a + b */
-	SAME(MUL(POW(ADD(a, b), N(2)), inverse), ADD(a, b));
+	/* (a+b)^-2 (a+b)^-1 = (a+b)^-3 */
+	SAME(MUL(POW(ADD(a, b), N(-2)), inverse), POW(ADD(a, b), N(-3)));
+}
+END_TEST
+
+/* A sum times a power of the same sum merges the exponents before any
+ * expansion (an expanded polynomial times (a+b)^-1 is not reduced: the form is
+ * canonical for polynomials in the atoms, not for rational functions): (a+b) (a+b)^-1 = 1, x (a+b)^-1 (a+b) = x, (a+b)^-2 (a+b) = (a+b)^-1
+ * (x^m x^n = x^(m+n) with x = a + b). */
+START_TEST(test_sum_times_its_power)
+{
+	const expr *sum = ADD(a, b), *inverse = POW(ADD(a, b), N(-1));
+	SAME(MUL(inverse, sum), N(1));
+	SAME(DIV(sum, sum), N(1));
+	SAME(expr_mul_n(ctx, 3, (const expr *[]){x, inverse, sum}), x);
+	SAME(MUL(POW(sum, N(-2)), sum), inverse);
+}
+END_TEST
+
+/* Products of surds with the same exponent are one surd, so one number has one
+ * form: sqrt(2) sqrt(3) = sqrt(6) (a^r b^r = (ab)^r for a, b > 0). */
+START_TEST(test_surd_products)
+{
+	SAME(MUL(SQRT(N(2)), SQRT(N(3))), SQRT(N(6)));
+	SAME(MUL(SQRT(MUL(N(2), x)), SQRT(N(3))), SQRT(MUL(N(6), x)));
+	SAME(MUL(POW(N(2), Q(1, 3)), POW(N(5), Q(1, 3))), POW(N(10), Q(1, 3)));
 }
 END_TEST
 
@@ -208,7 +240,7 @@ START_TEST(test_powers)
 	SAME(SQRT(Q(1, 8)), MUL(Q(1, 4), SQRT(N(2))));
 	SAME(POW(N(16), Q(1, 3)), MUL(N(2), POW(N(2), Q(1, 3))));
 	SAME(MUL(SQRT(N(2)), SQRT(N(2))), N(2));
-	SAME(MUL(SQRT(N(2)), SQRT(N(3))), SQRT(N(6)));
+	SAME(MUL(SQRT(N(2)), SQRT(N(8))), N(4));
 	/* 1/(2a + 2b) = 1/2 (a + b)^-1: the content of the sum comes out */
 	SAME(DIV(N(1), ADD(MUL(N(2), a), MUL(N(2), b))), MUL(Q(1, 2), POW(ADD(a, b), N(-1))));
 	/* sqrt(4a + 4b) = 2 sqrt(a + b) */
@@ -498,6 +530,8 @@ Suite *expr_suite(void)
 	tcase_add_test(tc, test_product_order);
 	tcase_add_test(tc, test_like_terms);
 	tcase_add_test(tc, test_expansion);
+	tcase_add_test(tc, test_sum_times_its_power);
+	tcase_add_test(tc, test_surd_products);
 	tcase_add_test(tc, test_powers);
 	tcase_add_test(tc, test_exp_log);
 	tcase_add_test(tc, test_assumptions);
