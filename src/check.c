@@ -28,8 +28,9 @@
  * is O(h^2) (Talay and Tubaro's expansion of the weak error, from memory).
  *
  * Domain.  States assumed positive or nonnegative get full truncation: the
- * coefficients see max(x, 0) (Lord, Koekkoek and van Dijk, Quantitative
- * Finance 2010).  Paths whose statistics are not finite are counted, left out
+ * coefficients of the SDEs, and those of the claim, see max(x, 0) (Lord,
+ * Koekkoek and van Dijk, Quantitative Finance 2010); f itself is evaluated at
+ * the state as simulated.  Paths whose statistics are not finite are counted, left out
  * and reported; over 1% of them make the verdict inconsistent.
  *
  * Threads.  Paths run in blocks of CHECK_BLOCK; block j draws from the stream
@@ -78,8 +79,9 @@ typedef struct plan {
 	bool milstein;
 	long *mil_noise; /* nproc: the one noise driving the state, or -1 */
 	eval_prog *coef; /* drift_i, then b_ia (i major), then Milstein 1/2 b b_x */
-	eval_prog *fprog; /* f, claimed drift, claimed b_a */
-	size_t ncoef, nfout;
+	eval_prog *fprog; /* f */
+	eval_prog *cprog; /* the claimed drift and b_a, at the truncated point like the SDE's */
+	size_t ncoef, nclaim;
 	char *note;
 } plan;
 
@@ -129,6 +131,8 @@ static void plan_free(plan *p)
 		eval_free(p->coef);
 	if (p->fprog)
 		eval_free(p->fprog);
+	if (p->cprog)
+		eval_free(p->cprog);
 	free(p->note);
 }
 
@@ -317,15 +321,17 @@ static char *plan_programs(plan *p)
 	free(out);
 	if (!p->coef)
 		return cannot_evaluate(p->ctx, bad);
-	p->nfout = 2 + nn;
-	const expr **fout = xcalloc(p->nfout, sizeof *fout);
-	fout[0] = p->in->f;
-	fout[1] = p->in->d->dt;
-	for (size_t a = 0; a < nn; a++)
-		fout[2 + a] = p->noise[a] < p->in->d->n ? p->in->d->dw[p->noise[a]] : expr_int(p->ctx, 0);
-	p->fprog = eval_compile(p->ctx, p->nfout, fout, p->nvars, p->vars, &bad);
-	free(fout);
+	p->fprog = eval_compile(p->ctx, 1, &p->in->f, p->nvars, p->vars, &bad);
 	if (!p->fprog)
+		return cannot_evaluate(p->ctx, bad);
+	p->nclaim = 1 + nn;
+	const expr **claim = xcalloc(p->nclaim, sizeof *claim);
+	claim[0] = p->in->d->dt;
+	for (size_t a = 0; a < nn; a++)
+		claim[1 + a] = p->noise[a] < p->in->d->n ? p->in->d->dw[p->noise[a]] : expr_int(p->ctx, 0);
+	p->cprog = eval_compile(p->ctx, p->nclaim, claim, p->nvars, p->vars, &bad);
+	free(claim);
+	if (!p->cprog)
 		return cannot_evaluate(p->ctx, bad);
 	return NULL;
 }
@@ -463,7 +469,7 @@ static char *fd_name(const plan *p, const fd_row *row)
 typedef struct scheme {
 	long ratio, pending;
 	double t;
-	double *x, *vars, *cout, *fcur, *fnext, *dw;
+	double *x, *vars, *cout, *claim, *fcur, *fnext, *dw;
 	double *qv, *integ, *resid, *fv, *cov, *mag;
 	bool *below;
 } scheme;
@@ -486,8 +492,9 @@ static void scheme_init(const plan *p, scheme *s, size_t B, long ratio)
 	s->x = xmalloc((np + 1) * B * sizeof *s->x);
 	s->vars = xmalloc(p->nvars * B * sizeof *s->vars);
 	s->cout = xmalloc((p->ncoef + 1) * B * sizeof *s->cout);
-	s->fcur = xmalloc(p->nfout * B * sizeof *s->fcur);
-	s->fnext = xmalloc(p->nfout * B * sizeof *s->fnext);
+	s->claim = xmalloc(p->nclaim * B * sizeof *s->claim);
+	s->fcur = xmalloc(B * sizeof *s->fcur);
+	s->fnext = xmalloc(B * sizeof *s->fnext);
 	s->dw = xcalloc((nn + 1) * B, sizeof *s->dw);
 	s->qv = xcalloc(B, sizeof *s->qv);
 	s->integ = xcalloc(B, sizeof *s->integ);
@@ -510,6 +517,7 @@ static void scheme_free(scheme *s)
 	free(s->x);
 	free(s->vars);
 	free(s->cout);
+	free(s->claim);
 	free(s->fcur);
 	free(s->fnext);
 	free(s->dw);
@@ -535,6 +543,7 @@ static void scheme_step(const plan *p, scheme *s, size_t B, double h)
 	for (size_t q = 0; q < B; q++)
 		s->vars[np * B + q] = s->t;
 	eval_run(p->coef, B, s->vars, s->cout);
+	eval_run(p->cprog, B, s->vars, s->claim);
 	for (size_t i = 0; i < np; i++) {
 		double *x = s->x + i * B;
 		const double *drift = s->cout + i * B;
@@ -557,13 +566,13 @@ static void scheme_step(const plan *p, scheme *s, size_t B, double h)
 	}
 	s->t += h;
 	scheme_eval_f(p, s, B, s->fnext);
-	const double *f0 = s->fcur, *drift = s->fcur + B, *f1 = s->fnext;
+	const double *f0 = s->fcur, *drift = s->claim, *f1 = s->fnext;
 	for (size_t q = 0; q < B; q++) {
 		double df = f1[q] - f0[q], g2 = 0, bdw = 0, mag = 0;
 		for (size_t a = 0; a < nn; a++) {
-			double ba = s->fcur[(2 + a) * B + q], dwa = s->dw[a * B + q], ca = 0;
+			double ba = s->claim[(1 + a) * B + q], dwa = s->dw[a * B + q], ca = 0;
 			for (size_t b = 0; b < nn; b++)
-				ca += p->rho[a * nn + b] * s->fcur[(2 + b) * B + q];
+				ca += p->rho[a * nn + b] * s->claim[(1 + b) * B + q];
 			g2 += ba * ca;
 			bdw += ba * dwa;
 			s->cov[a * B + q] += df * dwa - ca * h;

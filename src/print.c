@@ -46,6 +46,8 @@ typedef struct printer {
 	size_t narena, caparena;
 	expr_map rank_memo; /* node -> NUM holding its max symbol rank */
 	bool frac_part;	    /* LaTeX: writing the only factor of a \\frac part */
+	const prn_abbrev *abbrev;
+	bool top;	    /* building the top-level node (never abbreviated) */
 } printer;
 
 static dnode *dnew(printer *p, dkind kind)
@@ -186,6 +188,22 @@ static const expr *common_factor(printer *p, const expr *sum)
 			mpz_set_ui(content, 1);
 	}
 	const expr *result = expr_int(ctx, 1);
+	/* a fraction common to all terms in absolute value: 1/2*T - 1/2*t = 1/2*(T - t) */
+	bool same_fraction = !integers;
+	const __mpq_struct *first_coef = first->kind == EXPR_MUL ? first->u.mul.coef : NULL;
+	for (size_t i = 0; i < sum->nops && same_fraction; i++) {
+		const expr *t = sum->u.add.terms[i];
+		const __mpq_struct *c = t->kind == EXPR_MUL ? t->u.mul.coef : NULL;
+		same_fraction = c && first_coef && mpz_cmpabs(mpq_numref(c), mpq_numref(first_coef)) == 0 &&
+				mpz_cmp(mpq_denref(c), mpq_denref(first_coef)) == 0;
+	}
+	if (same_fraction) {
+		mpq_t q;
+		mpq_init(q);
+		mpq_abs(q, first_coef);
+		result = expr_num(ctx, q);
+		mpq_clear(q);
+	}
 	if (integers && mpz_cmp_ui(content, 1) > 0) {
 		mpq_t q;
 		mpq_init(q);
@@ -522,6 +540,18 @@ static dnode *build_add(printer *p, const expr *e)
 static dnode *build(printer *p, const expr *e)
 {
 	dnode *d;
+	bool top = p->top;
+	p->top = false;
+	if (p->abbrev && !top && e->kind != EXPR_NUM && e->kind != EXPR_SYM) {
+		for (size_t i = 0; i < p->abbrev->n; i++)
+			if (p->abbrev->nodes[i] == e) {
+				if (p->abbrev->used)
+					p->abbrev->used[i] = true;
+				d = dnew(p, D_SYM);
+				d->e = expr_sym(p->ctx, p->abbrev->names[i]);
+				return d;
+			}
+	}
 	switch (e->kind) {
 	case EXPR_NUM:
 		d = dnew(p, D_NUM);
@@ -1103,9 +1133,14 @@ static void emit(printer *p, xbuf *out, const dnode *d)
 
 char *prn_expr(expr_ctx *ctx, const expr *e, prn_format format)
 {
+	return prn_expr_abbrev(ctx, e, format, NULL);
+}
+
+char *prn_expr_abbrev(expr_ctx *ctx, const expr *e, prn_format format, const prn_abbrev *abbrev)
+{
 	if (!e)
 		return xstrdup("<error>");
-	printer p = {.ctx = ctx, .format = format};
+	printer p = {.ctx = ctx, .format = format, .abbrev = abbrev, .top = true};
 	dnode *d = build(&p, e);
 	xbuf out = {0};
 	emit(&p, &out, d);

@@ -19,6 +19,17 @@ enum { PRN_RANK_PARAM = 0, PRN_RANK_TIME = 1, PRN_RANK_STATE = 2, PRN_RANK_NOISE
 /* The expression in the given format, as a new string to free. */
 char *prn_expr(expr_ctx *ctx, const expr *e, prn_format format);
 
+/* Abbreviations: subexpressions equal to one of nodes[i] print as names[i]
+ * (a let definition: Phi(d1)); the top-level node itself is never abbreviated.
+ * used[i] is set for each name that was used (may be NULL). */
+typedef struct prn_abbrev {
+	size_t n;
+	const expr *const *nodes;
+	const char *const *names;
+	bool *used;
+} prn_abbrev;
+char *prn_expr_abbrev(expr_ctx *ctx, const expr *e, prn_format format, const prn_abbrev *abbrev);
+
 /* The plain printer: canonical order, no grouping (for debugging and tests). */
 char *prn_expr_flat(expr_ctx *ctx, const expr *e);
 

@@ -47,6 +47,9 @@ struct session {
 	unsigned long claim_count;
 	int fixed_line; /* for -e statements: messages say -e:N:COLUMN */
 	bool in_sde;	/* evaluating an SDE's right side: assumed states may appear */
+	bool abbreviate; /* print let names for their definitions in results */
+	bool *let_used;	 /* per model entry: abbreviated in the current result */
+	size_t let_used_cap;
 };
 
 /* An evaluated expression: a number-valued expression or a differential. */
@@ -625,14 +628,78 @@ static prn_format printer_format(const session *s)
 	}
 }
 
+/* Print e, abbreviating subexpressions equal to a let definition by its name
+ * (Phi(d1)); the names used are remembered for the JSON "let" field.  C output
+ * and show/save spell everything out. */
+static char *format_expr(session *s, const expr *e, prn_format format)
+{
+	model *m = &s->model;
+	if (!s->abbreviate || format == PRN_C || m->nentries == 0)
+		return prn_expr(s->ctx, e, format);
+	const expr **nodes = xmalloc(m->nentries * sizeof *nodes);
+	const char **names = xmalloc(m->nentries * sizeof *names);
+	size_t *index = xmalloc(m->nentries * sizeof *index);
+	bool *used = xcalloc(m->nentries, sizeof *used);
+	size_t n = 0;
+	for (size_t i = 0; i < m->nentries; i++) {
+		model_entry *entry = &m->entries[i];
+		if (entry->kind != MODEL_LET || !entry->value)
+			continue;
+		expr_kind kind = expr_kind_of(entry->value);
+		if (kind == EXPR_NUM || kind == EXPR_SYM)
+			continue;
+		nodes[n] = entry->value;
+		names[n] = entry->name;
+		index[n] = i;
+		n++;
+	}
+	prn_abbrev abbrev = {.n = n, .nodes = nodes, .names = names, .used = used};
+	char *text = prn_expr_abbrev(s->ctx, e, format, &abbrev);
+	if (s->let_used_cap < m->nentries) {
+		s->let_used = xreallocarray(s->let_used, m->nentries, sizeof *s->let_used);
+		memset(s->let_used + s->let_used_cap, 0, (m->nentries - s->let_used_cap) * sizeof *s->let_used);
+		s->let_used_cap = m->nentries;
+	}
+	for (size_t i = 0; i < n; i++)
+		if (used[i])
+			s->let_used[index[i]] = true;
+	free(nodes);
+	free(names);
+	free(index);
+	free(used);
+	return text;
+}
+
 static char *show_expr(session *s, const expr *e)
 {
-	return prn_expr(s->ctx, e, printer_format(s));
+	return format_expr(s, e, printer_format(s));
 }
 
 static char *text_expr(session *s, const expr *e)
 {
-	return prn_expr(s->ctx, e, PRN_TEXT);
+	return format_expr(s, e, PRN_TEXT);
+}
+
+/* Append ,"let":{...} with the definitions the object's strings abbreviated. */
+static void json_lets(session *s, xbuf *buf)
+{
+	bool any = false;
+	for (size_t i = 0; i < s->let_used_cap && i < s->model.nentries; i++) {
+		if (!s->let_used[i])
+			continue;
+		model_entry *entry = &s->model.entries[i];
+		xbuf_put(buf, any ? "," : ",\"let\":{");
+		prn_json_string(buf, entry->name);
+		xbuf_putc(buf, ':');
+		char *text = prn_expr(s->ctx, entry->value, PRN_TEXT);
+		prn_json_string(buf, text);
+		free(text);
+		any = true;
+	}
+	if (any)
+		xbuf_putc(buf, '}');
+	if (s->let_used)
+		memset(s->let_used, 0, s->let_used_cap * sizeof *s->let_used);
 }
 
 static void put_line(session *s, const char *text)
@@ -816,6 +883,7 @@ static void output_differential(session *s, const char *kind, const expr *of, co
 		json_field(&buf, "drift", drift);
 		free(drift);
 		json_diffusion(s, &buf, d);
+		json_lets(s, &buf);
 		xbuf_putc(&buf, '}');
 		break;
 	}
@@ -853,6 +921,7 @@ static void output_scalar(session *s, const char *kind, const char *query, const
 		char *v = text_expr(s, e);
 		json_field(&buf, "value", v);
 		free(v);
+		json_lets(s, &buf);
 		xbuf_putc(&buf, '}');
 		break;
 	}
@@ -1572,7 +1641,17 @@ static bool run_state(session *s, const ast_node *st)
 
 /* ------------------------------------------------------------------ show / save */
 
+static void dump_model_body(session *s, xbuf *out, const char *only);
+
 static void dump_model(session *s, xbuf *out, const char *only)
+{
+	bool keep_abbreviate = s->abbreviate;
+	s->abbreviate = false;
+	dump_model_body(s, out, only);
+	s->abbreviate = keep_abbreviate;
+}
+
+static void dump_model_body(session *s, xbuf *out, const char *only)
 {
 	model *m = &s->model;
 	char *text;
@@ -1735,6 +1814,7 @@ static bool run_part(session *s, const ast_node *st)
 			free(text);
 			json_field(&buf, "measure", measure_label(s));
 			json_diffusion(s, &buf, &d);
+			json_lets(s, &buf);
 			xbuf_putc(&buf, '}');
 			put_line(s, buf.data);
 			xbuf_free(&buf);
@@ -1862,6 +1942,7 @@ static bool run_pde(session *s, const ast_node *st)
 		json_field(&buf, "function", st->text);
 		json_field(&buf, "measure", measure_label(s));
 		json_field(&buf, "equation", plain);
+		json_lets(s, &buf);
 		xbuf_putc(&buf, '}');
 		free(plain);
 		break;
@@ -1940,6 +2021,7 @@ static bool run_convention(session *s, const ast_node *st, bool stratonovich)
 		json_field(&buf, "drift", drift);
 		free(drift);
 		json_diffusion(s, &buf, &d);
+		json_lets(s, &buf);
 		xbuf_putc(&buf, '}');
 		break;
 	}
@@ -2452,6 +2534,7 @@ session *session_new(const session_options *options)
 	if (!s->opt.err)
 		s->opt.err = stderr;
 	s->format = options->format;
+	s->abbreviate = true;
 	xalloc_use_for_gmp();
 	s->ctx = expr_ctx_new();
 	expr_ctx_limits(s->ctx)->interrupt = options->interrupt;
@@ -2466,6 +2549,7 @@ void session_free(session *s)
 		return;
 	model_free(&s->model);
 	expr_ctx_free(s->ctx);
+	free(s->let_used);
 	free(s);
 }
 

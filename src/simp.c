@@ -230,6 +230,14 @@ static const expr *simp_log(expr_ctx *ctx, const expr *arg)
 
 /* ------------------------------------------------------------------ the rest */
 
+/* A plainly negated argument (-x, -2*x*y): the parity rules fire only on those,
+ * since the sign of a sum's leading term depends on the node order, not on
+ * anything a reader sees (Phi(d2) must not turn into 1 - Phi(-d2)). */
+static bool plainly_negative(const expr *e)
+{
+	return expr_kind_of(e) != EXPR_ADD && simp_negative_form(e);
+}
+
 static bool is_num_zero(const expr *e)
 {
 	return expr_is_zero(e);
@@ -249,7 +257,7 @@ const expr *simp_fun(expr_ctx *ctx, expr_builtin fn, const expr *arg)
 			return arg;
 		if (!(s & EXPR_SIGN_POS))
 			return expr_neg(ctx, arg);
-		if (simp_negative_form(arg))
+		if (plainly_negative(arg))
 			return expr_fun_raw(ctx, fn, expr_neg(ctx, arg));
 		return expr_fun_raw(ctx, fn, arg);
 	}
@@ -261,7 +269,7 @@ const expr *simp_fun(expr_ctx *ctx, expr_builtin fn, const expr *arg)
 		/* odd functions: f(0) = 0, f(-x) = -f(x) */
 		if (is_num_zero(arg))
 			return arg;
-		if (simp_negative_form(arg))
+		if (plainly_negative(arg))
 			return expr_neg(ctx, expr_fun_raw(ctx, fn, expr_neg(ctx, arg)));
 		return expr_fun_raw(ctx, fn, arg);
 	case EXPR_F_COS:
@@ -271,14 +279,14 @@ const expr *simp_fun(expr_ctx *ctx, expr_builtin fn, const expr *arg)
 			return expr_int(ctx, 1);
 		/* fall through */
 	case EXPR_F_NPDF:
-		if (simp_negative_form(arg))
+		if (plainly_negative(arg))
 			return expr_fun_raw(ctx, fn, expr_neg(ctx, arg));
 		return expr_fun_raw(ctx, fn, arg);
 	case EXPR_F_NCDF:
 		/* Phi(0) = 1/2; Phi(-x) = 1 - Phi(x) */
 		if (is_num_zero(arg))
 			return expr_rat(ctx, 1, 2);
-		if (simp_negative_form(arg))
+		if (plainly_negative(arg))
 			return expr_sub(ctx, expr_int(ctx, 1), expr_fun_raw(ctx, fn, expr_neg(ctx, arg)));
 		return expr_fun_raw(ctx, fn, arg);
 	default:
