@@ -53,7 +53,5 @@ const expr *expr_pow_pair(expr_ctx *ctx, const expr *base, const expr *exponent)
 
 /* simp.c: rules for built-in functions under assumptions. */
 const expr *simp_fun(expr_ctx *ctx, expr_builtin fn, const expr *arg);
-/* Is e written with a negative leading coefficient (so that -e reads better)? */
-bool simp_negative_form(const expr *e);
 
 #endif

@@ -16,6 +16,7 @@
 
 #include "expr-internal.h"
 #include "rat.h"
+#include "simp.h"
 #include "xalloc.h"
 
 typedef enum dkind { D_NUM, D_SYM, D_FUN, D_FAPP, D_SUM, D_PROD, D_NEG, D_POWSUM } dkind;
@@ -291,6 +292,14 @@ static dnode *product_display(printer *p, const expr *factor, const expr *inner)
 	dnode *d = dnew(p, D_PROD);
 	mpq_set_ui(d->num, 1, 1);
 	int inner_rank = max_rank(p, inner) == 0 ? 1 : 4 * max_rank(p, inner) - 1;
+	/* a sum of negative terms reads better negated: -(kappa + lambda*xi)*v */
+	bool all_negative = inner->kind == EXPR_ADD;
+	for (size_t i = 0; all_negative && i < inner->nops; i++)
+		all_negative = simp_negative_form(inner->u.add.terms[i]);
+	if (all_negative) {
+		inner = expr_neg(p->ctx, inner);
+		mpq_neg(d->num, d->num);
+	}
 	absorb(p, d, factor, 0);
 	absorb(p, d, inner, inner_rank);
 	sort_factors(d);

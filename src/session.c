@@ -753,10 +753,16 @@ static bool top_level_sum(const char *text)
 /* coefficient*increment for a text or LaTeX line; first says whether it leads. */
 static void put_term(session *s, xbuf *buf, const expr *c, const char *increment, bool latex, bool first)
 {
-	char *text = prn_expr(s->ctx, c, latex ? PRN_LATEX : PRN_TEXT);
+	/* -(a + b)*dt reads better than (-a - b)*dt */
+	bool all_negative = expr_kind_of(c) == EXPR_ADD;
+	for (size_t i = 0; all_negative && i < expr_nops(c); i++)
+		all_negative = simp_negative_form(expr_op(c, i));
+	if (all_negative)
+		c = expr_neg(s->ctx, c);
+	char *text = format_expr(s, c, latex ? PRN_LATEX : PRN_TEXT);
 	const char *times = latex ? "\\," : "*";
 	if (top_level_sum(text)) {
-		xbuf_put(buf, first ? "" : " + ");
+		xbuf_put(buf, all_negative ? (first ? "-" : " - ") : (first ? "" : " + "));
 		xbuf_printf(buf, latex ? "\\left(%s\\right)%s" : "(%s)*%s", text, increment);
 		free(text);
 		return;

@@ -13,4 +13,7 @@
  * `assume` statement). */
 const expr *simp_refresh(expr_ctx *ctx, const expr *e);
 
+/* Is e written with a negative leading coefficient (so that -e reads better)? */
+bool simp_negative_form(const expr *e);
+
 #endif
