@@ -60,8 +60,8 @@
 		   "  example:  check d log(S) at S=100, mu=0.05, sigma=0.2\n")                       \
 	X("partial", "partial(EXPR, x [, y ...])\n  A partial derivative.  example:  partial(S^3, S)\n") \
 	X("show", "show [NAME]\n  The model (or one name) as a script.  example:  show\n")           \
-	X("save", "save FILE\n  Write the model as a script that load reproduces.  example:  save model.itox\n") \
-	X("load", "load FILE\n  Run a script in this session.  example:  load model.itox\n")          \
+	X("save", "save FILE\n  Write the model as a script that load reproduces.  example:  save note-model.itox\n") \
+	X("load", "load FILE\n  Run a script in this session.  example:  load note-model.itox\n")          \
 	X("format", "format text|latex|c|json\n  The output format.  example:  format latex\n")       \
 	X("help", "help [TOPIC]\n  This text.  example:  help claim\n")                               \
 	X("quit", "quit\n  Leave (Ctrl-D too).  example:  quit\n")

@@ -102,7 +102,8 @@ START_TEST(test_text)
 	expect_print("sigma1^2/2", PRN_TEXT, "1/2*sigma1^2");
 	expect_print("sqrt(8)*x", PRN_TEXT, "2*sqrt(2)*x");
 	expect_print("2*sqrt(v)*S", PRN_TEXT, "2*S*sqrt(v)");
-	expect_print("abs(1 - x)", PRN_TEXT, "abs(x - 1)");
+	expect_print("abs(1 - x)", PRN_TEXT, "abs(1 - x)");
+	expect_print("abs(-2*x)", PRN_TEXT, "abs(2*x)");
 	expect_print("x^a", PRN_TEXT, "x^a");
 	expect_print("2^x", PRN_TEXT, "2^x");
 	expect_print("a*b^(1/3)", PRN_TEXT, "a*b^(1/3)");
@@ -118,7 +119,17 @@ END_TEST
  * (equal by Phi(-x) = 1 - Phi(x), but not the formula of the note). */
 START_TEST(test_text_black_scholes)
 {
-	expect_print("Phi(d1 - sigma*sqrt(T))", PRN_TEXT, "Phi(d1 - sigma*sqrt(T))");
+	expect_print("Phi(d1 - sigma*sqrt(T - t))", PRN_TEXT, "Phi(d1 - sigma*sqrt(T - t))");
+	expect_print("Phi(x - sigma*sqrt(T - t))", PRN_TEXT, "Phi(x - sigma*sqrt(T - t))");
+	/* the order of sigma and sqrt(T) is the printer's choice; no 1 - Phi */
+	const char *inputs[] = {"Phi(d1 - sigma*sqrt(T))", "Phi(x - sigma*sqrt(T))"};
+	for (size_t i = 0; i < 2; i++) {
+		const expr *e = parse(inputs[i]);
+		char *text = prn_expr(ctx, e, PRN_TEXT);
+		ck_assert_msg(strstr(text, "1 - Phi") == NULL, "%s printed as %s", inputs[i], text);
+		ck_assert_msg(session_expr(sess, text) == e, "%s printed as %s", inputs[i], text);
+		free(text);
+	}
 }
 END_TEST
 
