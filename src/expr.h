@@ -113,7 +113,7 @@ const expr *expr_fapp(expr_ctx *ctx, const expr *func, const unsigned char *coun
 /* --- symbols --- */
 /* Declare sym as a generic function of nargs arguments with the given argument
  * names (used for printing f_x); returns false if nargs exceeds EXPR_MAX_FUNC_ARGS. */
-#define EXPR_MAX_FUNC_ARGS 16
+#define EXPR_MAX_FUNC_ARGS 64
 bool expr_func_declare(expr_ctx *ctx, const expr *sym, size_t nargs, const char *const *arg_names);
 size_t expr_func_arity(const expr *sym); /* 0 when sym is not a function */
 const char *expr_func_arg_name(const expr *sym, size_t index);

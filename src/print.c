@@ -10,6 +10,7 @@
 #include "print.h"
 
 #include <ctype.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -438,6 +439,12 @@ static bool term_has(const expr *term, const expr *base, int sign)
 	return e && mpq_sgn(e->u.num) == sign;
 }
 
+typedef struct factor_count {
+	const expr *base;
+	int sign, rank;
+	size_t count;
+} factor_count;
+
 /* Greedy collection: pull the factor shared by the most terms out of those
  * terms (states before parameters on ties), then collect the rest. */
 static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *terms)
@@ -449,6 +456,14 @@ static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *ter
 		push_sum_item(sum, build(p, terms[0]));
 		return;
 	}
+	/* count, in one pass, the terms that hold each base with each exponent sign */
+	size_t capacity = 64;
+	size_t total = 0;
+	for (size_t i = 0; i < n; i++)
+		total += terms[i]->kind == EXPR_MUL ? terms[i]->nops : 1;
+	while (capacity < 2 * total + 2)
+		capacity *= 2;
+	factor_count *table = xcalloc(capacity, sizeof *table);
 	const expr *best = NULL;
 	int best_sign = 0;
 	size_t best_count = 1;
@@ -462,18 +477,27 @@ static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *ter
 			if (base->kind == EXPR_NUM || (ex && ex->kind != EXPR_NUM))
 				continue;
 			int sign = ex ? mpq_sgn(ex->u.num) : 1;
-			size_t count = 0;
-			for (size_t j = 0; j < n; j++)
-				count += term_has(terms[j], base, sign);
-			int rank = max_rank(p, base);
-			if (count > best_count || (count == best_count && count >= 2 && rank > best_rank)) {
+			size_t slot = ((uintptr_t)base * 0x9e3779b97f4a7c15u + (unsigned)(sign + 1)) >> 7;
+			slot &= capacity - 1;
+			while (table[slot].base && !(table[slot].base == base && table[slot].sign == sign))
+				slot = (slot + 1) & (capacity - 1);
+			factor_count *entry = &table[slot];
+			if (!entry->base) {
+				entry->base = base;
+				entry->sign = sign;
+				entry->rank = max_rank(p, base);
+			}
+			entry->count++;
+			if (entry->count > best_count ||
+			    (entry->count == best_count && entry->count >= 2 && entry->rank > best_rank)) {
 				best = base;
 				best_sign = sign;
-				best_count = count;
-				best_rank = rank;
+				best_count = entry->count;
+				best_rank = entry->rank;
 			}
 		}
 	}
+	free(table);
 	if (!best || best_count < 2) {
 		for (size_t i = 0; i < n; i++)
 			push_sum_item(sum, build(p, terms[i]));
