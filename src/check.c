@@ -5,8 +5,10 @@
  * Finite differences.  Every partial derivative that Itô's formula uses (f_t,
  * f_x for each process x of f, f_xy for each pair with nonzero covariation)
  * is compared with a central difference: first derivatives with step
- * h = eps^(1/3) max(1, |x|), second ones with h = eps^(1/4) max(1, |x|), the
- * steps that balance truncation (h^2) against rounding (eps/h, eps/h^2).
+ * h = eps^(1/3) s, second ones with h = eps^(1/4) s, the steps that balance
+ * truncation (h^2) against rounding (eps/h, eps/h^2), where s is the scale of
+ * the variable (fd_scale).  The tolerance is 1e-5 relative to max(1, |value|)
+ * plus ten times the rounding error eps |f| / h^k of the quotient.
  *
  * Simulation.  Euler-Maruyama (or Milstein) paths of the processes f needs,
  * from the point, over [t0, t0 + T] with N steps of size h.  Along each path:
@@ -233,6 +235,40 @@ static char *plan_symbols(plan *p)
 	return error;
 }
 
+/* The point must satisfy the declared signs and ranges (plan_domain), and f
+ * must be finite there (plan_finite). */
+static char *plan_domain(plan *p)
+{
+	for (size_t v = 0; v < p->nvars; v++) {
+		if (v == p->nproc)
+			continue;
+		double x = p->point[v];
+		int sign = expr_sym_sign(p->vars[v]);
+		int have = x > 0 ? EXPR_SIGN_POS : x < 0 ? EXPR_SIGN_NEG : EXPR_SIGN_ZERO;
+		const char *name = expr_sym_name(p->vars[v]);
+		if (!(sign & have))
+			return xasprintf("the point has %s=%g, outside the assumption %s %s 0", name, x, name,
+					 sign & EXPR_SIGN_ZERO ? (sign & EXPR_SIGN_POS ? ">=" : "<=")
+							       : (sign & EXPR_SIGN_POS ? ">" : "<"));
+		model_entry *entry = model_lookup(p->m, name);
+		bool ok = true;
+		double lo = entry && entry->lo ? eval_at(p->ctx, entry->lo, 0, NULL, NULL, &ok) : -INFINITY;
+		double hi = entry && entry->hi ? eval_at(p->ctx, entry->hi, 0, NULL, NULL, &ok) : INFINITY;
+		if (ok && (x < lo || x > hi || (entry->lo_strict && x == lo) || (entry->hi_strict && x == hi)))
+			return xasprintf("the point has %s=%g, outside its declared range", name, x);
+	}
+	return NULL;
+}
+
+static char *plan_finite(plan *p)
+{
+	bool ok = true;
+	double f = eval_at(p->ctx, p->in->f, p->nvars, p->vars, p->point, &ok);
+	if (!ok || !isfinite(f))
+		return xstrdup("the expression is not finite at the point");
+	return NULL;
+}
+
 static char *plan_correlations(plan *p)
 {
 	size_t n = p->nnoise;
@@ -340,6 +376,8 @@ static char *plan_make(plan *p)
 {
 	char *error = plan_symbols(p);
 	if (!error)
+		error = plan_domain(p);
+	if (!error)
 		error = plan_correlations(p);
 	if (!error) {
 		p->truncate = xcalloc(p->nproc + 1, sizeof *p->truncate);
@@ -347,6 +385,8 @@ static char *plan_make(plan *p)
 			p->truncate[i] = model_sde_of(p->m, p->vars[i]) && !(expr_sym_sign(p->vars[i]) & EXPR_SIGN_NEG);
 		error = plan_programs(p);
 	}
+	if (!error)
+		error = plan_finite(p);
 	return error;
 }
 
@@ -380,6 +420,28 @@ static double shifted(const eval_prog *prog, double *point, size_t i, double di,
 	return value;
 }
 
+/* The scale of variable v for its difference step: max(|x|, |a| T, |b| sqrt(T))
+ * with a, b its drift and diffusion at the point (T for t), so that a state
+ * of size 0.001 is not differenced with a step fit for size 1; 1 when all
+ * these vanish (a Brownian motion at 0 has |b| sqrt(T) = sqrt(T)). */
+static double fd_scale(plan *p, size_t v)
+{
+	double T = p->in->horizon, scale = fabs(p->point[v]);
+	if (v == p->nproc)
+		return fmax(scale, T);
+	if (v < p->nproc) {
+		bool ok = true;
+		double a = eval_at(p->ctx, p->dyn[v].dt, p->nvars, p->vars, p->point, &ok);
+		if (ok && isfinite(a))
+			scale = fmax(scale, fabs(a) * T);
+		const expr *c = ito_covariation(p->m, &p->dyn[v], &p->dyn[v]);
+		double b2 = c ? eval_at(p->ctx, c, p->nvars, p->vars, p->point, &ok) : 0;
+		if (ok && isfinite(b2) && b2 > 0)
+			scale = fmax(scale, sqrt(b2 * T));
+	}
+	return scale > 0 && isfinite(scale) ? scale : 1;
+}
+
 static void fd_compute(plan *p, const eval_prog *fonly, fd_row *row)
 {
 	double *x = xmalloc(p->nvars * sizeof *x);
@@ -389,13 +451,13 @@ static void fd_compute(plan *p, const eval_prog *fonly, fd_row *row)
 	double f0 = eval_point(fonly, x);
 	if (j == (size_t)-1) {
 		/* (f(x+h) - f(x-h)) / 2h, error h^2 f'''/6 + eps f/h */
-		double h = cbrt(DBL_EPSILON) * fmax(1, fabs(x[i]));
+		double h = cbrt(DBL_EPSILON) * fd_scale(p, i);
 		row->difference = (shifted(fonly, x, i, h, i, 0) - shifted(fonly, x, i, -h, i, 0)) / (2 * h);
 		row->tolerance = 10 * DBL_EPSILON * fabs(f0) / h;
 	} else {
 		partial = diff(p->ctx, partial, p->vars[j]);
-		double hi = pow(DBL_EPSILON, 0.25) * fmax(1, fabs(x[i]));
-		double hj = pow(DBL_EPSILON, 0.25) * fmax(1, fabs(x[j]));
+		double hi = pow(DBL_EPSILON, 0.25) * fd_scale(p, i);
+		double hj = pow(DBL_EPSILON, 0.25) * fd_scale(p, j);
 		if (i == j)
 			/* (f(x+h) - 2 f(x) + f(x-h)) / h^2 */
 			row->difference = (shifted(fonly, x, i, hi, i, 0) - 2 * f0 + shifted(fonly, x, i, -hi, i, 0)) / (hi * hi);
@@ -808,7 +870,7 @@ static bool run_blocks(expr_ctx *ctx, const job *jb, size_t npaths, bool conv, b
 /* ------------------------------------------------------------------ the report */
 
 typedef struct zstat {
-	double mean, se, z, fine;
+	double n, mean, se, z, fine;
 	bool ok;
 } zstat;
 
@@ -816,11 +878,20 @@ typedef struct zstat {
  * terms summed, so that an exact deterministic identity gives z = 0. */
 static zstat zstat_of(const sim_stat *ext, const sim_stat *fine, double magnitude)
 {
-	zstat z = {.mean = ext->mean, .se = sim_stat_se(ext), .fine = fine->mean};
+	zstat z = {.n = ext->n, .mean = ext->mean, .se = sim_stat_se(ext), .fine = fine->mean};
 	double se = fmax(z.se, 1e-9 * fabs(magnitude));
 	z.z = se > 0 ? z.mean / se : (z.mean == 0 ? 0 : copysign(INFINITY, z.mean));
 	z.ok = ext->n > 1 && isfinite(z.z) && fabs(z.z) < check_z_tolerance;
 	return z;
+}
+
+/* The name of active noise a: under a measure Q, its Q Brownian motion. */
+static const char *noise_name(const plan *p, size_t a)
+{
+	size_t k = p->noise[a];
+	if (p->in->q && k < p->in->q->nnoises && p->in->q->names[k])
+		return expr_sym_name(p->in->q->names[k]);
+	return expr_sym_name(p->m->noises[k]);
 }
 
 static void put_num(xbuf *buf, double x)
@@ -846,6 +917,10 @@ static void json_zstat(xbuf *buf, const char *key, const zstat *z, bool first)
 
 static void text_zstat(xbuf *buf, const zstat *z)
 {
+	if (z->n < 2) {
+		xbuf_put(buf, "n/a (too few valid paths)  <-- off\n");
+		return;
+	}
 	xbuf_printf(buf, "%.6g (se %.3g, z = %.2f)%s\n", z->mean, z->se, z->z, z->ok ? "" : "  <-- off");
 }
 
@@ -875,7 +950,7 @@ static void header(const plan *p, xbuf *text, const char *scheme_name)
 			if (k >= in->d->n || expr_is_zero(in->d->dw[k]))
 				continue;
 			char *b = prn_expr(p->ctx, in->d->dw[k], PRN_TEXT);
-			xbuf_printf(text, "; d%s: %s", expr_sym_name(p->m->noises[k]), b);
+			xbuf_printf(text, "; d%s: %s", noise_name(p, a), b);
 			free(b);
 		}
 		xbuf_put(text, "\n");
@@ -928,7 +1003,7 @@ static void report_conv(const plan *p, const conv_result *c, size_t npaths, xbuf
 		    "  convergence (%zu paths, one set of Brownian paths on every grid; QV -> I, first variation ~ sqrt(steps)):\n"
 		    "    %-7s %-12s %-12s %-12s %-14s %s\n",
 		    npaths, "steps", "mean QV", "mean I", "sd(QV - I)", "first var.", "first var./sqrt(steps)");
-	xbuf_put(json, ",\"convergence\":[");
+	xbuf_printf(json, ",\"convergence_paths\":%zu,\"convergence\":[", npaths);
 	for (size_t i = 0; i < CHECK_NCONV; i++) {
 		double n = (double)check_conv_steps[i];
 		xbuf_printf(text, "    %-7ld %-12.6g %-12.6g %-12.4g %-14.6g %.4g\n", check_conv_steps[i], c->qv[i].mean,
@@ -975,7 +1050,7 @@ static void report_sim(const plan *p, const block_result *r, xbuf *text, xbuf *j
 		add_reason(reasons, "the martingale residual is not zero (the drift)");
 	xbuf_put(json, ",\"covariation\":{");
 	for (size_t a = 0; a < p->nnoise; a++) {
-		const char *name = expr_sym_name(p->m->noises[p->noise[a]]);
+		const char *name = noise_name(p, a);
 		zstat cov = zstat_of(&r->ext[STAT_COV + a], &r->fine[STAT_COV + a], mag);
 		xbuf_printf(text, "  covariation with %s: mean(sum df*d%s - sum (rho b)*dt) = ", name, name);
 		text_zstat(text, &cov);

@@ -443,6 +443,8 @@ typedef struct factor_count {
 	const expr *base;
 	int sign, rank;
 	size_t count;
+	const expr *exponent; /* the exponent in the first term that has the base */
+	bool uniform;	      /* the same exponent in every term that has the base */
 } factor_count;
 
 /* Greedy collection: pull the factor shared by the most terms out of those
@@ -482,19 +484,32 @@ static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *ter
 			while (table[slot].base && !(table[slot].base == base && table[slot].sign == sign))
 				slot = (slot + 1) & (capacity - 1);
 			factor_count *entry = &table[slot];
+			const expr *exponent = ex ? ex : expr_int(ctx, 1);
 			if (!entry->base) {
 				entry->base = base;
 				entry->sign = sign;
 				entry->rank = max_rank(p, base);
+				entry->exponent = exponent;
+				entry->uniform = true;
 			}
 			entry->count++;
-			if (entry->count > best_count ||
-			    (entry->count == best_count && entry->count >= 2 && entry->rank > best_rank)) {
-				best = base;
-				best_sign = sign;
-				best_count = entry->count;
-				best_rank = entry->rank;
-			}
+			entry->uniform &= entry->exponent == exponent;
+		}
+	}
+	/* the factor in most terms, states first on ties; only a factor with the
+	 * same power in all of them, so the sum it leaves is free of it
+	 * (x^2 + 2*x*y + y^2 stays expanded, kappa*theta - kappa*v is kappa*(theta - v)) */
+	for (size_t slot = 0; slot < capacity; slot++) {
+		const factor_count *entry = &table[slot];
+		if (!entry->base || !entry->uniform || entry->count < 2)
+			continue;
+		if (entry->count > best_count || (entry->count == best_count && entry->rank > best_rank) ||
+		    (entry->count == best_count && entry->rank == best_rank && best &&
+		     expr_compare(entry->base, best) < 0)) {
+			best = entry->base;
+			best_sign = entry->sign;
+			best_count = entry->count;
+			best_rank = entry->rank;
 		}
 	}
 	free(table);
@@ -894,25 +909,34 @@ static void emit_fapp(printer *p, xbuf *out, const dnode *d)
 		xbuf_free(&clean);
 		declared = false; /* C always names the arguments */
 	} else if (p->format == PRN_LATEX) {
+		/* partials in Leibniz notation: \frac{\partial^{2} V}{\partial S \partial v} */
 		const expr *func = d->e->u.fapp.func;
 		char *stem = prn_latex_name(func->u.sym.name, false);
-		xbuf_put(out, stem);
-		free(stem);
 		size_t total = 0;
 		for (size_t i = 0; i < d->e->nops; i++)
 			total += d->e->u.fapp.counts[i];
-		if (total) {
-			xbuf_put(out, "_{");
-			for (size_t i = 0; i < d->e->nops; i++)
-				for (unsigned k = 0; k < d->e->u.fapp.counts[i]; k++) {
-					char *arg = prn_latex_name(expr_func_arg_name(func, i), false);
-					xbuf_put(out, arg);
-					xbuf_putc(out, ' ');
-					free(arg);
-				}
-			out->data[--out->length] = '\0';
+		if (total == 0) {
+			xbuf_put(out, stem);
+		} else {
+			if (total == 1)
+				xbuf_printf(out, "\\frac{\\partial %s}{", stem);
+			else
+				xbuf_printf(out, "\\frac{\\partial^{%zu} %s}{", total, stem);
+			bool first = true;
+			for (size_t i = 0; i < d->e->nops; i++) {
+				unsigned k = d->e->u.fapp.counts[i];
+				if (!k)
+					continue;
+				char *arg = prn_latex_name(expr_func_arg_name(func, i), false);
+				xbuf_printf(out, first ? "\\partial %s" : " \\partial %s", arg);
+				if (k > 1)
+					xbuf_printf(out, "^{%u}", k);
+				free(arg);
+				first = false;
+			}
 			xbuf_putc(out, '}');
 		}
+		free(stem);
 	} else {
 		xbuf_put(out, name);
 	}
@@ -1105,14 +1129,17 @@ static void emit_prod(printer *p, xbuf *out, const dnode *d)
 		xbuf_putc(out, '/');
 		bool single = nden_parts == 1;
 		if (single && nden == 1) {
-			/* one factor: parenthesize unless it is atomic (x, sqrt(x), f(x)) */
-			const char *s = den.data;
-			bool simple = true;
-			for (const char *c = s; *c && simple; c++)
-				if (*c == '^' || *c == '*' || *c == '/' || *c == ' ')
-					simple = strncmp(s, "sqrt(", 5) == 0 || strncmp(s, "pow(", 4) == 0;
-			if (!simple)
-				single = false;
+			/* one factor: parenthesize only a product or sum at the top level
+			 * (x/S^2 is x/(S^2) since ^ binds tighter) */
+			int depth = 0;
+			for (const char *c = den.data; *c && single; c++) {
+				if (*c == '(')
+					depth++;
+				else if (*c == ')')
+					depth--;
+				else if (depth == 0 && (*c == '*' || *c == '/' || *c == ' '))
+					single = false;
+			}
 		}
 		if (!single)
 			xbuf_putc(out, '(');

@@ -295,6 +295,7 @@ static const expr *differential_of(session *s, const char *name)
 /* ------------------------------------------------------------------ evaluation */
 
 static bool eval_node(session *s, const ast_node *n, value *out);
+static bool check_new_name(session *s, const ast_loc *loc, const char *name, bool allow_arg);
 
 static bool eval_scalar(session *s, const ast_node *n, const expr **out)
 {
@@ -390,6 +391,13 @@ static bool eval_name(session *s, const ast_node *n, value *out)
 			       name, name + 1);
 			return false;
 		}
+	}
+	if (s->in_sde && is_identifier(name) && !suggest(s, name) && check_new_name(s, &n->loc, name, false)) {
+		/* a state whose SDE comes later (dS uses v before dv): announced now,
+		 * and every query refuses the model until it gets its SDE */
+		model_entry *ahead = model_add(&s->model, name, MODEL_ARG, expr_sym(s->ctx, name));
+		ahead->pending_state = true;
+		return make_scalar(s, n, ahead->sym, out);
 	}
 	unknown_name(s, &n->loc, name);
 	return false;
@@ -1057,9 +1065,13 @@ static bool apply_condition(session *s, model_entry *entry, const ast_node *cond
 
 static bool run_param(session *s, const ast_node *st)
 {
-	for (size_t i = 0; i < st->nitems; i++)
+	for (size_t i = 0; i < st->nitems; i++) {
+		model_entry *entry = model_lookup(&s->model, st->items[i]->text);
+		if (entry && entry->kind == MODEL_PARAM)
+			continue; /* declaring a parameter again (load after save) only updates its range */
 		if (!check_new_name(s, &st->items[i]->loc, st->items[i]->text, true))
 			return false;
+	}
 	for (size_t i = 0; i < st->nitems; i++) {
 		const ast_node *cond = st->items[i];
 		const expr *sym = expr_sym(s->ctx, cond->text);
@@ -1098,10 +1110,17 @@ static bool run_assume(session *s, const ast_node *st)
 
 static bool run_noise(session *s, const ast_node *st)
 {
-	for (size_t i = 0; i < st->nitems; i++)
+	for (size_t i = 0; i < st->nitems; i++) {
+		model_entry *entry = model_lookup(&s->model, st->items[i]->text);
+		if (entry && entry->kind == MODEL_NOISE)
+			continue; /* the same noise again: nothing to do */
 		if (!check_new_name(s, &st->items[i]->loc, st->items[i]->text, false))
 			return false;
+	}
 	for (size_t i = 0; i < st->nitems; i++) {
+		model_entry *entry = model_lookup(&s->model, st->items[i]->text);
+		if (entry && entry->kind == MODEL_NOISE)
+			continue;
 		const expr *sym = expr_sym(s->ctx, st->items[i]->text);
 		model_add(&s->model, st->items[i]->text, MODEL_NOISE, sym);
 		expr_sym_set_rank(s->ctx, sym, PRN_RANK_NOISE);
@@ -1184,8 +1203,20 @@ static bool run_corr(session *s, const ast_node *st)
 	return true;
 }
 
+static bool same_function(const model_entry *entry, const ast_node *st)
+{
+	if (!entry || entry->kind != MODEL_FUNC || expr_func_arity(entry->sym) != st->nitems)
+		return false;
+	for (size_t i = 0; i < st->nitems; i++)
+		if (strcmp(expr_func_arg_name(entry->sym, i), st->items[i]->text) != 0)
+			return false;
+	return true;
+}
+
 static bool run_func(session *s, const ast_node *st)
 {
+	if (same_function(model_lookup(&s->model, st->text), st))
+		return true; /* the same declaration again */
 	if (!check_new_name(s, &st->loc, st->text, false))
 		return false;
 	if (st->nitems > EXPR_MAX_FUNC_ARGS) {
@@ -1343,6 +1374,20 @@ static bool run_sde(session *s, const ast_node *st, bool stratonovich)
 		return false;
 	}
 	if (entry && entry->kind == MODEL_STATE) {
+		/* the same SDE again (load after save) is allowed; another one is not */
+		model_sde *existing = model_sde_of(m, entry->sym);
+		value again;
+		s->in_sde = true;
+		bool evaluated = existing && eval_node(s, st->a, &again);
+		s->in_sde = false;
+		bool same = evaluated && again.is_diff && existing->stratonovich == stratonovich &&
+			    again.d.dt == existing->drift;
+		for (size_t k = 0; same && k < m->nnoises; k++)
+			same = again.d.dw[k] == (k < existing->ndiffusion ? existing->diffusion[k] : NULL);
+		if (evaluated)
+			value_free(&again);
+		if (same)
+			return true;
 		report(s, SESSION_INPUT, &st->loc, "the state '%s' already has an SDE", name);
 		return false;
 	}
@@ -1567,25 +1612,41 @@ static bool run_state(session *s, const ast_node *st)
 			unknown_name(s, &where->loc, where->text);
 		return false;
 	}
-	if (!check_new_name(s, &st->loc, st->text, false))
+	/* the new name may have been announced by assume (state sigma = ... after assume sigma > 0) */
+	model_entry *announced = model_lookup(m, st->text);
+	bool was_announced = announced && announced->kind == MODEL_ARG && announced->pending_state;
+	model_entry saved = was_announced ? *announced : (model_entry){0};
+	if (!was_announced && !check_new_name(s, &st->loc, st->text, false))
 		return false;
 	const expr *old_sym = old->sym;
 	const expr *forward;
 	if (!eval_scalar(s, st->a, &forward))
 		return false;
-	/* the new name is visible in the inverse */
+	/* the new name is visible in the inverse; its sign follows from the
+	 * forward map when that is known (sqrt(v) >= 0, exp(x) > 0) */
 	const expr *new_sym = expr_sym(ctx, st->text);
+	int keep_sign = expr_sym_sign(new_sym);
+	int forward_sign = expr_sign(ctx, forward);
+	if (forward_sign != EXPR_SIGN_UNKNOWN)
+		expr_sym_set_sign(ctx, new_sym, keep_sign & forward_sign ? keep_sign & forward_sign : forward_sign);
 	model_entry *tmp = model_add(m, st->text, MODEL_PARAM, new_sym);
-	(void)tmp;
+	tmp->pending_state = false;
 	const expr *inverse = NULL;
 	bool ok = eval_scalar(s, where->a, &inverse);
 	model_entry *e = model_lookup(m, st->text);
-	size_t index = (size_t)(e - m->entries);
-	free(e->name);
-	memmove(e, e + 1, (m->nentries - index - 1) * sizeof *e);
-	m->nentries--;
-	if (!ok)
+	if (was_announced) {
+		*e = saved;
+		e->name = saved.name;
+	} else {
+		size_t index = (size_t)(e - m->entries);
+		free(e->name);
+		memmove(e, e + 1, (m->nentries - index - 1) * sizeof *e);
+		m->nentries--;
+	}
+	if (!ok) {
+		expr_sym_set_sign(ctx, new_sym, keep_sign);
 		return false;
+	}
 	/* the inverse must undo the forward map: forward(inverse(x)) = x */
 	const expr *round = expr_subst(ctx, forward, 1, &old_sym, &inverse);
 	if (engine_failed(s, &st->loc))
@@ -1593,8 +1654,10 @@ static bool run_state(session *s, const ast_node *st)
 	if (round != new_sym) {
 		char *text = text_expr(s, round);
 		report(s, SESSION_INPUT, &where->a->loc,
-		       "the inverse does not undo the new state: substituting it gives %s, not %s", text, st->text);
+		       "the inverse does not undo the new state: substituting it gives %s, not %s%s", text, st->text,
+		       expr_sym_sign(new_sym) == EXPR_SIGN_UNKNOWN ? " (an assume on the new state may help)" : "");
 		free(text);
+		expr_sym_set_sign(ctx, new_sym, keep_sign);
 		return false;
 	}
 	ito_diff d;
@@ -1635,7 +1698,13 @@ static bool run_state(session *s, const ast_node *st)
 		sde->diffusion[k] = dw[k];
 	free(dw);
 	model_entry *x = model_add(m, st->text, MODEL_STATE, new_sym);
-	(void)x;
+	x->pending_state = false;
+	int sign = expr_sym_sign(new_sym);
+	if (!x->lo && (sign == EXPR_SIGN_POS || sign == EXPR_SIGN_NONNEG)) {
+		/* keep the inferred sign as an assumption, so show and save record it */
+		x->lo = expr_int(ctx, 0);
+		x->lo_strict = sign == EXPR_SIGN_POS;
+	}
 	expr_sym_set_rank(ctx, new_sym, PRN_RANK_STATE);
 	/* the old name stays usable as a derived process */
 	old = model_lookup(m, where->text);
@@ -2593,6 +2662,30 @@ int session_run(session *s, const char *source, size_t length, const char *origi
 	s->length = length;
 	s->origin = origin;
 	s->status = SESSION_OK;
+	/* a bound on line length keeps messages and the scanner's work in proportion */
+	size_t line_start = 0;
+	for (size_t i = 0; i <= length; i++) {
+		if (i < length && source[i] != '\n')
+			continue;
+		if (i - line_start > MAX_LINE) {
+			int line = 1;
+			for (size_t j = 0; j < line_start; j++)
+				line += source[j] == '\n';
+			ast_loc loc = {line, 1, line, 1};
+			const char *keep = s->source;
+			s->source = NULL; /* do not echo a megabyte */
+			report(s, SESSION_LIMIT, &loc, "line too long (%zu bytes; the limit is %d)", i - line_start, MAX_LINE);
+			s->source = keep;
+			int status = s->status;
+			s->source = keep_source;
+			s->length = keep_length;
+			s->origin = keep_origin;
+			s->status = keep_status;
+			raise_status(s, status);
+			return status;
+		}
+		line_start = i + 1;
+	}
 	ast_list list;
 	ast_parse(source, length, MAX_NESTING, &list);
 	for (size_t i = 0; i < list.n && !s->quit; i++) {
