@@ -40,7 +40,7 @@
  * in block order, so the result does not depend on the number of threads.
  * Blocks run in rounds of CHECK_ROUND, so memory does not grow with paths.
  */
-#include "check.h"
+#include "crosscheck.h"
 
 #include <float.h>
 #include <math.h>

@@ -16,7 +16,7 @@
 #include <time.h>
 
 #include "ast.h"
-#include "check.h"
+#include "crosscheck.h"
 #include "diff.h"
 #include "eval.h"
 #include "expr.h"

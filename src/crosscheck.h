@@ -1,4 +1,4 @@
-/* check.h - the numerical cross-check of a differential (the `check` statement).
+/* crosscheck.h - the numerical cross-check of a differential (the `check` statement).
  *
  * Given an expression f of the model's states, a differential for it (the
  * engine's own, or one a user derived by hand) and a point, it confirms the
@@ -11,8 +11,8 @@
  *      each with a standard error and a z-score;
  *   3. a verdict with the tolerance used.
  */
-#ifndef ITOX_CHECK_H
-#define ITOX_CHECK_H
+#ifndef ITOX_CROSSCHECK_H
+#define ITOX_CROSSCHECK_H
 
 #include <stdbool.h>
 #include <stddef.h>
