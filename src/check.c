@@ -653,13 +653,15 @@ static void scheme_step(const plan *p, scheme *s, size_t B, double h)
 
 /* Run B paths over nsteps fine steps of size dt for all schemes at once:
  * dW = sqrt(dt) L Z with Z independent standard normals. */
-static void block_paths(const plan *p, sim_rng *rng, size_t B, long nsteps, double dt, size_t nschemes,
-			scheme *schemes)
+static void block_paths(const plan *p, volatile sig_atomic_t *interrupt, sim_rng *rng, size_t B, long nsteps,
+			double dt, size_t nschemes, scheme *schemes)
 {
 	size_t nn = p->nnoise;
 	double *z = xmalloc((nn + 1) * B * sizeof *z);
 	double root = sqrt(dt);
 	for (long k = 0; k < nsteps; k++) {
+		if (interrupt && k % 64 == 0 && *interrupt)
+			break; /* the result is dropped: run_blocks reports the interrupt */
 		for (size_t q = 0; q < B; q++)
 			for (size_t a = 0; a < nn; a++)
 				z[a * B + q] = sim_normal(rng);
@@ -694,10 +696,10 @@ typedef struct block_result {
 
 typedef struct job {
 	const plan *p;
+	volatile sig_atomic_t *interrupt; /* read (never written) by the threads */
 	long steps;
 	double dt;
 	size_t nstat;
-	size_t npaths_total;
 } job;
 
 static void block_result_init(block_result *r, size_t nstat)
@@ -742,7 +744,7 @@ static void main_block(const job *jb, sim_rng *rng, size_t B, block_result *r)
 	scheme s[2];
 	for (size_t i = 0; i < nschemes; i++)
 		scheme_init(p, &s[i], B, (long)i + 1);
-	block_paths(p, rng, B, jb->steps, jb->dt, nschemes, s);
+	block_paths(p, jb->interrupt, rng, B, jb->steps, jb->dt, nschemes, s);
 	double *fine = xmalloc(jb->nstat * sizeof *fine), *coarse = xmalloc(jb->nstat * sizeof *coarse);
 	for (size_t q = 0; q < B; q++) {
 		path_values(p, &s[0], B, q, fine);
@@ -789,7 +791,7 @@ static void conv_block(const job *jb, sim_rng *rng, size_t B, conv_result *r)
 	scheme s[CHECK_NCONV];
 	for (size_t i = 0; i < CHECK_NCONV; i++)
 		scheme_init(p, &s[i], B, finest / check_conv_steps[i]);
-	block_paths(p, rng, B, finest, p->in->horizon / (double)finest, CHECK_NCONV, s);
+	block_paths(p, jb->interrupt, rng, B, finest, p->in->horizon / (double)finest, CHECK_NCONV, s);
 	for (size_t q = 0; q < B; q++) {
 		bool good = true;
 		for (size_t i = 0; i < CHECK_NCONV; i++)
@@ -1115,7 +1117,7 @@ void check_run(expr_ctx *ctx, const check_input *in, check_result *out)
 	report_fd(&p, rows, nrows, &text, &json, &reasons);
 	free(rows);
 
-	job jb = {.p = &p, .steps = in->steps, .dt = in->horizon / (double)in->steps, .nstat = STAT_COV + p.nnoise};
+	job jb = {.p = &p, .interrupt = expr_ctx_limits(ctx)->interrupt, .steps = in->steps, .dt = in->horizon / (double)in->steps, .nstat = STAT_COV + p.nnoise};
 	block_result total;
 	block_result_init(&total, jb.nstat);
 	bool finished = run_blocks(ctx, &jb, (size_t)in->paths, false, &total, NULL);
@@ -1128,6 +1130,9 @@ void check_run(expr_ctx *ctx, const check_input *in, check_result *out)
 			finished = run_blocks(ctx, &jb, conv_paths, true, NULL, &conv);
 	}
 	if (!finished) {
+		/* a stop from outside (Ctrl-C or the time limit): a limit, exit status 3;
+		 * the context keeps EXPR_ERR_INTERRUPTED for the caller */
+		out->limit_hit = true;
 		out->error = xstrdup("interrupted");
 	} else {
 		if (total.bad)

@@ -1007,6 +1007,16 @@ static bool is_positive_integer(const expr *e)
 	return expr_is_integer(e) && mpq_sgn(e->u.num) > 0;
 }
 
+static bool has_base(const expr *term, const expr *base)
+{
+	if (term->kind != EXPR_MUL)
+		return false;
+	for (size_t i = 0; i < term->nops; i++)
+		if (term->u.mul.bases[i] == base)
+			return true;
+	return false;
+}
+
 /* Expand the products of the sums in `sums` with `rest` (a non-sum product). */
 static const expr *expand_product(expr_ctx *ctx, const expr *rest, const expr **sums, size_t nsums)
 {
@@ -1028,6 +1038,11 @@ static const expr *expand_product(expr_ctx *ctx, const expr *rest, const expr **
 				free(next);
 				free(terms);
 				return NULL;
+			}
+			if (has_base(terms[i], sum)) {
+				/* t*(a+b)^-1 times (a+b): merge the powers, do not distribute */
+				next[k++] = expr_mul(ctx, terms[i], sum);
+				continue;
 			}
 			for (size_t j = 0; j < width; j++)
 				next[k++] = expr_mul(ctx, terms[i],
@@ -1073,6 +1088,8 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 	factor_list factors = {0};
 	const expr **sums = NULL;
 	size_t nsums = 0;
+	const expr **extras_early = NULL;
+	size_t nearly = 0;
 	for (size_t i = 0; i < n; i++) {
 		const expr *f = inputs[i];
 		switch (f->kind) {
@@ -1097,6 +1114,19 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 		result = ctx->zero;
 		goto done;
 	}
+	/* a sum that is also the base of a factor merges with it before any
+	 * expansion: (a+b)*(a+b)^-1 = 1, not a/(a+b) + b/(a+b) */
+	for (size_t k = 0; k < nsums;) {
+		size_t j = 0;
+		while (j < factors.n && factors.items[j].base != sums[k])
+			j++;
+		if (j == factors.n) {
+			k++;
+			continue;
+		}
+		factors.items[j].exponent = expr_add(ctx, factors.items[j].exponent, ctx->one);
+		sums[k] = sums[--nsums];
+	}
 	if (nsums > 0) {
 		const expr *rest;
 		if (factors.n == 0)
@@ -1111,6 +1141,49 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 			free(plain);
 		}
 		result = rest ? expand_product(ctx, rest, sums, nsums) : NULL;
+		goto done;
+	}
+
+	/* surds with one exponent share a base: sqrt(2)*sqrt(3) = sqrt(6) */
+	for (size_t i = 0; i < factors.n; i++) {
+		factor *f = &factors.items[i];
+		if (f->base->kind != EXPR_NUM || mpq_sgn(f->base->u.num) <= 0 || f->exponent->kind != EXPR_NUM)
+			continue;
+		for (size_t j = i + 1; j < factors.n; j++) {
+			factor *g = &factors.items[j];
+			if (g->base->kind != EXPR_NUM || mpq_sgn(g->base->u.num) <= 0 || g->exponent != f->exponent ||
+			    g->base == f->base)
+				continue;
+			mpq_t product;
+			mpq_init(product);
+			mpq_mul(product, f->base->u.num, g->base->u.num);
+			const expr *merged = expr_pow(ctx, expr_num(ctx, product), f->exponent);
+			mpq_clear(product);
+			/* the merged power comes back through the product as one factor */
+			factors.items[j] = factors.items[--factors.n];
+			f->base = ctx->one;
+			extras_early = xreallocarray(extras_early, nearly + 1, sizeof *extras_early);
+			extras_early[nearly++] = merged;
+			break;
+		}
+	}
+	if (nearly > 0) {
+		/* drop the factors whose base became 1 and multiply the merged surds in */
+		size_t kept = 0;
+		for (size_t i = 0; i < factors.n; i++)
+			if (factors.items[i].base != ctx->one)
+				factors.items[kept++] = factors.items[i];
+		factors.n = kept;
+		const expr **parts = xmalloc((factors.n + nearly + 1) * sizeof *parts);
+		size_t np = 0;
+		parts[np++] = expr_num(ctx, coef);
+		for (size_t i = 0; i < factors.n; i++)
+			parts[np++] = expr_pow_pair(ctx, factors.items[i].base, factors.items[i].exponent);
+		for (size_t i = 0; i < nearly; i++)
+			parts[np++] = extras_early[i];
+		result = expr_mul_n(ctx, np, parts);
+		free(parts);
+		free(extras_early);
 		goto done;
 	}
 
@@ -1283,6 +1356,22 @@ static const expr *pow_mul(expr_ctx *ctx, const expr *product, const expr *expon
 	if (!integer && mpq_sgn(c) < 0) {
 		/* (-x)^(1/2) cannot be split; keep it whole (after making the rest positive) */
 		return expr_pow_pair(ctx, product, exponent);
+	}
+	if (!integer) {
+		/* (x*y)^e = x^e*y^e for fractional e needs x, y >= 0; one factor of
+		 * unknown sign is fine (the others are >= 0, so the domain makes it
+		 * >= 0 too), two are not: (a*b)^(1/2) is real for a, b < 0 */
+		size_t unknown = 0;
+		for (size_t i = 0; i < product->nops; i++) {
+			const expr *inner = product->u.mul.exps[i];
+			if (inner->kind == EXPR_NUM && (!rat_is_integer(inner->u.num) ||
+							 mpz_even_p(mpq_numref(inner->u.num))))
+				continue; /* x^f with f fractional, or x^2k: >= 0 */
+			if (expr_sign(ctx, product->u.mul.bases[i]) & EXPR_SIGN_NEG)
+				unknown++;
+		}
+		if (unknown > 1)
+			return expr_pow_pair(ctx, product, exponent);
 	}
 	const expr **parts = xmalloc((product->nops + 1) * sizeof *parts);
 	parts[0] = num_pow(ctx, c, e);

@@ -25,6 +25,7 @@ typedef enum dkind { D_NUM, D_SYM, D_FUN, D_FAPP, D_SUM, D_PROD, D_NEG, D_POWSUM
 typedef struct dnode dnode;
 typedef struct dfactor {
 	dnode *base;
+	const expr *base_expr; /* the canonical base, when known */
 	const expr *exponent; /* a NUM, or a symbolic exponent */
 	dnode *exp_display;   /* display of a symbolic exponent */
 	int rank;	      /* sort key for display order */
@@ -50,6 +51,7 @@ typedef struct printer {
 	bool frac_part;	    /* LaTeX: writing the only factor of a \\frac part */
 	const prn_abbrev *abbrev;
 	bool top;	    /* building the top-level node (never abbreviated) */
+	int depth;	    /* nesting of build_add: collection stops past a bound */
 } printer;
 
 static dnode *dnew(printer *p, dkind kind)
@@ -148,6 +150,7 @@ static dnode *build_mul(printer *p, const expr *e)
 	for (size_t i = 0; i < e->nops; i++) {
 		dfactor *f = &d->factors[i];
 		f->base = build(p, e->u.mul.bases[i]);
+		f->base_expr = e->u.mul.bases[i];
 		f->exponent = e->u.mul.exps[i];
 		f->exp_display = f->exponent->kind == EXPR_NUM ? NULL : build(p, f->exponent);
 		f->rank = factor_rank(p, e->u.mul.bases[i]);
@@ -283,7 +286,7 @@ static void absorb(printer *p, dnode *d, const expr *e, int sum_rank)
 	}
 	d->factors = xreallocarray(d->factors, d->nfactors + 1, sizeof *d->factors);
 	int rank = part->kind == D_SUM ? sum_rank : factor_rank(p, e);
-	d->factors[d->nfactors++] = (dfactor){part, expr_int(p->ctx, 1), NULL, rank};
+	d->factors[d->nfactors++] = (dfactor){part, e, expr_int(p->ctx, 1), NULL, rank};
 }
 
 /* The display of factor * inner, with inner (usually a sum) kept together:
@@ -524,7 +527,7 @@ static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *ter
 	const expr *subset = expr_add_n(ctx, with.n, with.items);
 	const expr *common = subset && subset->kind == EXPR_ADD ? common_factor(p, subset) : NULL;
 	const expr *inner = common ? expr_div(ctx, subset, common) : NULL;
-	if (!inner || inner->kind != EXPR_ADD || expr_is_one(common)) {
+	if (!inner || inner->kind != EXPR_ADD || expr_is_one(common) || expr_mul(ctx, common, inner) != subset) {
 		for (size_t i = 0; i < n; i++)
 			push_sum_item(sum, build(p, terms[i]));
 	} else {
@@ -552,11 +555,18 @@ static bool sum_has_generic(const expr *e)
 static dnode *build_add(printer *p, const expr *e)
 {
 	expr_ctx *ctx = p->ctx;
-	const expr *common = common_factor(p, e);
+	/* pulling a factor out must leave a smaller problem; the bound is a
+	 * safety net against a division that re-expands into the same shape */
+	const expr *common = p->depth < 64 ? common_factor(p, e) : NULL;
 	if (common && !expr_is_one(common)) {
 		const expr *inner = expr_div(ctx, e, common);
-		if (inner && inner->kind == EXPR_ADD)
-			return product_display(p, common, inner);
+		/* only a factoring that multiplies back to e: (a+b)^-1*(a + b) would not */
+		if (inner && inner->kind == EXPR_ADD && inner->nops <= e->nops && expr_mul(ctx, common, inner) == e) {
+			p->depth++;
+			dnode *d = product_display(p, common, inner);
+			p->depth--;
+			return d;
+		}
 	}
 	dnode *sum = dnew(p, D_SUM);
 	if (sum_has_generic(e))
@@ -846,9 +856,10 @@ static void emit_fun(printer *p, xbuf *out, const dnode *d)
 	expr_builtin fn = d->e->u.fun.fn;
 	if (p->format == PRN_C) {
 		if (fn == EXPR_F_NCDF) {
-			xbuf_put(out, "(0.5*erfc(-(");
+			/* Phi(x) = erfc(-x/sqrt(2))/2, with 1/sqrt(2) spelled out: C99 has no M_SQRT1_2 */
+			xbuf_put(out, "(0.5*erfc(-0.70710678118654752*(");
 			emit(p, out, d->child);
-			xbuf_put(out, ")/M_SQRT2))");
+			xbuf_put(out, ")))");
 			return;
 		}
 		if (fn == EXPR_F_NPDF) {
@@ -1039,11 +1050,37 @@ static void emit_power(printer *p, xbuf *out, const dfactor *f, bool absolute)
 	mpq_clear(e);
 }
 
+/* Text only: a sum raised to an integer power cannot share a denominator
+ * with other factors, nor be written (a + b)^2 under a bar, because reading
+ * back would expand it: such factors are divided one by one (/(a + b)), and
+ * higher powers stay in the numerator as (a + b)^(-2). */
+static bool lone_sum(const printer *p, const dfactor *f)
+{
+	return p->format == PRN_TEXT && f->base_expr && f->base_expr->kind == EXPR_ADD && !f->exp_display &&
+	       rat_is_integer(f->exponent->u.num) && mpq_sgn(f->exponent->u.num) < 0;
+}
+
+static bool is_minus_one(const dfactor *f)
+{
+	return !f->exp_display && mpq_cmp_si(f->exponent->u.num, -1, 1) == 0;
+}
+
 static bool in_denominator(const dfactor *f)
 {
 	if (f->exp_display)
 		return f->exp_display->kind == D_NEG;
 	return mpq_sgn(f->exponent->u.num) < 0;
+}
+
+/* Which side of the fraction bar a factor goes: 0 numerator, 1 the
+ * denominator group, 2 a division of its own. */
+static int side(const printer *p, const dfactor *f)
+{
+	if (!in_denominator(f))
+		return 0;
+	if (lone_sum(p, f))
+		return is_minus_one(f) ? 2 : 0;
+	return 1;
 }
 
 static void emit_factor_list(printer *p, xbuf *out, const dnode *d, bool denominator,
@@ -1056,7 +1093,7 @@ static void emit_factor_list(printer *p, xbuf *out, const dnode *d, bool denomin
 	}
 	for (size_t i = 0; i < d->nfactors; i++) {
 		const dfactor *f = &d->factors[i];
-		if (in_denominator(f) != denominator)
+		if (side(p, f) != (denominator ? 1 : 0))
 			continue;
 		if (*count)
 			xbuf_put(out, times);
@@ -1065,12 +1102,25 @@ static void emit_factor_list(printer *p, xbuf *out, const dnode *d, bool denomin
 	}
 }
 
-static size_t count_side(const dnode *d, bool denominator)
+static size_t count_side(const printer *p, const dnode *d, int which)
 {
 	size_t n = 0;
 	for (size_t i = 0; i < d->nfactors; i++)
-		n += in_denominator(&d->factors[i]) == denominator;
+		n += side(p, &d->factors[i]) == which;
 	return n;
+}
+
+/* Text: the divisions of their own, /(a + b) */
+static void emit_lone_divisions(printer *p, xbuf *out, const dnode *d)
+{
+	for (size_t i = 0; i < d->nfactors; i++) {
+		const dfactor *f = &d->factors[i];
+		if (side(p, f) != 2)
+			continue;
+		xbuf_put(out, "/(");
+		emit(p, out, f->base);
+		xbuf_putc(out, ')');
+	}
 }
 
 static char *number_text(printer *p, const mpz_t z)
@@ -1086,9 +1136,26 @@ static char *number_text(printer *p, const mpz_t z)
 
 static void emit_prod(printer *p, xbuf *out, const dnode *d)
 {
-	size_t nnum = count_side(d, false), nden = count_side(d, true);
+	size_t nnum = count_side(p, d, 0), nden = count_side(p, d, 1);
 	bool integer = rat_is_integer(d->num);
 	bool unit = mpq_cmp_ui(d->num, 1, 1) == 0;
+	if (nden == 0 && !integer && count_side(p, d, 2) == 1 && p->format == PRN_TEXT) {
+		/* x/(2*(a + b)) reads back the same: a sum's rational content is pulled out */
+		char *top = mpz_cmp_ui(mpq_numref(d->num), 1) != 0 || nnum == 0
+				    ? number_text(p, mpq_numref(d->num)) : NULL;
+		size_t count = 0;
+		emit_factor_list(p, out, d, false, top, &count);
+		free(top);
+		char *bottom = number_text(p, mpq_denref(d->num));
+		for (size_t i = 0; i < d->nfactors; i++)
+			if (side(p, &d->factors[i]) == 2) {
+				xbuf_printf(out, "/(%s*(", bottom);
+				emit(p, out, d->factors[i].base);
+				xbuf_put(out, "))");
+			}
+		free(bottom);
+		return;
+	}
 	if (nden == 0) {
 		char *coef = NULL;
 		if (!unit || nnum == 0) {
@@ -1099,6 +1166,7 @@ static void emit_prod(printer *p, xbuf *out, const dnode *d)
 		size_t count = 0;
 		emit_factor_list(p, out, d, false, coef, &count);
 		free(coef);
+		emit_lone_divisions(p, out, d);
 		return;
 	}
 	/* a fraction: numerator (with the coefficient's numerator) over denominator */
@@ -1146,6 +1214,7 @@ static void emit_prod(printer *p, xbuf *out, const dnode *d)
 		xbuf_put(out, den.data);
 		if (!single)
 			xbuf_putc(out, ')');
+		emit_lone_divisions(p, out, d);
 	}
 	xbuf_free(&num);
 	xbuf_free(&den);

@@ -93,9 +93,13 @@ bool rat_pow_int(mpq_t value, mpq_srcptr base, long exponent, unsigned long max_
 		return true;
 	}
 	unsigned long magnitude = exponent < 0 ? 0UL - (unsigned long)exponent : (unsigned long)exponent;
-	bool unit = mpz_cmpabs_ui(mpq_numref(base), 1) == 0 && mpz_cmp_ui(mpq_denref(base), 1) == 0;
-	if (!unit && magnitude > 0 && rat_bits(base) > 0 &&
-	    (double)magnitude * (double)(rat_bits(base) - 1) > (double)max_bits)
+	/* bits of the result: magnitude * log2 of the larger of numerator and denominator */
+	long num_exp, den_exp;
+	double num_mant = fabs(mpz_get_d_2exp(&num_exp, mpq_numref(base)));
+	double den_mant = mpz_get_d_2exp(&den_exp, mpq_denref(base));
+	double log_num = num_exp + log2(num_mant), log_den = den_exp + log2(den_mant);
+	double log_size = log_num > log_den ? log_num : log_den;
+	if (magnitude > 0 && (double)magnitude * log_size + 1 > (double)max_bits)
 		return false;
 	mpz_t num, den;
 	mpz_init(num);
@@ -146,13 +150,47 @@ bool rat_fits_long(mpq_srcptr value)
 
 double rat_to_double(mpq_srcptr value)
 {
-	/* mpq_get_d truncates; for huge or tiny values it still gives the right magnitude. */
-	if (rat_bits(value) < 1000)
-		return mpq_get_d(value);
-	long num_exp, den_exp;
-	double num = mpz_get_d_2exp(&num_exp, mpq_numref(value));
-	double den = mpz_get_d_2exp(&den_exp, mpq_denref(value));
-	return ldexp(num / den, (int)(num_exp - den_exp));
+	/* correctly rounded (to nearest, ties to even): mpq_get_d truncates */
+	if (mpq_sgn(value) == 0)
+		return 0.0;
+	mpz_t num, den, q, r;
+	mpz_init(num);
+	mpz_init_set(den, mpq_denref(value));
+	mpz_init(q);
+	mpz_init(r);
+	mpz_abs(num, mpq_numref(value));
+	/* scale so the quotient has 55 or 56 bits: 53 kept, a guard bit, a sticky bit */
+	long shift = 55 - ((long)mpz_sizeinbase(num, 2) - (long)mpz_sizeinbase(den, 2));
+	if (shift > 0)
+		mpz_mul_2exp(num, num, (unsigned long)shift);
+	else if (shift < 0)
+		mpz_mul_2exp(den, den, (unsigned long)-shift);
+	mpz_tdiv_qr(q, r, num, den);
+	long extra = (long)mpz_sizeinbase(q, 2) - 53;
+	mpz_t low;
+	mpz_init(low);
+	mpz_tdiv_r_2exp(low, q, (unsigned long)extra);
+	mpz_tdiv_q_2exp(q, q, (unsigned long)extra);
+	/* round: compare the dropped bits (and the remainder) with half a unit */
+	mpz_t half;
+	mpz_init_set_ui(half, 1);
+	mpz_mul_2exp(half, half, (unsigned long)(extra - 1));
+	int cmp = mpz_cmp(low, half);
+	if (cmp == 0 && mpz_sgn(r) != 0)
+		cmp = 1;
+	if (cmp > 0 || (cmp == 0 && mpz_odd_p(q)))
+		mpz_add_ui(q, q, 1);
+	double mantissa = mpz_get_d(q); /* at most 54 bits, a power of two if 54: exact */
+	double result = ldexp(mantissa, (int)(extra - shift));
+	if (mpq_sgn(value) < 0)
+		result = -result;
+	mpz_clear(num);
+	mpz_clear(den);
+	mpz_clear(q);
+	mpz_clear(r);
+	mpz_clear(low);
+	mpz_clear(half);
+	return result;
 }
 
 char *rat_to_string(mpq_srcptr value)
