@@ -2574,7 +2574,10 @@ static bool run_check(session *s, const ast_node *st)
 	if (ok) {
 		check_result result;
 		check_run(s->ctx, &in, &result);
-		if (result.error) {
+		if (result.error && expr_error(s->ctx) == EXPR_ERR_INTERRUPTED) {
+			engine_failed(s, &st->loc); /* says whether it was Ctrl-C or the time limit */
+			ok = false;
+		} else if (result.error) {
 			report(s, result.limit_hit ? SESSION_LIMIT : SESSION_INPUT, &st->loc, "%s", result.error);
 			ok = false;
 		} else if (s->format == FORMAT_JSON) {

@@ -3,12 +3,14 @@
 
 #include <gmp.h>
 #include <stdarg.h>
+#include <stdatomic.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
-static unsigned long allocation_count;
+/* atomic: the simulation allocates from several OpenMP threads */
+static atomic_ulong allocation_count;
 
 static void out_of_memory(size_t size)
 {
@@ -21,7 +23,7 @@ void *xmalloc(size_t size)
 	void *ptr = malloc(size ? size : 1);
 	if (!ptr)
 		out_of_memory(size);
-	allocation_count++;
+	atomic_fetch_add_explicit(&allocation_count, 1, memory_order_relaxed);
 	return ptr;
 }
 
@@ -32,7 +34,7 @@ void *xcalloc(size_t count, size_t size)
 	void *ptr = calloc(count ? count : 1, size ? size : 1);
 	if (!ptr)
 		out_of_memory(count * size);
-	allocation_count++;
+	atomic_fetch_add_explicit(&allocation_count, 1, memory_order_relaxed);
 	return ptr;
 }
 
@@ -41,7 +43,7 @@ void *xrealloc(void *ptr, size_t size)
 	void *grown = realloc(ptr, size ? size : 1);
 	if (!grown)
 		out_of_memory(size);
-	allocation_count++;
+	atomic_fetch_add_explicit(&allocation_count, 1, memory_order_relaxed);
 	return grown;
 }
 
@@ -104,7 +106,7 @@ void xalloc_use_for_gmp(void)
 
 unsigned long xalloc_count(void)
 {
-	return allocation_count;
+	return atomic_load_explicit(&allocation_count, memory_order_relaxed);
 }
 
 static void xbuf_reserve(xbuf *buf, size_t extra)

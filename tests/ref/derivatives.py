@@ -90,7 +90,7 @@ class Gen:
 		if kind == "pow":
 			p, q = self.rng.choice([(1, 2), (3, 2), (-1, 2), (1, 3), (2, 3), (-3, 4), (5, 2)])
 			t, e = self.pos(depth - 1)
-			return "%s^(%d/%d)" % (t, p, q), e ** R(p, q)
+			return "(%s)^(%d/%d)" % (t, p, q), e ** R(p, q)
 		return self.fun(depth)
 
 	def fun(self, depth):
@@ -125,7 +125,7 @@ class Gen:
 			return "(1 + x^2)", 1 + self.x ** 2
 		t, e = self.expr(depth - 1)
 		if kind == "sq1":
-			return "(1 + %s^2)" % t, 1 + e ** 2
+			return "(1 + (%s)^2)" % t, 1 + e ** 2
 		if kind == "exp":
 			return "exp((%s)/3)" % t, sympy.exp(e / 3)
 		if kind == "cosh":
@@ -238,4 +238,5 @@ def main():
 	tally.finish()
 
 
-main()
+if __name__ == "__main__":
+	main()
