@@ -1597,21 +1597,19 @@ size_t expr_size(const expr *e)
 	return total;
 }
 
-typedef struct subst_job {
-	size_t n;
-	const expr *const *olds;
-	const expr *const *news;
+typedef struct rebuild_job {
+	expr_leaf_fn leaf;
+	void *data;
 	expr_map memo;
-} subst_job;
+} rebuild_job;
 
-static const expr *subst_rec(expr_ctx *ctx, const expr *e, subst_job *job)
+static const expr *rebuild_rec(expr_ctx *ctx, const expr *e, rebuild_job *job)
 {
 	if (!e)
 		return NULL;
-	for (size_t i = 0; i < job->n; i++)
-		if (e == job->olds[i])
-			return job->news[i];
-	if (e->kind == EXPR_NUM || e->kind == EXPR_SYM)
+	if (e->kind == EXPR_SYM)
+		return job->leaf ? job->leaf(e, job->data) : e;
+	if (e->kind == EXPR_NUM)
 		return e;
 	const expr *known = expr_map_get(&job->memo, e);
 	if (known)
@@ -1623,7 +1621,7 @@ static const expr *subst_rec(expr_ctx *ctx, const expr *e, subst_job *job)
 	case EXPR_ADD: {
 		const expr **terms = xmalloc(e->nops * sizeof *terms);
 		for (size_t i = 0; i < e->nops; i++)
-			terms[i] = subst_rec(ctx, e->u.add.terms[i], job);
+			terms[i] = rebuild_rec(ctx, e->u.add.terms[i], job);
 		result = expr_add_n(ctx, e->nops, terms);
 		free(terms);
 		break;
@@ -1632,19 +1630,19 @@ static const expr *subst_rec(expr_ctx *ctx, const expr *e, subst_job *job)
 		const expr **parts = xmalloc((e->nops + 1) * sizeof *parts);
 		parts[0] = expr_num(ctx, e->u.mul.coef);
 		for (size_t i = 0; i < e->nops; i++)
-			parts[i + 1] = expr_pow(ctx, subst_rec(ctx, e->u.mul.bases[i], job),
-						subst_rec(ctx, e->u.mul.exps[i], job));
+			parts[i + 1] = expr_pow(ctx, rebuild_rec(ctx, e->u.mul.bases[i], job),
+						rebuild_rec(ctx, e->u.mul.exps[i], job));
 		result = expr_mul_n(ctx, e->nops + 1, parts);
 		free(parts);
 		break;
 	}
 	case EXPR_FUN:
-		result = expr_fun(ctx, e->u.fun.fn, subst_rec(ctx, e->u.fun.arg, job));
+		result = expr_fun(ctx, e->u.fun.fn, rebuild_rec(ctx, e->u.fun.arg, job));
 		break;
 	case EXPR_FAPP: {
 		const expr *args[EXPR_MAX_FUNC_ARGS];
 		for (size_t i = 0; i < e->nops; i++)
-			args[i] = subst_rec(ctx, e->u.fapp.args[i], job);
+			args[i] = rebuild_rec(ctx, e->u.fapp.args[i], job);
 		result = expr_fapp(ctx, e->u.fapp.func, e->u.fapp.counts, args);
 		break;
 	}
@@ -1656,16 +1654,37 @@ static const expr *subst_rec(expr_ctx *ctx, const expr *e, subst_job *job)
 	return result;
 }
 
-const expr *expr_subst(expr_ctx *ctx, const expr *e, size_t n, const expr *const *olds,
-		       const expr *const *news)
+const expr *expr_rebuild(expr_ctx *ctx, const expr *e, expr_leaf_fn leaf, void *data)
 {
 	if (!e)
 		return NULL;
+	rebuild_job job = {.leaf = leaf, .data = data};
+	const expr *result = rebuild_rec(ctx, e, &job);
+	expr_map_free(&job.memo);
+	return result;
+}
+
+typedef struct substitution {
+	size_t n;
+	const expr *const *olds;
+	const expr *const *news;
+} substitution;
+
+static const expr *substitute_leaf(const expr *sym, void *data)
+{
+	const substitution *sub = data;
+	for (size_t i = 0; i < sub->n; i++)
+		if (sym == sub->olds[i])
+			return sub->news[i];
+	return sym;
+}
+
+const expr *expr_subst(expr_ctx *ctx, const expr *e, size_t n, const expr *const *olds,
+		       const expr *const *news)
+{
 	for (size_t i = 0; i < n; i++)
 		if (!olds[i] || !news[i])
 			return NULL;
-	subst_job job = {.n = n, .olds = olds, .news = news};
-	const expr *result = subst_rec(ctx, e, &job);
-	expr_map_free(&job.memo);
-	return result;
+	substitution sub = {n, olds, news};
+	return expr_rebuild(ctx, e, substitute_leaf, &sub);
 }

@@ -155,6 +155,11 @@ bool expr_has(expr_ctx *ctx, const expr *e, const expr *sym);
 /* Size of e as a tree (shared subtrees counted once). */
 size_t expr_size(const expr *e);
 
+/* Rebuild e through the constructors (so current assumptions apply), with each
+ * symbol replaced by leaf(symbol, data); leaf NULL keeps the symbols. */
+typedef const expr *(*expr_leaf_fn)(const expr *sym, void *data);
+const expr *expr_rebuild(expr_ctx *ctx, const expr *e, expr_leaf_fn leaf, void *data);
+
 /* Substitute: replace each symbol olds[i] by news[i] (simultaneously). */
 const expr *expr_subst(expr_ctx *ctx, const expr *e, size_t n, const expr *const *olds,
 		       const expr *const *news);

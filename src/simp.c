@@ -296,55 +296,7 @@ const expr *simp_fun(expr_ctx *ctx, expr_builtin fn, const expr *arg)
 
 /* Rebuild e through the constructors, so rules that depend on assumptions
  * declared after e was made can fire. */
-static const expr *refresh_rec(expr_ctx *ctx, const expr *e, expr_map *memo)
-{
-	if (!e || e->kind == EXPR_NUM || e->kind == EXPR_SYM)
-		return e;
-	const expr *known = expr_map_get(memo, e);
-	if (known)
-		return known;
-	const expr *result = NULL;
-	switch (e->kind) {
-	case EXPR_ADD: {
-		const expr **terms = xmalloc(e->nops * sizeof *terms);
-		for (size_t i = 0; i < e->nops; i++)
-			terms[i] = refresh_rec(ctx, e->u.add.terms[i], memo);
-		result = expr_add_n(ctx, e->nops, terms);
-		free(terms);
-		break;
-	}
-	case EXPR_MUL: {
-		const expr **parts = xmalloc((e->nops + 1) * sizeof *parts);
-		parts[0] = expr_num(ctx, e->u.mul.coef);
-		for (size_t i = 0; i < e->nops; i++)
-			parts[i + 1] = expr_pow(ctx, refresh_rec(ctx, e->u.mul.bases[i], memo),
-						refresh_rec(ctx, e->u.mul.exps[i], memo));
-		result = expr_mul_n(ctx, e->nops + 1, parts);
-		free(parts);
-		break;
-	}
-	case EXPR_FUN:
-		result = expr_fun(ctx, e->u.fun.fn, refresh_rec(ctx, e->u.fun.arg, memo));
-		break;
-	case EXPR_FAPP: {
-		const expr *args[EXPR_MAX_FUNC_ARGS];
-		for (size_t i = 0; i < e->nops; i++)
-			args[i] = refresh_rec(ctx, e->u.fapp.args[i], memo);
-		result = expr_fapp(ctx, e->u.fapp.func, e->u.fapp.counts, args);
-		break;
-	}
-	default:
-		result = e;
-	}
-	if (result)
-		expr_map_put(memo, e, result);
-	return result;
-}
-
 const expr *simp_refresh(expr_ctx *ctx, const expr *e)
 {
-	expr_map memo = {0};
-	const expr *result = refresh_rec(ctx, e, &memo);
-	expr_map_free(&memo);
-	return result;
+	return expr_rebuild(ctx, e, NULL, NULL);
 }
