@@ -252,6 +252,20 @@ static const expr *common_factor(printer *p, const expr *sum)
 	return result;
 }
 
+/* Does a monomial have a sum as a base?  Only then can dividing by it and
+ * multiplying back give something else ((a+b)^-1 * (a + b) = 1). */
+static bool has_sum_base(const expr *m)
+{
+	if (m->kind == EXPR_ADD)
+		return true;
+	if (m->kind != EXPR_MUL)
+		return false;
+	for (size_t i = 0; i < m->nops; i++)
+		if (m->u.mul.bases[i]->kind == EXPR_ADD)
+			return true;
+	return false;
+}
+
 static void sort_factors(dnode *d)
 {
 	/* stable insertion sort: canonical order is kept within a rank */
@@ -527,7 +541,8 @@ static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *ter
 	const expr *subset = expr_add_n(ctx, with.n, with.items);
 	const expr *common = subset && subset->kind == EXPR_ADD ? common_factor(p, subset) : NULL;
 	const expr *inner = common ? expr_div(ctx, subset, common) : NULL;
-	if (!inner || inner->kind != EXPR_ADD || expr_is_one(common) || expr_mul(ctx, common, inner) != subset) {
+	if (!inner || inner->kind != EXPR_ADD || expr_is_one(common) ||
+	    (has_sum_base(common) && expr_mul(ctx, common, inner) != subset)) {
 		for (size_t i = 0; i < n; i++)
 			push_sum_item(sum, build(p, terms[i]));
 	} else {
@@ -561,7 +576,8 @@ static dnode *build_add(printer *p, const expr *e)
 	if (common && !expr_is_one(common)) {
 		const expr *inner = expr_div(ctx, e, common);
 		/* only a factoring that multiplies back to e: (a+b)^-1*(a + b) would not */
-		if (inner && inner->kind == EXPR_ADD && inner->nops <= e->nops && expr_mul(ctx, common, inner) == e) {
+		if (inner && inner->kind == EXPR_ADD && inner->nops <= e->nops &&
+		    (!has_sum_base(common) || expr_mul(ctx, common, inner) == e)) {
 			p->depth++;
 			dnode *d = product_display(p, common, inner);
 			p->depth--;
