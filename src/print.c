@@ -40,6 +40,7 @@ struct dnode {
 	size_t n;
 	dfactor *factors;  /* D_PROD */
 	size_t nfactors;
+	size_t order;	   /* in a collected sum: position of its first term in the node order */
 };
 
 typedef struct printer {
@@ -52,6 +53,9 @@ typedef struct printer {
 	const prn_abbrev *abbrev;
 	bool top;	    /* building the top-level node (never abbreviated) */
 	int depth;	    /* nesting of build_add: collection stops past a bound */
+	const expr *const *sum_terms; /* the terms of the sum being collected */
+	size_t nsum_terms;
+	expr_map order_map; /* term -> NUM position + 1, for the sum being collected */
 } printer;
 
 static dnode *dnew(printer *p, dkind kind)
@@ -221,8 +225,21 @@ static const expr *common_factor(printer *p, const expr *sum)
 	for (size_t b = 0; b < nbases; b++) {
 		const expr *base = first->kind == EXPR_MUL ? first->u.mul.bases[b] : first;
 		const expr *exponent = first->kind == EXPR_MUL ? first->u.mul.exps[b] : expr_int(ctx, 1);
-		if (exponent->kind != EXPR_NUM)
+		if (exponent->kind != EXPR_NUM) {
+			/* a symbolic power (S^n) is common when every term has the very same one */
+			bool everywhere = true;
+			for (size_t i = 1; i < sum->nops && everywhere; i++) {
+				const expr *t = sum->u.add.terms[i];
+				bool found = false;
+				if (t->kind == EXPR_MUL)
+					for (size_t j = 0; j < t->nops; j++)
+						found |= t->u.mul.bases[j] == base && t->u.mul.exps[j] == exponent;
+				everywhere = found;
+			}
+			if (everywhere)
+				result = expr_mul(ctx, result, expr_pow(ctx, base, exponent));
 			continue;
+		}
 		mpq_t best;
 		mpq_init(best);
 		mpq_set(best, exponent->u.num);
@@ -388,6 +405,19 @@ static void push_sum_item(dnode *sum, dnode *item)
 
 static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *terms);
 
+/* The position of a term in the sum being collected (for the display order). */
+static size_t term_order(const printer *p, const expr *term)
+{
+	const expr *position = expr_map_get(&p->order_map, term);
+	return position ? (size_t)mpz_get_ui(mpq_numref(position->u.num)) - 1 : p->nsum_terms;
+}
+
+static dnode *ordered(dnode *d, size_t order)
+{
+	d->order = order;
+	return d;
+}
+
 /* Terms that contain generic functions: grouped by the function part. */
 static void build_function_groups(printer *p, dnode *sum, size_t n, const expr *const *terms)
 {
@@ -472,7 +502,7 @@ static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *ter
 	if (n == 0)
 		return;
 	if (n == 1) {
-		push_sum_item(sum, build(p, terms[0]));
+		push_sum_item(sum, ordered(build(p, terms[0]), term_order(p, terms[0])));
 		return;
 	}
 	/* count, in one pass, the terms that hold each base with each exponent sign */
@@ -532,7 +562,7 @@ static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *ter
 	free(table);
 	if (!best || best_count < 2) {
 		for (size_t i = 0; i < n; i++)
-			push_sum_item(sum, build(p, terms[i]));
+			push_sum_item(sum, ordered(build(p, terms[i]), term_order(p, terms[i])));
 		return;
 	}
 	expr_vec with = {0}, without = {0};
@@ -544,9 +574,14 @@ static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *ter
 	if (!inner || inner->kind != EXPR_ADD || expr_is_one(common) ||
 	    (has_sum_base(common) && expr_mul(ctx, common, inner) != subset)) {
 		for (size_t i = 0; i < n; i++)
-			push_sum_item(sum, build(p, terms[i]));
+			push_sum_item(sum, ordered(build(p, terms[i]), term_order(p, terms[i])));
 	} else {
-		push_sum_item(sum, product_display(p, common, inner));
+		size_t first = p->nsum_terms;
+		for (size_t i = 0; i < with.n; i++) {
+			size_t o = term_order(p, with.items[i]);
+			first = o < first ? o : first;
+		}
+		push_sum_item(sum, ordered(product_display(p, common, inner), first));
 		build_terms(p, sum, without.n, without.items);
 	}
 	expr_vec_free(&with);
@@ -585,10 +620,30 @@ static dnode *build_add(printer *p, const expr *e)
 		}
 	}
 	dnode *sum = dnew(p, D_SUM);
-	if (sum_has_generic(e))
+	if (sum_has_generic(e)) {
 		build_function_groups(p, sum, e->nops, (const expr *const *)e->u.add.terms);
-	else
+	} else {
+		const expr *const *keep_terms = p->sum_terms;
+		size_t keep_n = p->nsum_terms;
+		expr_map keep_map = p->order_map;
+		p->sum_terms = (const expr *const *)e->u.add.terms;
+		p->nsum_terms = e->nops;
+		memset(&p->order_map, 0, sizeof p->order_map);
+		for (size_t i = 0; i < e->nops; i++)
+			expr_map_put(&p->order_map, e->u.add.terms[i], expr_int(ctx, (long)i + 1));
 		build_terms(p, sum, e->nops, (const expr *const *)e->u.add.terms);
+		/* groups stand where their first term stands in the node order: mu + 1/2*sigma^2*(n - 1) */
+		for (size_t i = 1; i < sum->n; i++)
+			for (size_t j = i; j > 0 && sum->items[j - 1]->order > sum->items[j]->order; j--) {
+				dnode *t = sum->items[j - 1];
+				sum->items[j - 1] = sum->items[j];
+				sum->items[j] = t;
+			}
+		expr_map_free(&p->order_map);
+		p->order_map = keep_map;
+		p->sum_terms = keep_terms;
+		p->nsum_terms = keep_n;
+	}
 	/* flatten nested sums and start with a positive term: mu - 1/2*sigma^2 */
 	dnode *flat = dnew(p, D_SUM);
 	for (size_t i = 0; i < sum->n; i++) {

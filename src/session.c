@@ -731,6 +731,20 @@ static const char *measure_label(session *s)
 static char *differential_label(session *s, const expr *e, prn_format format)
 {
 	char *body = prn_expr(s->ctx, e, format);
+	if (expr_kind_of(e) == EXPR_FAPP && !strchr(body, '(')) {
+		/* d(g(t, S, v)), not d(g): name the arguments on the left of a differential */
+		xbuf named = {0};
+		xbuf_put(&named, body);
+		xbuf_put(&named, format == PRN_LATEX ? "\\left(" : "(");
+		for (size_t i = 0; i < expr_nops(e); i++) {
+			char *arg = prn_expr(s->ctx, expr_op(e, i), format);
+			xbuf_printf(&named, "%s%s", i ? ", " : "", arg);
+			free(arg);
+		}
+		xbuf_put(&named, format == PRN_LATEX ? "\\right)" : ")");
+		free(body);
+		body = xbuf_take(&named);
+	}
 	char *label;
 	bool symbol = expr_kind_of(e) == EXPR_SYM;
 	if (format == PRN_LATEX) {

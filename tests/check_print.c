@@ -80,7 +80,7 @@ START_TEST(test_text)
 	/* the mean-reverting drift keeps its factor: kappa*(theta - v) */
 	expect_print("kappa*(theta - v)", PRN_TEXT, "kappa*(theta - v)");
 	expect_print("kappa*theta - kappa*v", PRN_TEXT, "kappa*(theta - v)");
-	expect_print("kappa*theta - kappa*v + sigma", PRN_TEXT, "kappa*(theta - v) + sigma");
+	expect_print("kappa*theta - kappa*v + sigma", PRN_TEXT, "sigma + kappa*(theta - v)");
 	/* the log-price drift (Shreve II, 4.4, from memory): mu - sigma^2/2 */
 	expect_print("mu - sigma^2/2", PRN_TEXT, "mu - 1/2*sigma^2");
 	expect_print("1/sqrt(v)", PRN_TEXT, "1/sqrt(v)");

@@ -48,12 +48,12 @@
 #define MAX_REPS 15
 
 typedef struct bench_options {
-	int reps;	/* repetitions of one measurement (median reported) */
-	double budget;	/* stop repeating once this many seconds were spent */
+	int reps;       /* repetitions of one measurement (median reported) */
+	double budget;  /* stop repeating once this many seconds were spent */
 	double timeout; /* a measurement running longer is killed */
 	int max_n;
-	int only_n;	/* 0, or the one n to run (for profiling) */
-	char only;	/* 0, 'a', 'b' or 'c' */
+	int only_n; /* 0, or the one n to run (for profiling) */
+	char only;  /* 0, 'a', 'b' or 'c' */
 	bool tsv;
 } bench_options;
 
@@ -105,22 +105,23 @@ static const expr *linear_form(expr_ctx *ctx, char form, int i)
 	switch (form) {
 	case 'n':
 		return expr_add_n(ctx, 3,
-				  (const expr *[]){expr_mul(ctx, expr_int(ctx, i + 1), x),
-						   expr_mul(ctx, expr_int(ctx, 2 * i + 3), y),
-						   expr_int(ctx, i % 5 + 1)});
+		                  (const expr *[]){expr_mul(ctx, expr_int(ctx, i + 1), x),
+		                                   expr_mul(ctx, expr_int(ctx, 2 * i + 3), y),
+		                                   expr_int(ctx, i % 5 + 1)});
 	case 's':
 		return expr_add_n(ctx, 4,
-				  (const expr *[]){expr_mul(ctx, expr_sym(ctx, "a"), x),
-						   expr_mul(ctx, expr_sym(ctx, "b"), y), expr_sym(ctx, "c"),
-						   expr_int(ctx, i + 1)});
+		                  (const expr *[]){expr_mul(ctx, expr_sym(ctx, "a"), x),
+		                                   expr_mul(ctx, expr_sym(ctx, "b"), y), expr_sym(ctx, "c"),
+		                                   expr_int(ctx, i + 1)});
 	default:
 		snprintf(name, sizeof name, "a%d", i + 1);
 		const expr *a = expr_sym(ctx, name);
 		snprintf(name, sizeof name, "b%d", i + 1);
 		const expr *b = expr_sym(ctx, name);
 		snprintf(name, sizeof name, "c%d", i + 1);
-		return expr_add_n(ctx, 3, (const expr *[]){expr_mul(ctx, a, x), expr_mul(ctx, b, y),
-							    expr_sym(ctx, name)});
+		return expr_add_n(
+		        ctx, 3,
+		        (const expr *[]){expr_mul(ctx, a, x), expr_mul(ctx, b, y), expr_sym(ctx, name)});
 	}
 }
 
@@ -289,7 +290,7 @@ static void engine_failure(measurement *out, expr_ctx *ctx)
 {
 	out->status = expr_error(ctx) == EXPR_OK ? SESSION_INPUT : SESSION_LIMIT;
 	snprintf(out->note, sizeof out->note, "%s",
-		 expr_error(ctx) == EXPR_OK ? "cannot be set up" : expr_error_message(ctx));
+	         expr_error(ctx) == EXPR_OK ? "cannot be set up" : expr_error_message(ctx));
 }
 
 /* One repetition of the engine part; returns its seconds, or -1 on failure. */
@@ -333,7 +334,7 @@ static double engine_once(const bench_case *bc, measurement *out)
 			engine_failure(out, ctx);
 			if (bc->kind == 'b' && bc->n + 1 > EXPR_MAX_FUNC_ARGS)
 				snprintf(out->note, sizeof out->note, "f has %d arguments, over the limit %d",
-					 bc->n + 1, EXPR_MAX_FUNC_ARGS);
+				         bc->n + 1, EXPR_MAX_FUNC_ARGS);
 		}
 		model_free(&m);
 	}
@@ -377,7 +378,7 @@ static double query_once(const bench_case *bc, measurement *out)
 
 /* Repeat f until opt->reps repetitions or the time budget; the median. */
 static double repeat(const bench_options *opt, const bench_case *bc, measurement *out,
-		     double (*once)(const bench_case *, measurement *))
+                     double (*once)(const bench_case *, measurement *))
 {
 	double times[MAX_REPS];
 	int n = 0;
@@ -437,8 +438,8 @@ static bool measure_isolated(const bench_options *opt, const bench_case *bc, mea
 	bool ok = ready > 0 && read(fds[0], out, sizeof *out) == (ssize_t)sizeof *out;
 	if (!ok) {
 		kill(pid, SIGKILL);
-		snprintf(out->note, sizeof out->note, ready == 0 ? "over the %.0f s timeout" : "the child died",
-			 opt->timeout);
+		snprintf(out->note, sizeof out->note,
+		         ready == 0 ? "over the %.0f s timeout" : "the child died", opt->timeout);
 		out->status = -1;
 	}
 	close(fds[0]);
@@ -491,7 +492,7 @@ static void print_row(const bench_case *bc, const measurement *r, bool tsv)
 }
 
 static void run_series(const bench_options *opt, const char *name, char kind, char form, const int *ns,
-		       size_t count)
+                       size_t count)
 {
 	bool stopped = false;
 	for (size_t i = 0; i < count; i++) {
@@ -577,7 +578,7 @@ static int print_drift(char kind, int n)
 		status = 0;
 	} else {
 		fprintf(stderr, "bench_core: case %c, n = %d: %s\n", kind, n,
-			expr_error(ctx) ? expr_error_message(ctx) : "cannot be set up");
+		        expr_error(ctx) ? expr_error_message(ctx) : "cannot be set up");
 	}
 	ito_diff_free(&d);
 	model_free(&m);
@@ -587,8 +588,9 @@ static int print_drift(char kind, int n)
 
 static int usage(void)
 {
-	fprintf(stderr, "usage: bench_core [--reps N] [--budget S] [--timeout S] [--max-n N] [--n N] [--only a|b|c] [--tsv]\n"
-			"       bench_core --script b|c N | --drift b|c N\n");
+	fprintf(stderr, "usage: bench_core [--reps N] [--budget S] [--timeout S] [--max-n N] [--n N] [--only "
+	                "a|b|c] [--tsv]\n"
+	                "       bench_core --script b|c N | --drift b|c N\n");
 	return 2;
 }
 
@@ -605,7 +607,8 @@ int main(int argc, char **argv)
 			int n = atoi(argv[i + 2]);
 			if (n < 1 || n > 200)
 				return usage();
-			return arg[2] == 's' ? print_script(argv[i + 1][0], n) : print_drift(argv[i + 1][0], n);
+			return arg[2] == 's' ? print_script(argv[i + 1][0], n)
+			                     : print_drift(argv[i + 1][0], n);
 		}
 		if (strcmp(arg, "--tsv") == 0) {
 			opt.tsv = true;

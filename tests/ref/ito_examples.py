@@ -257,6 +257,10 @@ def run_group(tally, title, names, prelude, examples):
 		if ex.kind is not None and obj.get("kind") != ex.kind:
 			tally.fail(label, "JSON kind %r, expected %r: %r" % (obj.get("kind"), ex.kind, obj))
 			continue
+		measure = ex.query.split(" under ")[1].strip() if " under " in ex.query else "P"
+		if "measure" in obj and obj["measure"] != measure:
+			tally.fail(label, "JSON measure %r, expected %r" % (obj["measure"], measure))
+			continue
 		try:
 			hand = ex.hand()
 			got = as_differential(obj, parser) if isinstance(hand, tuple) else as_value(obj, parser)
@@ -492,17 +496,16 @@ def group_cir(tally):
 		        + sigma**2 * rr / 2 * sympy.Derivative(P(t, rr), rr, 2) - rr * P(t, rr), "pde"),
 		Example("Cox-Ingersoll-Ross 1985: d<r> = sigma^2 r dt (from memory)",
 		        "qv r", lambda: m.qv(rr, rr), sigma**2 * rr, "qv"),
-		# change of state y = sqrt(r): the same SDE as d sqrt(r), written in y
-		Example("common practice, no source: change of state y = sqrt(r) of the CIR process",
-		        "state y = sqrt(r) where r = y^2",
-		        lambda: (0, {}), None, None),
-		Example("common practice, no source: `ito y` after y = sqrt(r)",
-		        "ito y", lambda: tuple([sq[0].subs(rr, y**2), sq[1]]),
+	]
+	# change of state y = sqrt(r) (a declaration: it prints nothing, so it goes into
+	# the prelude of a second run): the SDE of d sqrt(r) above, written in y
+	in_y = [
+		Example("common practice, no source: `ito y` after state y = sqrt(r) where r = y^2",
+		        "ito y", lambda: (sq[0].subs(rr, y**2), sq[1]),
 		        ((kappa * theta / 2 - sigma**2 / 8) / y - kappa * y / 2, {"W": sigma / 2}), "sde"),
 	]
-	# `state` prints nothing: run it as part of the prelude of a second group
-	run_group(tally, "CIR", n, pre, ex[:3])
-	run_group(tally, "CIR in y = sqrt(r)", n, pre + [ex[3].query], ex[4:])
+	run_group(tally, "CIR", n, pre, ex)
+	run_group(tally, "CIR in y = sqrt(r)", n, pre + ["state y = sqrt(r) where r = y^2"], in_y)
 
 
 def heston_names():
