@@ -1732,6 +1732,29 @@ static bool run_state(session *s, const ast_node *st)
 
 static void dump_model_body(session *s, xbuf *out, const char *only);
 
+/* "assume x > 0", "assume x in [a, b]" for an entry that has a range. */
+static void dump_assumption(session *s, xbuf *out, const model_entry *e)
+{
+	char *text;
+	if (e->lo && e->hi && !e->lo_strict && !e->hi_strict) {
+		char *lo = text_expr(s, e->lo), *hi = text_expr(s, e->hi);
+		xbuf_printf(out, "assume %s in [%s, %s]\n", e->name, lo, hi);
+		free(lo);
+		free(hi);
+		return;
+	}
+	if (e->lo) {
+		text = text_expr(s, e->lo);
+		xbuf_printf(out, "assume %s %s %s\n", e->name, e->lo_strict ? ">" : ">=", text);
+		free(text);
+	}
+	if (e->hi) {
+		text = text_expr(s, e->hi);
+		xbuf_printf(out, "assume %s %s %s\n", e->name, e->hi_strict ? "<" : "<=", text);
+		free(text);
+	}
+}
+
 static void dump_model(session *s, xbuf *out, const char *only)
 {
 	bool keep_abbreviate = s->abbreviate;
@@ -1800,28 +1823,18 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 					    expr_sym_name(m->noises[j]), text);
 				free(text);
 			}
-	/* assumptions on states and on names not declared yet */
+	/* assumptions: on states in the order of their SDEs (so the text does not
+	 * depend on which declaration first named them), then on names announced
+	 * for later */
+	for (size_t i = 0; i < m->nsdes; i++) {
+		model_entry *e = model_lookup(m, expr_sym_name(m->sdes[i].state));
+		if (e && (!only || strcmp(e->name, only) == 0))
+			dump_assumption(s, out, e);
+	}
 	for (size_t i = 0; i < m->nentries; i++) {
 		model_entry *e = &m->entries[i];
-		if ((e->kind != MODEL_STATE && e->kind != MODEL_ARG) || (only && strcmp(e->name, only) != 0))
-			continue;
-		if (e->lo && e->hi && !e->lo_strict && !e->hi_strict) {
-			char *lo = text_expr(s, e->lo), *hi = text_expr(s, e->hi);
-			xbuf_printf(out, "assume %s in [%s, %s]\n", e->name, lo, hi);
-			free(lo);
-			free(hi);
-			continue;
-		}
-		if (e->lo) {
-			text = text_expr(s, e->lo);
-			xbuf_printf(out, "assume %s %s %s\n", e->name, e->lo_strict ? ">" : ">=", text);
-			free(text);
-		}
-		if (e->hi) {
-			text = text_expr(s, e->hi);
-			xbuf_printf(out, "assume %s %s %s\n", e->name, e->hi_strict ? "<" : "<=", text);
-			free(text);
-		}
+		if (e->kind == MODEL_ARG && (!only || strcmp(e->name, only) == 0))
+			dump_assumption(s, out, e);
 	}
 	const model_measure *keep_measure = s->measure;
 	s->measure = NULL;
@@ -2187,7 +2200,10 @@ static bool run_save(session *s, const ast_node *st)
 	}
 	xbuf buf = {0};
 	dump_model(s, &buf, NULL);
+	static const char *const format_names[] = {"text", "latex", "c", "json"};
 	fprintf(file, "# itox session saved as a script\n%s", buf.data ? buf.data : "");
+	if (s->format != FORMAT_TEXT)
+		fprintf(file, "format %s\n", format_names[s->format]);
 	bool ok = fclose(file) == 0;
 	xbuf_free(&buf);
 	if (!ok)
