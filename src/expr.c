@@ -1266,6 +1266,73 @@ const expr *expr_mul(expr_ctx *ctx, const expr *a, const expr *b)
 	return expr_mul_n(ctx, 2, factors);
 }
 
+/* term / m for a monomial m whose factors all occur in term: the exponents
+ * are subtracted directly (the printer divides every term of a sum by a
+ * common factor, and a full product would re-sort and re-merge each one).
+ * NULL when the shortcut does not apply; then the caller divides normally. */
+static const expr *divide_exactly(expr_ctx *ctx, const expr *term, const expr *m)
+{
+	const expr *one_exp = ctx->one;
+	const expr *const *mb = m->kind == EXPR_MUL ? m->u.mul.bases : &m;
+	const expr *const *me = m->kind == EXPR_MUL ? m->u.mul.exps : &one_exp;
+	size_t mn = m->kind == EXPR_MUL ? m->nops : 1;
+	const expr *const *tb = term->kind == EXPR_MUL ? term->u.mul.bases : &term;
+	const expr *const *te = term->kind == EXPR_MUL ? term->u.mul.exps : &one_exp;
+	size_t tn = term->kind == EXPR_MUL ? term->nops : 1;
+	factor_list kept = {0};
+	size_t j = 0;
+	const expr *result = NULL;
+	for (size_t i = 0; i < tn; i++) {
+		const expr *exponent = te[i];
+		if (j < mn && mb[j] == tb[i]) {
+			if (exponent->kind != EXPR_NUM || me[j]->kind != EXPR_NUM)
+				goto out;
+			exponent = expr_sub(ctx, exponent, me[j]);
+			j++;
+			if (expr_is_zero(exponent))
+				continue;
+			/* a power left over on these bases may need the full rules */
+			if (tb[i]->kind == EXPR_NUM || tb[i]->kind == EXPR_ADD || is_fun(tb[i], EXPR_F_EXP) ||
+			    is_fun(tb[i], EXPR_F_ABS))
+				goto out;
+		}
+		factor_push(&kept, tb[i], exponent);
+	}
+	if (j == mn) {
+		mpq_t coef;
+		mpq_init(coef);
+		if (term->kind == EXPR_MUL)
+			mpq_set(coef, term->u.mul.coef);
+		else
+			mpq_set_ui(coef, 1, 1);
+		if (m->kind == EXPR_MUL)
+			mpq_div(coef, coef, m->u.mul.coef);
+		result = make_mul(ctx, coef, &kept);
+		mpq_clear(coef);
+	}
+out:
+	free(kept.items);
+	return result;
+}
+
+const expr *expr_div_terms(expr_ctx *ctx, const expr *sum, const expr *m)
+{
+	if (!sum || !m || sum->kind != EXPR_ADD || (m->kind != EXPR_MUL && m->kind != EXPR_SYM &&
+						    m->kind != EXPR_FUN && m->kind != EXPR_FAPP))
+		return expr_div(ctx, sum, m);
+	const expr **terms = xmalloc(sum->nops * sizeof *terms);
+	for (size_t i = 0; i < sum->nops; i++) {
+		terms[i] = divide_exactly(ctx, sum->u.add.terms[i], m);
+		if (!terms[i]) {
+			free(terms);
+			return expr_div(ctx, sum, m);
+		}
+	}
+	const expr *result = expr_add_n(ctx, sum->nops, terms);
+	free(terms);
+	return result;
+}
+
 const expr *expr_div(expr_ctx *ctx, const expr *a, const expr *b)
 {
 	if (!a || !b)

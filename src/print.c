@@ -570,7 +570,7 @@ static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *ter
 		expr_vec_push(term_has(terms[i], best, best_sign) ? &with : &without, terms[i]);
 	const expr *subset = expr_add_n(ctx, with.n, with.items);
 	const expr *common = subset && subset->kind == EXPR_ADD ? common_factor(p, subset) : NULL;
-	const expr *inner = common ? expr_div(ctx, subset, common) : NULL;
+	const expr *inner = common ? expr_div_terms(ctx, subset, common) : NULL;
 	if (!inner || inner->kind != EXPR_ADD || expr_is_one(common) ||
 	    (has_sum_base(common) && expr_mul(ctx, common, inner) != subset)) {
 		for (size_t i = 0; i < n; i++)
@@ -609,7 +609,7 @@ static dnode *build_add(printer *p, const expr *e)
 	 * safety net against a division that re-expands into the same shape */
 	const expr *common = p->depth < 64 ? common_factor(p, e) : NULL;
 	if (common && !expr_is_one(common)) {
-		const expr *inner = expr_div(ctx, e, common);
+		const expr *inner = expr_div_terms(ctx, e, common);
 		/* only a factoring that multiplies back to e: (a+b)^-1*(a + b) would not */
 		if (inner && inner->kind == EXPR_ADD && inner->nops <= e->nops &&
 		    (!has_sum_base(common) || expr_mul(ctx, common, inner) == e)) {
