@@ -53,6 +53,7 @@ typedef struct printer {
 	const prn_abbrev *abbrev;
 	bool top;	    /* building the top-level node (never abbreviated) */
 	int depth;	    /* nesting of build_add: collection stops past a bound */
+	bool plain_states;  /* LaTeX: S rather than S_t */
 	const expr *const *sum_terms; /* the terms of the sum being collected */
 	size_t nsum_terms;
 	expr_map order_map; /* term -> NUM position + 1, for the sum being collected */
@@ -909,7 +910,8 @@ static void emit_symbol(printer *p, xbuf *out, const expr *sym)
 {
 	if (p->format == PRN_LATEX) {
 		int rank = sym->u.sym.rank;
-		char *name = prn_latex_name(sym->u.sym.name, rank == PRN_RANK_STATE || rank == PRN_RANK_NOISE);
+		char *name = prn_latex_name(sym->u.sym.name,
+					    !p->plain_states && (rank == PRN_RANK_STATE || rank == PRN_RANK_NOISE));
 		xbuf_put(out, name);
 		free(name);
 		return;
@@ -1341,6 +1343,10 @@ char *prn_expr_abbrev(expr_ctx *ctx, const expr *e, prn_format format, const prn
 	if (!e)
 		return xstrdup("<error>");
 	printer p = {.ctx = ctx, .format = format, .abbrev = abbrev, .top = true};
+	if (format == PRN_LATEX_PLAIN) {
+		p.format = PRN_LATEX;
+		p.plain_states = true;
+	}
 	dnode *d = build(&p, e);
 	xbuf out = {0};
 	emit(&p, &out, d);

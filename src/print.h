@@ -10,7 +10,8 @@
 
 #include "expr.h"
 
-typedef enum prn_format { PRN_TEXT, PRN_LATEX, PRN_C } prn_format;
+/* PRN_LATEX_PLAIN is LaTeX without the _t of states (for a PDE in S, v). */
+typedef enum prn_format { PRN_TEXT, PRN_LATEX, PRN_C, PRN_LATEX_PLAIN } prn_format;
 
 /* Display classes of symbols (set with expr_sym_set_rank): parameters print
  * before time, states and noises in products; LaTeX subscripts states with t. */

@@ -2023,7 +2023,8 @@ static bool run_pde(session *s, const ast_node *st)
 	const expr *lhs = ito_pde(m, s->measure, V, discount);
 	if (!lhs || engine_failed(s, &st->loc))
 		return false;
-	char *text = show_expr(s, lhs);
+	/* a PDE is in the variables S, v, not in the processes S_t, v_t */
+	char *text = s->format == FORMAT_LATEX ? format_expr(s, lhs, PRN_LATEX_PLAIN) : show_expr(s, lhs);
 	xbuf buf = {0};
 	switch (s->format) {
 	case FORMAT_TEXT:
