@@ -802,7 +802,15 @@ static void put_term(session *s, xbuf *buf, const expr *c, const char *increment
 	free(text);
 }
 
+static char *differential_text_in(session *s, const ito_diff *d, bool latex, bool circ);
+
 static char *differential_text(session *s, const ito_diff *d, bool latex)
+{
+	return differential_text_in(s, d, latex, false);
+}
+
+/* circ: LaTeX Stratonovich increments, b \circ dW */
+static char *differential_text_in(session *s, const ito_diff *d, bool latex, bool circ)
 {
 	xbuf buf = {0};
 	bool first = true;
@@ -817,7 +825,7 @@ static char *differential_text(session *s, const ito_diff *d, bool latex)
 		char *increment;
 		if (latex) {
 			char *l = prn_latex_name(name, true);
-			increment = xasprintf("\\mathrm{d}%s", l);
+			increment = xasprintf(circ ? "\\circ\\mathrm{d}%s" : "\\mathrm{d}%s", l);
 			free(l);
 		} else {
 			increment = xasprintf("d%s", name);
@@ -2090,14 +2098,10 @@ static bool run_convention(session *s, const ast_node *st, bool stratonovich)
 		break;
 	}
 	case FORMAT_LATEX: {
-		char *body = differential_text(s, &d, true);
+		/* Stratonovich increments are written with a circle: b \circ dW */
+		char *body = differential_text_in(s, &d, true, stratonovich);
 		char *name = prn_latex_name(st->text, true);
-		if (stratonovich) {
-			/* Stratonovich increments are written with a circle */
-			xbuf_printf(&buf, "\\mathrm{d}%s = %s \\quad\\text{(Stratonovich)}", name, body);
-		} else {
-			xbuf_printf(&buf, "\\mathrm{d}%s = %s", name, body);
-		}
+		xbuf_printf(&buf, "\\mathrm{d}%s = %s", name, body);
 		free(name);
 		free(body);
 		break;
@@ -2495,7 +2499,17 @@ static bool run_claim(session *s, const ast_node *st)
 				free(diff_text);
 			}
 		}
-		put_line(s, buf.data);
+		if (s->format == FORMAT_C) {
+			/* keep C output compilable: the verdict as a comment */
+			for (char *c = buf.data; c && c[0] && c[1]; c++)
+				if (c[0] == '*' && c[1] == '/')
+					c[1] = ' ';
+			char *comment = xasprintf("/* claim %s */", buf.data);
+			put_line(s, comment);
+			free(comment);
+		} else {
+			put_line(s, buf.data);
+		}
 		xbuf_free(&buf);
 		free(part);
 		if (!result.holds)
