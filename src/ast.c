@@ -226,6 +226,16 @@ void ast_push_stmt(ast_list *list, ast_node *stmt)
  * root (the statement node itself not counted: "----x" has depth 4).  The
  * walk uses no recursion, so a long chain such as a+b+c+... cannot exhaust
  * the C stack; where gets the span of the first node found too deep. */
+/* a + b + c is a left spine of ADD/SUB nodes (and a*b/c of MUL/DIV): the
+ * engine folds such chains in a loop, so their length is not nesting. */
+static bool same_chain(const ast_node *parent, const ast_node *child)
+{
+	bool additive = parent->kind == AST_ADD || parent->kind == AST_SUB;
+	bool multiplicative = parent->kind == AST_MUL || parent->kind == AST_DIV;
+	return (additive && (child->kind == AST_ADD || child->kind == AST_SUB)) ||
+	       (multiplicative && (child->kind == AST_MUL || child->kind == AST_DIV));
+}
+
 bool ast_too_deep(const ast_node *root, int limit, ast_loc *where)
 {
 	struct frame {
@@ -253,7 +263,8 @@ bool ast_too_deep(const ast_node *root, int limit, ast_loc *where)
 		const ast_node *children[3] = {node->a, node->b, node->c};
 		for (int i = 0; i < 3; i++)
 			if (children[i] != NULL)
-				stack[count++] = (struct frame){children[i], top.depth + 1};
+				stack[count++] = (struct frame){children[i],
+								top.depth + (i == 0 && same_chain(node, children[i]) ? 0 : 1)};
 		for (size_t i = 0; i < node->nitems; i++)
 			stack[count++] = (struct frame){node->items[i], top.depth + 1};
 		for (size_t i = 0; i < node->nextra; i++)

@@ -467,6 +467,75 @@ static const expr *variable_symbol(session *s, const ast_node *n)
 	return NULL;
 }
 
+/* A chain a + b - c + ... (a left spine of ADD/SUB nodes) in a loop, so its
+ * length costs no stack; number-valued terms are summed in one n-ary sum. */
+static bool eval_sum_chain(session *s, const ast_node *n, value *out)
+{
+	expr_ctx *ctx = s->ctx;
+	size_t count = 0, capacity = 16;
+	const ast_node **operands = xmalloc(capacity * sizeof *operands);
+	bool *negated = xmalloc(capacity * sizeof *negated);
+	const ast_node *node = n;
+	while (node->kind == AST_ADD || node->kind == AST_SUB) {
+		if (count + 2 > capacity) {
+			capacity *= 2;
+			operands = xreallocarray(operands, capacity, sizeof *operands);
+			negated = xreallocarray(negated, capacity, sizeof *negated);
+		}
+		operands[count] = node->b;
+		negated[count++] = node->kind == AST_SUB;
+		node = node->a;
+	}
+	operands[count] = node;
+	negated[count++] = false;
+	/* operands are in reverse order: evaluate from the leftmost */
+	value *values = xcalloc(count, sizeof *values);
+	bool ok = true, any_diff = false, any_scalar = false;
+	for (size_t i = count; i-- > 0 && ok;) {
+		ok = eval_node(s, operands[i], &values[i]);
+		if (ok) {
+			any_diff |= values[i].is_diff;
+			any_scalar |= !values[i].is_diff;
+		}
+	}
+	if (ok && any_diff && any_scalar) {
+		const ast_node *culprit = n;
+		for (size_t i = count; i-- > 0;)
+			if (!values[i].is_diff) {
+				culprit = operands[i];
+				break;
+			}
+		report(s, SESSION_INPUT, &culprit->loc,
+		       "cannot add an expression and a differential (each term needs a dt or a noise differential)");
+		ok = false;
+	}
+	if (ok && !any_diff) {
+		const expr **terms = xmalloc(count * sizeof *terms);
+		for (size_t i = 0; i < count; i++)
+			terms[i] = negated[i] ? expr_neg(ctx, values[i].e) : values[i].e;
+		ok = make_scalar(s, n, expr_add_n(ctx, count, terms), out);
+		free(terms);
+	} else if (ok) {
+		ito_diff sum;
+		ito_diff_zero(&sum, &s->model);
+		for (size_t i = count; i-- > 0;) {
+			ito_diff term, next;
+			ito_diff_scale(&s->model, &values[i].d, expr_int(ctx, negated[i] ? -1 : 1), &term);
+			ito_diff_add(&s->model, &sum, &term, &next);
+			ito_diff_free(&term);
+			ito_diff_free(&sum);
+			sum = next;
+		}
+		ok = make_diff(s, n, &sum, out);
+	}
+	for (size_t i = 0; i < count; i++)
+		value_free(&values[i]);
+	free(values);
+	free(operands);
+	free(negated);
+	return ok;
+}
+
 static bool eval_arith(session *s, const ast_node *n, value *out)
 {
 	expr_ctx *ctx = s->ctx;
@@ -590,6 +659,7 @@ static bool eval_node(session *s, const ast_node *n, value *out)
 	}
 	case AST_ADD:
 	case AST_SUB:
+		return eval_sum_chain(s, n, out);
 	case AST_MUL:
 	case AST_DIV:
 	case AST_POW:
@@ -1371,10 +1441,16 @@ static bool check_sde_term(session *s, const ast_node *term)
 
 static bool check_sde_terms(session *s, const ast_node *n)
 {
-	if (n->kind == AST_ADD || n->kind == AST_SUB)
-		return check_sde_terms(s, n->a) && check_sde_terms(s, n->b);
-	if (n->kind == AST_NEG && (n->a->kind == AST_ADD || n->a->kind == AST_SUB))
-		return check_sde_terms(s, n->a);
+	/* walk the left spine in a loop: an SDE may have many terms */
+	while (n->kind == AST_ADD || n->kind == AST_SUB || (n->kind == AST_NEG && (n->a->kind == AST_ADD || n->a->kind == AST_SUB))) {
+		if (n->kind == AST_NEG) {
+			n = n->a;
+			continue;
+		}
+		if (!check_sde_terms(s, n->b))
+			return false;
+		n = n->a;
+	}
 	return check_sde_term(s, n);
 }
 
