@@ -536,17 +536,11 @@ static bool eval_sum_chain(session *s, const ast_node *n, value *out)
 	return ok;
 }
 
-static bool eval_arith(session *s, const ast_node *n, value *out)
+/* n is an operator node; a and b the values of its operands (consumed). */
+static bool combine(session *s, const ast_node *n, value a, value b, value *out)
 {
 	expr_ctx *ctx = s->ctx;
 	model *m = &s->model;
-	value a = {0}, b = {0};
-	if (!eval_node(s, n->a, &a))
-		return false;
-	if (!eval_node(s, n->b, &b)) {
-		value_free(&a);
-		return false;
-	}
 	bool ok = true;
 	ito_diff d;
 	switch (n->kind) {
@@ -626,6 +620,50 @@ static bool eval_arith(session *s, const ast_node *n, value *out)
 	return ok;
 }
 
+static bool eval_arith(session *s, const ast_node *n, value *out)
+{
+	value a = {0}, b = {0};
+	if (!eval_node(s, n->a, &a))
+		return false;
+	if (!eval_node(s, n->b, &b)) {
+		value_free(&a);
+		return false;
+	}
+	return combine(s, n, a, b, out);
+}
+
+/* A chain a*b/c*... (a left spine of MUL/DIV nodes) folded in a loop. */
+static bool eval_product_chain(session *s, const ast_node *n, value *out)
+{
+	size_t count = 0, capacity = 16;
+	const ast_node **ops = xmalloc(capacity * sizeof *ops);
+	const ast_node *node = n;
+	while (node->kind == AST_MUL || node->kind == AST_DIV) {
+		if (count == capacity) {
+			capacity *= 2;
+			ops = xreallocarray(ops, capacity, sizeof *ops);
+		}
+		ops[count++] = node;
+		node = node->a;
+	}
+	value acc;
+	bool ok = eval_node(s, node, &acc);
+	for (size_t i = count; i-- > 0 && ok;) {
+		value right, next;
+		if (!eval_node(s, ops[i]->b, &right)) {
+			value_free(&acc);
+			ok = false;
+			break;
+		}
+		ok = combine(s, ops[i], acc, right, &next);
+		acc = next;
+	}
+	free(ops);
+	if (ok)
+		*out = acc;
+	return ok;
+}
+
 static bool eval_node(session *s, const ast_node *n, value *out)
 {
 	expr_ctx *ctx = s->ctx;
@@ -662,6 +700,7 @@ static bool eval_node(session *s, const ast_node *n, value *out)
 		return eval_sum_chain(s, n, out);
 	case AST_MUL:
 	case AST_DIV:
+		return eval_product_chain(s, n, out);
 	case AST_POW:
 		return eval_arith(s, n, out);
 	case AST_CALL:
