@@ -35,30 +35,9 @@ static void teardown(void)
 	ctx = NULL;
 }
 
-#define N(v) expr_int(ctx, v)
-#define Q(p, q) expr_rat(ctx, p, q)
-#define ADD(u, v) expr_add(ctx, u, v)
-#define SUB(u, v) expr_sub(ctx, u, v)
-#define MUL(u, v) expr_mul(ctx, u, v)
-#define DIV(u, v) expr_div(ctx, u, v)
-#define POW(u, v) expr_pow(ctx, u, v)
-#define NEG(u) expr_neg(ctx, u)
-#define FN(f, u) expr_fun(ctx, EXPR_F_##f, u)
-#define SQRT(u) expr_pow_rat(ctx, u, 1, 2)
-#define D(e, v) diff(ctx, e, v)
+#include "check_build.h"
 
-#define SAME(got, want)                                                                   \
-	do {                                                                              \
-		const expr *got_ = (got), *want_ = (want);                                \
-		ck_assert_msg(got_ && want_, "NULL node (%s)", expr_error_message(ctx));   \
-		if (got_ != want_) {                                                      \
-			char *g_ = prn_expr(ctx, got_, PRN_TEXT);                         \
-			char *w_ = prn_expr(ctx, want_, PRN_TEXT);                        \
-			ck_assert_msg(0, "%s: got %s, expected %s", #got, g_, w_);         \
-			free(g_);                                                         \
-			free(w_);                                                         \
-		}                                                                         \
-	} while (0)
+#define D(e, v) diff(ctx, e, v)
 
 /* The inner function of the chain-rule tests: u(x) = a x^2 + x, u' = 2 a x + 1. */
 static const expr *inner(void)
