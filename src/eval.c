@@ -58,7 +58,9 @@ static bool compile_power(compiler *c, const expr *base, const expr *exponent, s
 		return false;
 	if (exponent->kind == EXPR_NUM) {
 		const __mpq_struct *q = exponent->u.num;
-		if (rat_fits_long(q)) {
+		if (mpq_cmp_ui(q, 1, 1) == 0) {
+			*reg = b; /* x^1 = x: no instruction */
+		} else if (rat_fits_long(q)) {
 			*reg = emit_instr(c, (instr){.code = OP_POWI, .a = b, .power = mpz_get_si(mpq_numref(q))});
 		} else if (mpq_cmp_ui(q, 1, 2) == 0) {
 			*reg = emit_instr(c, (instr){.code = OP_SQRT, .a = b});
@@ -215,9 +217,42 @@ static double powi(double x, long n)
 
 enum { BLOCK = 64 };
 
+/* f(x) over n points, the switch outside the loop so each loop is plain. */
+static void apply_builtin_block(expr_builtin fn, size_t n, const double *x, double *r)
+{
+	switch (fn) {
+	case EXPR_F_EXP:
+		for (size_t p = 0; p < n; p++)
+			r[p] = exp(x[p]);
+		return;
+	case EXPR_F_LOG:
+		for (size_t p = 0; p < n; p++)
+			r[p] = log(x[p]);
+		return;
+	default:
+		for (size_t p = 0; p < n; p++)
+			r[p] = apply_builtin(fn, x[p]);
+		return;
+	}
+}
+
+/* Registers: instruction i writes regs + i*BLOCK, except that a variable is
+ * read where it lies (src[i] points into vars) and a constant is filled
+ * once per call.  Every instruction computes the same operations in the same
+ * order as a plain left-to-right evaluation, so results do not depend on the
+ * block size: a product c*x1*...*xk is ((c*x1)*x2)..., with c = 1 skipped
+ * (1*x1 = x1 exactly), a sum ((x1 + x2) + x3)... */
 void eval_run(const eval_prog *prog, size_t npoints, const double *vars, double *outputs)
 {
-	double *regs = xmalloc((prog->ncode ? prog->ncode : 1) * BLOCK * sizeof *regs);
+	size_t ncode = prog->ncode ? prog->ncode : 1;
+	double *regs = xmalloc(ncode * BLOCK * sizeof *regs);
+	const double **src = xmalloc(ncode * sizeof *src);
+	for (size_t i = 0; i < prog->ncode; i++) {
+		src[i] = regs + i * BLOCK;
+		if (prog->code[i].code == OP_CONST)
+			for (size_t p = 0; p < BLOCK; p++)
+				regs[i * BLOCK + p] = prog->code[i].constant;
+	}
 	for (size_t start = 0; start < npoints; start += BLOCK) {
 		size_t n = npoints - start < BLOCK ? npoints - start : BLOCK;
 		for (size_t i = 0; i < prog->ncode; i++) {
@@ -225,31 +260,58 @@ void eval_run(const eval_prog *prog, size_t npoints, const double *vars, double 
 			double *r = regs + i * BLOCK;
 			switch (in->code) {
 			case OP_CONST:
-				for (size_t p = 0; p < n; p++)
-					r[p] = in->constant;
 				break;
 			case OP_VAR:
-				memcpy(r, vars + in->var * npoints + start, n * sizeof *r);
+				src[i] = vars + in->var * npoints + start;
 				break;
-			case OP_ADD:
-				memcpy(r, regs + in->list[0] * BLOCK, n * sizeof *r);
-				for (size_t k = 1; k < in->nlist; k++) {
-					const double *x = regs + in->list[k] * BLOCK;
+			case OP_ADD: {
+				const double *x0 = src[in->list[0]];
+				if (in->nlist == 1) {
+					memcpy(r, x0, n * sizeof *r);
+					break;
+				}
+				const double *x1 = src[in->list[1]];
+				for (size_t p = 0; p < n; p++)
+					r[p] = x0[p] + x1[p];
+				for (size_t k = 2; k < in->nlist; k++) {
+					const double *x = src[in->list[k]];
 					for (size_t p = 0; p < n; p++)
 						r[p] += x[p];
 				}
 				break;
-			case OP_MUL:
-				for (size_t p = 0; p < n; p++)
-					r[p] = in->constant;
-				for (size_t k = 0; k < in->nlist; k++) {
-					const double *x = regs + in->list[k] * BLOCK;
+			}
+			case OP_MUL: {
+				const double c = in->constant;
+				size_t k = 0;
+				if (in->nlist == 0) {
+					for (size_t p = 0; p < n; p++)
+						r[p] = c;
+				} else if (c == 1.0) {
+					const double *x0 = src[in->list[0]];
+					if (in->nlist >= 2) {
+						const double *x1 = src[in->list[1]];
+						for (size_t p = 0; p < n; p++)
+							r[p] = x0[p] * x1[p];
+						k = 2;
+					} else {
+						memcpy(r, x0, n * sizeof *r);
+						k = 1;
+					}
+				} else {
+					const double *x0 = src[in->list[0]];
+					for (size_t p = 0; p < n; p++)
+						r[p] = c * x0[p];
+					k = 1;
+				}
+				for (; k < in->nlist; k++) {
+					const double *x = src[in->list[k]];
 					for (size_t p = 0; p < n; p++)
 						r[p] *= x[p];
 				}
 				break;
+			}
 			case OP_POWI: {
-				const double *x = regs + in->a * BLOCK;
+				const double *x = src[in->a];
 				if (in->power == 2)
 					for (size_t p = 0; p < n; p++)
 						r[p] = x[p] * x[p];
@@ -262,34 +324,32 @@ void eval_run(const eval_prog *prog, size_t npoints, const double *vars, double 
 				break;
 			}
 			case OP_SQRT: {
-				const double *x = regs + in->a * BLOCK;
+				const double *x = src[in->a];
 				for (size_t p = 0; p < n; p++)
 					r[p] = sqrt(x[p]);
 				break;
 			}
 			case OP_POWD: {
-				const double *x = regs + in->a * BLOCK;
+				const double *x = src[in->a];
 				for (size_t p = 0; p < n; p++)
 					r[p] = pow(x[p], in->constant);
 				break;
 			}
 			case OP_POWX: {
-				const double *x = regs + in->a * BLOCK, *y = regs + in->b * BLOCK;
+				const double *x = src[in->a], *y = src[in->b];
 				for (size_t p = 0; p < n; p++)
 					r[p] = pow(x[p], y[p]);
 				break;
 			}
-			case OP_FUN: {
-				const double *x = regs + in->a * BLOCK;
-				for (size_t p = 0; p < n; p++)
-					r[p] = apply_builtin(in->fn, x[p]);
+			case OP_FUN:
+				apply_builtin_block(in->fn, n, src[in->a], r);
 				break;
-			}
 			}
 		}
 		for (size_t o = 0; o < prog->nout; o++)
-			memcpy(outputs + o * npoints + start, regs + prog->outputs[o] * BLOCK, n * sizeof(double));
+			memcpy(outputs + o * npoints + start, src[prog->outputs[o]], n * sizeof(double));
 	}
+	free(src);
 	free(regs);
 }
 

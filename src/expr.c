@@ -730,6 +730,14 @@ const expr *expr_add_n(expr_ctx *ctx, size_t n, const expr *const *terms)
 	size_t count = 0, cap = 0;
 	for (size_t i = 0; i < n; i++)
 		collect_terms(ctx, terms[i], &pairs, &count, &cap);
+	for (size_t i = 0; i < count; i++)
+		if (!pairs[i].rest) {
+			/* splitting a term hit the node limit: the error is set */
+			for (size_t j = 0; j < count; j++)
+				mpq_clear(pairs[j].coef);
+			free(pairs);
+			return NULL;
+		}
 	qsort(pairs, count, sizeof *pairs, compare_term_pairs);
 	/* merge like terms */
 	size_t kept = 0;
@@ -1223,7 +1231,8 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 				   mpq_cmp_ui(exponent->u.num, 1, 1) < 0;
 		bool negative_surd = base->kind == EXPR_NUM && !was_merged && mpq_sgn(base->u.num) < 0 &&
 				     !expr_is_integer(exponent);
-		bool rewrite = (base->kind == EXPR_NUM && !stable_surd && !negative_surd) ||
+		/* q^x with a symbolic x stays a factor: only numeric powers of numbers fold */
+		bool rewrite = (base->kind == EXPR_NUM && exponent->kind == EXPR_NUM && !stable_surd && !negative_surd) ||
 			       (base->kind == EXPR_ADD && is_positive_integer(exponent)) ||
 			       (is_fun(base, EXPR_F_ABS) && is_even_integer(exponent)) ||
 			       (base->kind == EXPR_MUL && was_merged);

@@ -840,6 +840,9 @@ static int precedence(const dnode *d)
 	case D_NEG:
 		return P_NEG;
 	case D_PROD: {
+		if (d->nfactors == 1 && mpq_cmp_ui(d->num, 1, 1) == 0 && d->factors[0].exponent->kind == EXPR_NUM &&
+		    mpq_cmp_ui(d->factors[0].exponent->u.num, 1, 1) == 0)
+			return precedence(d->factors[0].base); /* a lone factor reads as its base */
 		if (d->nfactors == 1 && mpq_cmp_ui(d->num, 1, 1) == 0 &&
 		    d->factors[0].exponent->kind == EXPR_NUM && mpq_sgn(d->factors[0].exponent->u.num) > 0)
 			return P_POW;

@@ -373,6 +373,18 @@ static bool eval_name(session *s, const ast_node *n, value *out)
 			return false;
 		}
 	}
+	if (s->measure && name[0] == 'd') {
+		/* under Q, dZ is the increment of the Q Brownian motion Z that replaces W */
+		for (size_t k = 0; k < s->measure->nnoises && k < s->model.nnoises; k++) {
+			const expr *qname = s->measure->names[k];
+			if (qname != s->model.noises[k] && strcmp(expr_sym_name(qname), name + 1) == 0) {
+				ito_diff d;
+				ito_diff_zero(&d, &s->model);
+				d.dw[k] = expr_int(ctx, 1);
+				return make_diff(s, n, &d, out);
+			}
+		}
+	}
 	const expr *process = differential_of(s, name);
 	if (process) {
 		ito_diff d;
