@@ -7,6 +7,7 @@
 struct expr {
 	expr_kind kind;
 	unsigned hash;
+	unsigned height; /* 1 for a leaf, else 1 + the largest height of an operand */
 	size_t nops;
 	union {
 		mpq_t num;

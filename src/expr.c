@@ -142,6 +142,36 @@ static const expr **copy_ptrs(const expr *const *src, size_t n)
 	return dst;
 }
 
+/* The height of a node from its operands' heights (they are interned). */
+static unsigned node_height(const expr *e)
+{
+	unsigned h = 0;
+	switch (e->kind) {
+	case EXPR_NUM:
+	case EXPR_SYM:
+		break;
+	case EXPR_ADD:
+		for (size_t i = 0; i < e->nops; i++)
+			h = e->u.add.terms[i]->height > h ? e->u.add.terms[i]->height : h;
+		break;
+	case EXPR_MUL:
+		for (size_t i = 0; i < e->nops; i++) {
+			h = e->u.mul.bases[i]->height > h ? e->u.mul.bases[i]->height : h;
+			h = e->u.mul.exps[i]->height > h ? e->u.mul.exps[i]->height : h;
+		}
+		break;
+	case EXPR_FUN:
+		h = e->u.fun.arg->height;
+		break;
+	case EXPR_FAPP:
+		h = e->u.fapp.func->height;
+		for (size_t i = 0; i < e->nops; i++)
+			h = e->u.fapp.args[i]->height > h ? e->u.fapp.args[i]->height : h;
+		break;
+	}
+	return h + 1;
+}
+
 /* Intern a candidate: return the existing equal node, or a heap copy of it.
  * The candidate's arrays and numbers are borrowed; they are copied when kept. */
 static const expr *intern(expr_ctx *ctx, expr *candidate)
@@ -157,6 +187,9 @@ static const expr *intern(expr_ctx *ctx, expr *candidate)
 	}
 	if (ctx->limits.max_nodes && ctx->count >= ctx->limits.max_nodes)
 		return expr_fail(ctx, EXPR_ERR_TOO_LARGE, "expression too large (node limit reached)");
+	candidate->height = node_height(candidate);
+	if (ctx->limits.max_height && candidate->height > ctx->limits.max_height)
+		return expr_fail(ctx, EXPR_ERR_DEPTH, "expression nested too deeply (tree depth limit reached)");
 	expr *node = xmalloc(sizeof *node);
 	*node = *candidate;
 	switch (node->kind) {
@@ -232,6 +265,7 @@ expr_ctx *expr_ctx_new(void)
 	ctx->limits.max_terms = 200000;
 	ctx->limits.max_bits = 1u << 20;
 	ctx->limits.max_exponent = 1000000;
+	ctx->limits.max_height = 5000;
 	ctx->next_tag = 1;
 	ctx->zero = expr_int(ctx, 0);
 	ctx->one = expr_int(ctx, 1);

@@ -74,6 +74,7 @@ typedef struct expr_limits {
 	size_t max_terms;	     /* terms produced by one expansion */
 	unsigned long max_bits;	     /* bits of a number produced by a power */
 	long max_exponent;	     /* largest integer exponent expanded or kept */
+	unsigned max_height;	     /* deepest tree (the recursive walks use the stack) */
 	volatile sig_atomic_t *interrupt; /* polled in long loops; may be NULL */
 } expr_limits;
 

@@ -163,7 +163,7 @@ int main(int argc, char **argv)
 			xbuf_free(&buf);
 		}
 	}
-	status = session_status(s);
+	status = session_finish(s);
 	session_free(s);
 	free(statements);
 	return status;

@@ -48,6 +48,12 @@ struct session {
 	int fixed_line; /* for -e statements: messages say -e:N:COLUMN */
 	bool in_sde;	/* evaluating an SDE's right side: assumed states may appear */
 	bool abbreviate; /* print let names for their definitions in results */
+	bool corr_block;	   /* inside a run of corr statements */
+	const expr **corr_before;  /* the matrix before the run */
+	size_t corr_before_n;
+	ast_loc corr_last;	   /* the last corr of the run, for the message */
+	char *corr_text, *corr_origin; /* its line and origin */
+	int corr_fixed_line;
 	bool *let_used;	 /* per model entry: abbreviated in the current result */
 	size_t let_used_cap;
 };
@@ -1335,15 +1341,63 @@ static bool run_corr(session *s, const ast_node *st)
 		report(s, SESSION_INPUT, &st->c->loc, "a correlation must lie in [-1, 1]");
 		return false;
 	}
-	const expr *old = m->corr[(size_t)idx[0] * m->nnoises + (size_t)idx[1]];
-	model_set_corr(m, (size_t)idx[0], (size_t)idx[1], rho);
-	if (!numeric_psd(m)) {
-		model_set_corr(m, (size_t)idx[0], (size_t)idx[1], old);
-		report(s, SESSION_INPUT, &st->loc,
-		       "the correlation matrix would not be positive semi-definite");
-		return false;
+	/* a run of corr statements is judged as a whole, at its end: with three
+	 * noises correlated 0.9 pairwise, the matrix after the second line (the
+	 * third pair still 0) is not positive semi-definite, the final one is */
+	if (!s->corr_block) {
+		s->corr_block = true;
+		size_t cells = m->nnoises * m->nnoises;
+		free(s->corr_before);
+		s->corr_before = xmalloc((cells ? cells : 1) * sizeof *s->corr_before);
+		memcpy(s->corr_before, m->corr, cells * sizeof *s->corr_before);
+		s->corr_before_n = m->nnoises;
 	}
+	/* keep the line, for a message given after this source is gone (REPL) */
+	const char *line;
+	size_t length;
+	source_line(s, st->loc.first_line, &line, &length);
+	free(s->corr_text);
+	free(s->corr_origin);
+	s->corr_text = xstrndup(line, length);
+	s->corr_origin = xstrdup(s->origin);
+	s->corr_fixed_line = s->fixed_line ? s->fixed_line : st->loc.first_line;
+	s->corr_last = st->loc;
+	s->corr_last.first_line = s->corr_last.last_line = 1;
+	model_set_corr(m, (size_t)idx[0], (size_t)idx[1], rho);
 	return true;
+}
+
+/* The end of a run of corr statements: the whole matrix must be positive
+ * semi-definite (numeric entries); otherwise the run is undone. */
+static bool close_corr_block(session *s)
+{
+	if (!s->corr_block)
+		return true;
+	s->corr_block = false;
+	model *m = &s->model;
+	if (numeric_psd(m))
+		return true;
+	if (s->corr_before_n == m->nnoises)
+		memcpy(m->corr, s->corr_before, m->nnoises * m->nnoises * sizeof *m->corr);
+	const char *keep_source = s->source, *keep_origin = s->origin;
+	size_t keep_length = s->length;
+	int keep_fixed = s->fixed_line;
+	s->source = s->corr_text;
+	s->length = strlen(s->corr_text);
+	s->origin = s->corr_origin;
+	s->fixed_line = s->corr_fixed_line;
+	report(s, SESSION_INPUT, &s->corr_last, "the correlation matrix would not be positive semi-definite");
+	s->source = keep_source;
+	s->length = keep_length;
+	s->origin = keep_origin;
+	s->fixed_line = keep_fixed;
+	return false;
+}
+
+int session_finish(session *s)
+{
+	close_corr_block(s);
+	return s->status;
 }
 
 static bool same_function(const model_entry *entry, const ast_node *st)
@@ -2417,9 +2471,13 @@ static bool model_complete(session *s, const ast_node *st)
 	return true;
 }
 
+static bool close_corr_block(session *s);
+
 static bool run_statement(session *s, const ast_node *st)
 {
 	expr_clear_error(s->ctx);
+	if (st->kind != AST_S_CORR && !close_corr_block(s))
+		return false;
 	switch (st->kind) {
 	case AST_S_EXPR: case AST_S_D: case AST_S_DRIFT: case AST_S_DIFFUSION: case AST_S_GENERATOR:
 	case AST_S_QV: case AST_S_PDE: case AST_S_ITO: case AST_S_STRAT: case AST_S_CLAIM: case AST_S_CHECK:
@@ -2800,6 +2858,9 @@ void session_free(session *s)
 	model_free(&s->model);
 	expr_ctx_free(s->ctx);
 	free(s->let_used);
+	free(s->corr_before);
+	free(s->corr_text);
+	free(s->corr_origin);
 	free(s);
 }
 
@@ -2868,9 +2929,20 @@ int session_run(session *s, const char *source, size_t length, const char *origi
 			s->opt.before_statement(s->opt.hook_data);
 		if (!run_statement(s, list.stmts[i]) && s->status >= SESSION_INPUT)
 			break;
-		if (s->opt.interrupt && *s->opt.interrupt)
+		if (s->opt.interrupt && *s->opt.interrupt) {
+			/* the flag came up after the engine's last poll (while the
+			 * result was printed): say so, never stop silently */
+			if (*s->opt.interrupt == 2)
+				report(s, SESSION_LIMIT, &list.stmts[i]->loc,
+				       "time limit exceeded (%g s per statement; see --time-limit)",
+				       s->opt.time_limit);
+			else
+				report(s, SESSION_LIMIT, &list.stmts[i]->loc, "interrupted");
 			break;
+		}
 	}
+	if (s->status >= SESSION_INPUT)
+		s->corr_block = false; /* the run stopped: its corr statements are not judged */
 	if (list.error.present && s->status < SESSION_INPUT && !s->quit)
 		report(s, strstr(list.error.message, "too deep") || strstr(list.error.message, "too long")
 				  ? SESSION_LIMIT : SESSION_INPUT,

@@ -51,6 +51,10 @@ int session_run_argument(session *s, const char *statement, int index);
  * operator)?  The REPL then reads a continuation line. */
 bool session_incomplete(const char *source, size_t length);
 
+/* The end of all input: judge what waits for more (a run of corr statements).
+ * Returns the final status. */
+int session_finish(session *s);
+
 int session_status(const session *s);
 bool session_quit_requested(const session *s);
 

@@ -2,7 +2,8 @@
  * and the whole statement runner, with small limits so that every input ends
  * quickly.  Built by `make fuzz` (clang -fsanitize=fuzzer,address,undefined);
  * tests/fuzz/replay.c runs the same function over the regression corpus
- * under make check.
+ * under make check, and with -v shows the messages (tests/sh/hardening.sh
+ * checks the node limit that way: the program itself has no flag for it).
  */
 #include <stdint.h>
 #include <stdio.h>
@@ -11,22 +12,38 @@
 #include "session.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
+int fuzz_run(const uint8_t *data, size_t size, FILE *out, FILE *err, const char *origin);
+
+/* The limits of the fuzz target: small enough that any input ends within a
+ * second or so, large enough that the examples still run. */
+static void fuzz_limits(session *s)
+{
+	expr_limits *limits = expr_ctx_limits(session_expr_ctx(s));
+	limits->max_nodes = 200000;
+	limits->max_terms = 5000;
+	limits->max_bits = 1 << 14;
+	limits->max_exponent = 1000;
+}
+
+/* Run one input under the fuzz limits; returns the session's status. */
+int fuzz_run(const uint8_t *data, size_t size, FILE *out, FILE *err, const char *origin)
+{
+	session_options options = {.out = out, .err = err, .seed = 1, .no_files = true,
+				   .max_simulation = 20000};
+	session *s = session_new(&options);
+	fuzz_limits(s);
+	session_run(s, (const char *)data, size, origin);
+	int status = session_status(s);
+	session_free(s);
+	return status;
+}
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
 	FILE *sink = fopen("/dev/null", "w");
 	if (!sink)
 		return 0;
-	session_options options = {.out = sink, .err = sink, .seed = 1, .no_files = true,
-				   .max_simulation = 20000};
-	session *s = session_new(&options);
-	expr_limits *limits = expr_ctx_limits(session_expr_ctx(s));
-	limits->max_nodes = 200000;
-	limits->max_terms = 5000;
-	limits->max_bits = 1 << 14;
-	limits->max_exponent = 1000;
-	session_run(s, (const char *)data, size, "fuzz");
-	session_free(s);
+	fuzz_run(data, size, sink, sink, "fuzz");
 	fclose(sink);
 	return 0;
 }
