@@ -2680,7 +2680,7 @@ static bool run_claim(session *s, const ast_node *st)
 				char *diff_text = result.difference ? text_expr(s, result.difference) : xstrdup("?");
 				xbuf_printf(&buf, "fails: %s by %s", part ? part : "the sides differ", diff_text);
 				if (result.point_text)
-					xbuf_printf(&buf, "; at %s", result.point_text);
+					xbuf_printf(&buf, result.point_text[0] == '(' ? " %s" : "; at %s", result.point_text);
 				free(diff_text);
 			}
 		}

@@ -21,6 +21,15 @@
 #include "sim.h"
 #include "xalloc.h"
 
+/* A number for a message: "undefined" for a NaN, which "-nan" would hide. */
+static void show_value(char *out, size_t size, double value)
+{
+	if (isnan(value))
+		snprintf(out, size, "undefined");
+	else
+		snprintf(out, size, "%.10g", value);
+}
+
 /* A value for a symbol inside its declared domain. */
 static double sample(sim_rng *rng, const model_entry *entry, int sign, bool force_positive)
 {
@@ -165,8 +174,25 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 			}
 			eval_run(prog, 1, values, results);
 			double left = results[0], right = results[1];
-			if (!isfinite(left) || !isfinite(right))
-				continue; /* outside the domain of an expression: try another point */
+			if (!isfinite(left) && !isfinite(right))
+				continue; /* outside the domain of both sides: try another point */
+			if (isfinite(left) != isfinite(right)) {
+				/* defined on one side only: the identity fails there
+				 * (log(x^2) = 2*log(x) for x < 0) */
+				tested++;
+				out->holds = false;
+				out->part = (int)p;
+				out->difference = d;
+				xbuf text = {0};
+				for (size_t i = 0; i < nsym; i++)
+					xbuf_printf(&text, "%s%s=%.6g", i ? ", " : "", expr_sym_name(symbols.items[i]), values[i]);
+				char lt[32], rt[32];
+				show_value(lt, sizeof lt, left);
+				show_value(rt, sizeof rt, right);
+				xbuf_printf(&text, "%sleft side %s, right side %s", nsym ? ": " : "", lt, rt);
+				out->point_text = xbuf_take(&text);
+				break;
+			}
 			double scale = 0;
 			for (size_t i = 2; i < outputs.n; i++)
 				scale += fabs(results[i]);
@@ -199,7 +225,7 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 			out->holds = false;
 			out->part = (int)p;
 			out->difference = d;
-			out->point_text = xstrdup("(no point inside the domain could be found to compare the sides)");
+			out->point_text = xstrdup("(undecided: no point where both sides are defined was found in the declared domains)");
 		}
 		free(values);
 		free(results);
