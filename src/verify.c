@@ -30,6 +30,25 @@ static void show_value(char *out, size_t size, double value)
 		snprintf(out, size, "%.10g", value);
 }
 
+/* Record a point where the sides differ: "S=1.2, mu=0.3: left side 1.5, right side 1.4". */
+static void refute(verify_result *out, int part, const expr *difference, const expr_vec *symbols, size_t nsym,
+		   const double *values, double left, double right)
+{
+	out->holds = false;
+	out->part = part;
+	out->difference = difference;
+	xbuf text = {0};
+	for (size_t i = 0; i < nsym; i++)
+		xbuf_printf(&text, "%s%s=%.6g", i ? ", " : "", expr_sym_name(symbols->items[i]), values[i]);
+	if (!nsym)
+		xbuf_put(&text, "every point (no symbols)");
+	char lt[32], rt[32];
+	show_value(lt, sizeof lt, left);
+	show_value(rt, sizeof rt, right);
+	xbuf_printf(&text, ": left side %s, right side %s", lt, rt);
+	out->point_text = xbuf_take(&text);
+}
+
 /* A value for a symbol inside its declared domain. */
 static double sample(sim_rng *rng, const model_entry *entry, int sign, bool force_positive)
 {
@@ -180,17 +199,7 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 				/* defined on one side only: the identity fails there
 				 * (log(x^2) = 2*log(x) for x < 0) */
 				tested++;
-				out->holds = false;
-				out->part = (int)p;
-				out->difference = d;
-				xbuf text = {0};
-				for (size_t i = 0; i < nsym; i++)
-					xbuf_printf(&text, "%s%s=%.6g", i ? ", " : "", expr_sym_name(symbols.items[i]), values[i]);
-				char lt[32], rt[32];
-				show_value(lt, sizeof lt, left);
-				show_value(rt, sizeof rt, right);
-				xbuf_printf(&text, "%sleft side %s, right side %s", nsym ? ": " : "", lt, rt);
-				out->point_text = xbuf_take(&text);
+				refute(out, (int)p, d, &symbols, nsym, values, left, right);
 				break;
 			}
 			double scale = 0;
@@ -207,16 +216,7 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 			 * cancellation (1e12*(sin^2 + cos^2) - 1e12 + x = x + 1 must fail) */
 			double tolerance = VERIFY_TOLERANCE * fmax(fabs(left), fabs(right)) + 256 * DBL_EPSILON * scale;
 			if (fabs(left - right) > tolerance) {
-				out->holds = false;
-				out->part = (int)p;
-				out->difference = d;
-				xbuf text = {0};
-				for (size_t i = 0; i < nsym; i++)
-					xbuf_printf(&text, "%s%s=%.6g", i ? ", " : "", expr_sym_name(symbols.items[i]), values[i]);
-				if (!nsym)
-					xbuf_put(&text, "every point (no symbols)");
-				xbuf_printf(&text, ": left side %.10g, right side %.10g", left, right);
-				out->point_text = xbuf_take(&text);
+				refute(out, (int)p, d, &symbols, nsym, values, left, right);
 				break;
 			}
 		}
