@@ -672,6 +672,50 @@ int expr_compare(const expr *a, const expr *b)
 	return 0;
 }
 
+/* A stable natural merge sort with qsort's interface.  The operands of a sum
+ * or a product arrive as sorted runs (each canonical operand is sorted
+ * already), so few comparisons are needed, and comparisons are structural,
+ * not cheap. */
+static void run_sort(void *base, size_t n, size_t size, int (*compare)(const void *, const void *))
+{
+	if (n < 2)
+		return;
+	char *src = base, *buffer = xmalloc(n * size), *dst = buffer;
+	for (;;) {
+		size_t runs = 0, i = 0, out = 0;
+		while (i < n) {
+			size_t a_end = i + 1;
+			while (a_end < n && compare(src + (a_end - 1) * size, src + a_end * size) <= 0)
+				a_end++;
+			size_t b_end = a_end;
+			if (b_end < n) {
+				b_end++;
+				while (b_end < n && compare(src + (b_end - 1) * size, src + b_end * size) <= 0)
+					b_end++;
+			}
+			size_t x = i, y = a_end;
+			while (x < a_end && y < b_end) {
+				size_t take = compare(src + y * size, src + x * size) < 0 ? y++ : x++;
+				memcpy(dst + out++ * size, src + take * size, size);
+			}
+			memcpy(dst + out * size, src + x * size, (a_end - x) * size);
+			out += a_end - x;
+			memcpy(dst + out * size, src + y * size, (b_end - y) * size);
+			out += b_end - y;
+			i = b_end;
+			runs++;
+		}
+		char *t = src;
+		src = dst;
+		dst = t;
+		if (runs <= 1)
+			break;
+	}
+	if (src != (char *)base)
+		memcpy(base, src, n * size);
+	free(buffer);
+}
+
 /* ------------------------------------------------------------------ sums */
 
 typedef struct term_pair {
@@ -772,7 +816,7 @@ const expr *expr_add_n(expr_ctx *ctx, size_t n, const expr *const *terms)
 			free(pairs);
 			return NULL;
 		}
-	qsort(pairs, count, sizeof *pairs, compare_term_pairs);
+	run_sort(pairs, count, sizeof *pairs, compare_term_pairs);
 	/* merge like terms */
 	size_t kept = 0;
 	for (size_t i = 0; i < count; i++) {
@@ -1230,8 +1274,7 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 	}
 
 	/* merge equal bases; fold exp factors into one exp */
-	if (factors.n > 1)
-		qsort(factors.items, factors.n, sizeof *factors.items, compare_factors);
+	run_sort(factors.items, factors.n, sizeof *factors.items, compare_factors);
 	factor_list merged = {0};
 	const expr **exp_args = NULL;
 	size_t nexp = 0;
@@ -1281,7 +1324,7 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 		const expr *exp_factor = expr_fun(ctx, EXPR_F_EXP, expr_add_n(ctx, nexp, exp_args));
 		if (exp_factor && is_fun(exp_factor, EXPR_F_EXP)) {
 			factor_push(&merged, exp_factor, ctx->one);
-			qsort(merged.items, merged.n, sizeof *merged.items, compare_factors);
+			run_sort(merged.items, merged.n, sizeof *merged.items, compare_factors);
 		} else {
 			extras = xreallocarray(extras, nextras + 1, sizeof *extras);
 			extras[nextras++] = exp_factor;
