@@ -11,7 +11,7 @@
 # (func f(t, x)) are compared symbolically first and then with a concrete smooth
 # function put in their place on both sides.
 #
-# Sources (see /work/shared/REFERENCES.md); "from memory" means the author of this
+# Sources (see the project's shared REFERENCES.md); "from memory" means the author of this
 # test did not hold a copy, and the closed form was also re-derived by hand.
 import os
 import sys
