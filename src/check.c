@@ -999,7 +999,7 @@ static void report_fd(const plan *p, const fd_row *rows, size_t n, xbuf *text, x
 	xbuf_put(json, "]");
 }
 
-static void report_conv(const plan *p, const conv_result *c, size_t npaths, xbuf *text, xbuf *json)
+static void report_conv(const conv_result *c, size_t npaths, xbuf *text, xbuf *json)
 {
 	xbuf_printf(text,
 		    "  convergence (%zu paths, one set of Brownian paths on every grid; QV -> I, first variation ~ sqrt(steps)):\n"
@@ -1025,7 +1025,6 @@ static void report_conv(const plan *p, const conv_result *c, size_t npaths, xbuf
 	xbuf_put(json, "]");
 	if (c->bad)
 		xbuf_printf(text, "    (%ld paths with NaN/Inf left out of the table)\n", c->bad);
-	(void)p;
 }
 
 static void report_sim(const plan *p, const block_result *r, xbuf *text, xbuf *json, xbuf *reasons)
@@ -1148,7 +1147,7 @@ void check_run(expr_ctx *ctx, const check_input *in, check_result *out)
 			free(why);
 		}
 		if (in->verbose && conv_paths >= 2)
-			report_conv(&p, &conv, conv_paths, &text, &json);
+			report_conv(&conv, conv_paths, &text, &json);
 		xbuf_printf(&json, ",\"paths_used\":%.0f,\"bad_paths\":%ld,\"truncated_paths\":%ld,\"tolerance\":%g,"
 				   "\"fd_tolerance\":%g",
 			    total.ext[0].n, total.bad, total.below, check_z_tolerance, check_fd_tolerance);

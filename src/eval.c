@@ -166,11 +166,6 @@ void eval_free(eval_prog *prog)
 	free(prog);
 }
 
-size_t eval_size(const eval_prog *prog)
-{
-	return prog->ncode;
-}
-
 double eval_ncdf(double x)
 {
 	return 0.5 * erfc(-x / sqrt(2.0));

@@ -19,7 +19,6 @@ typedef struct eval_prog eval_prog;
 eval_prog *eval_compile(expr_ctx *ctx, size_t nout, const expr *const *outputs, size_t nvars,
 			const expr *const *vars, const expr **bad);
 void eval_free(eval_prog *prog);
-size_t eval_size(const eval_prog *prog); /* number of instructions */
 
 /* Evaluate at npoints points: vars[v*npoints + p], outputs[o*npoints + p]. */
 void eval_run(const eval_prog *prog, size_t npoints, const double *vars, double *outputs);

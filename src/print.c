@@ -20,7 +20,7 @@
 #include "simp.h"
 #include "xalloc.h"
 
-typedef enum dkind { D_NUM, D_SYM, D_FUN, D_FAPP, D_SUM, D_PROD, D_NEG, D_POWSUM } dkind;
+typedef enum dkind { D_NUM, D_SYM, D_FUN, D_FAPP, D_SUM, D_PROD, D_NEG } dkind;
 
 typedef struct dnode dnode;
 typedef struct dfactor {
@@ -1330,8 +1330,6 @@ static void emit(printer *p, xbuf *out, const dnode *d)
 		return;
 	case D_PROD:
 		emit_prod(p, out, d);
-		return;
-	case D_POWSUM:
 		return;
 	}
 }

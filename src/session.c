@@ -25,6 +25,7 @@
 #include "model.h"
 #include "print.h"
 #include "rat.h"
+#include "sim.h"
 #include "simp.h"
 #include "verify.h"
 #include "xalloc.h"
@@ -57,6 +58,34 @@ struct session {
 	bool *let_used;	 /* per model entry: abbreviated in the current result */
 	size_t let_used_cap;
 };
+
+/* The source text being run, for the line and caret of messages; a nested
+ * run (load, a corr message given later, session_expr) swaps it in and out. */
+typedef struct source_frame {
+	const char *source;
+	size_t length;
+	const char *origin;
+	int fixed_line;
+} source_frame;
+
+static source_frame enter_source(session *s, const char *source, size_t length, const char *origin,
+				 int fixed_line)
+{
+	source_frame outer = {s->source, s->length, s->origin, s->fixed_line};
+	s->source = source;
+	s->length = length;
+	s->origin = origin;
+	s->fixed_line = fixed_line;
+	return outer;
+}
+
+static void leave_source(session *s, source_frame outer)
+{
+	s->source = outer.source;
+	s->length = outer.length;
+	s->origin = outer.origin;
+	s->fixed_line = outer.fixed_line;
+}
 
 /* An evaluated expression: a number-valued expression or a differential. */
 typedef struct value {
@@ -1278,38 +1307,21 @@ static bool run_noise(session *s, const ast_node *st)
 	return true;
 }
 
-/* Cholesky on the numeric correlation matrix: is it positive semi-definite? */
+/* Is the numeric correlation matrix positive semi-definite (a Cholesky factor exists)? */
 static bool numeric_psd(const model *m)
 {
 	size_t n = m->nnoises;
 	for (size_t i = 0; i < n * n; i++)
 		if (m->corr[i] && !expr_is_num(m->corr[i]))
 			return true; /* symbolic entries: decided later, at sampled points */
-	double *a = xcalloc(n * n, sizeof *a);
+	double *c = xcalloc(n * n + 1, sizeof *c);
+	double *l = xcalloc(n * n + 1, sizeof *l);
 	for (size_t i = 0; i < n; i++)
 		for (size_t j = 0; j < n; j++)
-			a[i * n + j] = rat_to_double(expr_num_value(model_corr(m, i, j)));
-	bool ok = true;
-	for (size_t j = 0; j < n && ok; j++) {
-		double d = a[j * n + j];
-		for (size_t k = 0; k < j; k++)
-			d -= a[j * n + k] * a[j * n + k];
-		if (d < -1e-12) {
-			ok = false;
-			break;
-		}
-		d = d > 0 ? sqrt(d) : 0;
-		a[j * n + j] = d;
-		for (size_t i = j + 1; i < n; i++) {
-			double v = a[i * n + j];
-			for (size_t k = 0; k < j; k++)
-				v -= a[i * n + k] * a[j * n + k];
-			a[i * n + j] = d > 0 ? v / d : 0;
-			if (d == 0 && fabs(v) > 1e-12)
-				ok = false;
-		}
-	}
-	free(a);
+			c[i * n + j] = rat_to_double(expr_num_value(model_corr(m, i, j)));
+	bool ok = sim_cholesky(n, c, l);
+	free(c);
+	free(l);
 	return ok;
 }
 
@@ -1379,18 +1391,9 @@ static bool close_corr_block(session *s)
 		return true;
 	if (s->corr_before_n == m->nnoises)
 		memcpy(m->corr, s->corr_before, m->nnoises * m->nnoises * sizeof *m->corr);
-	const char *keep_source = s->source, *keep_origin = s->origin;
-	size_t keep_length = s->length;
-	int keep_fixed = s->fixed_line;
-	s->source = s->corr_text;
-	s->length = strlen(s->corr_text);
-	s->origin = s->corr_origin;
-	s->fixed_line = s->corr_fixed_line;
+	source_frame outer = enter_source(s, s->corr_text, strlen(s->corr_text), s->corr_origin, s->corr_fixed_line);
 	report(s, SESSION_INPUT, &s->corr_last, "the correlation matrix would not be positive semi-definite");
-	s->source = keep_source;
-	s->length = keep_length;
-	s->origin = keep_origin;
-	s->fixed_line = keep_fixed;
+	leave_source(s, outer);
 	return false;
 }
 
@@ -1595,8 +1598,6 @@ static bool run_sde(session *s, const ast_node *st, bool stratonovich)
 		return false;
 	}
 	if (!entry && !check_new_name(s, &st->loc, name, false))
-		return false;
-	if (m->nnoises == 0 && !check_sde_terms(s, st->a))
 		return false;
 	if (!check_sde_terms(s, st->a))
 		return false;
@@ -1956,8 +1957,6 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 {
 	model *m = &s->model;
 	char *text;
-	prn_format keep = PRN_TEXT;
-	(void)keep;
 	for (size_t i = 0; i < m->nentries; i++) {
 		model_entry *e = &m->entries[i];
 		if (only && strcmp(e->name, only) != 0)
@@ -2641,8 +2640,6 @@ static bool run_claim(session *s, const ast_node *st)
 		}
 		verify_result result;
 		verify_claim(s->ctx, &s->model, &in, s->opt.seed + s->claim_count++, &result);
-		const char *part_names[64];
-		(void)part_names;
 		xbuf buf = {0};
 		char *part = NULL;
 		if (!result.holds && result.part >= 0) {
@@ -2889,38 +2886,36 @@ bool session_incomplete(const char *source, size_t length)
 	return incomplete;
 }
 
-int session_run(session *s, const char *source, size_t length, const char *origin)
+/* The first line longer than MAX_LINE: its number, and its length in bytes. */
+static bool find_long_line(const char *source, size_t length, int *line, size_t *bytes)
 {
-	const char *keep_source = s->source, *keep_origin = s->origin;
-	size_t keep_length = s->length;
-	int keep_status = s->status;
-	s->source = source;
-	s->length = length;
-	s->origin = origin;
-	s->status = SESSION_OK;
-	/* a bound on line length keeps messages and the scanner's work in proportion */
-	size_t line_start = 0;
+	size_t start = 0;
+	int number = 1;
 	for (size_t i = 0; i <= length; i++) {
 		if (i < length && source[i] != '\n')
 			continue;
-		if (i - line_start > MAX_LINE) {
-			int line = 1;
-			for (size_t j = 0; j < line_start; j++)
-				line += source[j] == '\n';
-			ast_loc loc = {line, 1, line, 1};
-			const char *keep = s->source;
-			s->source = NULL; /* do not echo a megabyte */
-			report(s, SESSION_LIMIT, &loc, "line too long (%zu bytes; the limit is %d)", i - line_start, MAX_LINE);
-			s->source = keep;
-			int status = s->status;
-			s->source = keep_source;
-			s->length = keep_length;
-			s->origin = keep_origin;
-			s->status = keep_status;
-			raise_status(s, status);
-			return status;
+		if (i - start > MAX_LINE) {
+			*line = number;
+			*bytes = i - start;
+			return true;
 		}
-		line_start = i + 1;
+		start = i + 1;
+		number++;
+	}
+	return false;
+}
+
+/* Run the statements of one source (the status saved around it is the caller's). */
+static void run_statements(session *s, const char *source, size_t length)
+{
+	/* a bound on line length keeps messages and the scanner's work in proportion */
+	int line;
+	size_t bytes;
+	if (find_long_line(source, length, &line, &bytes)) {
+		ast_loc loc = {line, 1, line, 1};
+		s->source = NULL; /* do not echo a megabyte */
+		report(s, SESSION_LIMIT, &loc, "line too long (%zu bytes; the limit is %d)", bytes, MAX_LINE);
+		return;
 	}
 	ast_list list;
 	ast_parse(source, length, MAX_NESTING, &list);
@@ -2948,22 +2943,30 @@ int session_run(session *s, const char *source, size_t length, const char *origi
 				  ? SESSION_LIMIT : SESSION_INPUT,
 		       &list.error.loc, "%s", list.error.message);
 	ast_list_free(&list);
+}
+
+/* fixed_line: nonzero for an -e statement, whose messages say -e:N:COLUMN. */
+static int run_source(session *s, const char *source, size_t length, const char *origin, int fixed_line)
+{
+	source_frame outer = enter_source(s, source, length, origin, fixed_line);
+	int outer_status = s->status;
+	s->status = SESSION_OK;
+	run_statements(s, source, length);
 	int status = s->status;
-	s->source = keep_source;
-	s->length = keep_length;
-	s->origin = keep_origin;
-	s->status = keep_status;
+	leave_source(s, outer);
+	s->status = outer_status;
 	raise_status(s, status);
 	return status;
 }
 
+int session_run(session *s, const char *source, size_t length, const char *origin)
+{
+	return run_source(s, source, length, origin, 0);
+}
+
 int session_run_argument(session *s, const char *statement, int index)
 {
-	int keep = s->fixed_line;
-	s->fixed_line = index;
-	int status = session_run(s, statement, strlen(statement), "-e");
-	s->fixed_line = keep;
-	return status;
+	return run_source(s, statement, strlen(statement), "-e", index);
 }
 
 int session_run_file(session *s, const char *path)
@@ -2987,11 +2990,7 @@ int session_run_file(session *s, const char *path)
 
 const expr *session_expr(session *s, const char *text)
 {
-	const char *keep_source = s->source, *keep_origin = s->origin;
-	size_t keep_length = s->length;
-	s->source = text;
-	s->length = strlen(text);
-	s->origin = "<expr>";
+	source_frame outer = enter_source(s, text, strlen(text), "<expr>", 0);
 	ast_list list;
 	ast_parse(text, s->length, MAX_NESTING, &list);
 	const expr *result = NULL;
@@ -3002,9 +3001,7 @@ const expr *session_expr(session *s, const char *text)
 	else if (!eval_scalar(s, list.stmts[0]->a, &result))
 		result = NULL;
 	ast_list_free(&list);
-	s->source = keep_source;
-	s->length = keep_length;
-	s->origin = keep_origin;
+	leave_source(s, outer);
 	return result;
 }
 
