@@ -25,6 +25,7 @@ struct expr {
 			mpq_t coef;
 			const expr **bases;
 			const expr **exps;
+			const expr *unit; /* memo: the product with coefficient 1, or NULL */
 		} mul;
 		struct {
 			expr_builtin fn;

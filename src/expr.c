@@ -38,7 +38,26 @@ struct expr_ctx {
 	expr_error_kind error;
 	char message[256];
 	const expr *zero, *one, *minus_one;
+	/* Scratch rationals for the constructors, taken and given back in LIFO
+	 * order; each keeps its limbs, so hot paths do not allocate. */
+	__mpq_struct **scratch;
+	size_t scratch_top, scratch_cap;
+	const expr *small_ints[33]; /* -16..16, made on first use */
 };
+
+static mpq_ptr scratch_take(expr_ctx *ctx)
+{
+	if (ctx->scratch_top == ctx->scratch_cap) {
+		size_t cap = ctx->scratch_cap ? ctx->scratch_cap * 2 : 64;
+		ctx->scratch = xreallocarray(ctx->scratch, cap, sizeof *ctx->scratch);
+		for (size_t i = ctx->scratch_cap; i < cap; i++) {
+			ctx->scratch[i] = xmalloc(sizeof(__mpq_struct));
+			mpq_init(ctx->scratch[i]);
+		}
+		ctx->scratch_cap = cap;
+	}
+	return ctx->scratch[ctx->scratch_top++];
+}
 
 /* ------------------------------------------------------------------ hashing */
 
@@ -134,12 +153,28 @@ static void table_grow(expr_ctx *ctx)
 	ctx->capacity = capacity;
 }
 
-static const expr **copy_ptrs(const expr *const *src, size_t n)
+static void *copy_bytes(void *dst, const void *src, size_t size)
 {
-	const expr **dst = xmalloc((n ? n : 1) * sizeof *dst);
-	if (n)
-		memcpy(dst, src, n * sizeof *dst);
+	if (size)
+		memcpy(dst, src, size);
 	return dst;
+}
+
+/* Room for one more item in a buffer that starts in caller storage
+ * (inline_items, *cap items) and moves to the heap when it outgrows it. */
+static void *grow_items(void *items, const void *inline_items, size_t n, size_t *cap, size_t size)
+{
+	if (n < *cap)
+		return items;
+	size_t grown = *cap ? *cap * 2 : 16;
+	if (items == inline_items) {
+		void *heap = xreallocarray(NULL, grown, size);
+		memcpy(heap, items, n * size);
+		items = heap;
+	} else
+		items = xreallocarray(items, grown, size);
+	*cap = grown;
+	return items;
 }
 
 /* The height of a node from its operands' heights (they are interned). */
@@ -190,8 +225,17 @@ static const expr *intern(expr_ctx *ctx, expr *candidate)
 	candidate->height = node_height(candidate);
 	if (ctx->limits.max_height && candidate->height > ctx->limits.max_height)
 		return expr_fail(ctx, EXPR_ERR_DEPTH, "expression nested too deeply (tree depth limit reached)");
-	expr *node = xmalloc(sizeof *node);
+	/* one block: the node, then its operand arrays */
+	size_t n = candidate->nops, extra = 0;
+	if (candidate->kind == EXPR_ADD)
+		extra = n * sizeof(expr *);
+	else if (candidate->kind == EXPR_MUL)
+		extra = 2 * n * sizeof(expr *);
+	else if (candidate->kind == EXPR_FAPP)
+		extra = n * sizeof(expr *) + n;
+	expr *node = xmalloc(sizeof *node + extra);
 	*node = *candidate;
+	const expr **arrays = (const expr **)(node + 1);
 	switch (node->kind) {
 	case EXPR_NUM:
 		mpq_init(node->u.num);
@@ -205,20 +249,20 @@ static const expr *intern(expr_ctx *ctx, expr *candidate)
 		node->u.sym.arg_names = NULL;
 		break;
 	case EXPR_ADD:
-		node->u.add.terms = copy_ptrs(candidate->u.add.terms, node->nops);
+		node->u.add.terms = copy_bytes(arrays, candidate->u.add.terms, n * sizeof *arrays);
 		break;
 	case EXPR_MUL:
 		mpq_init(node->u.mul.coef);
 		mpq_set(node->u.mul.coef, candidate->u.mul.coef);
-		node->u.mul.bases = copy_ptrs(candidate->u.mul.bases, node->nops);
-		node->u.mul.exps = copy_ptrs(candidate->u.mul.exps, node->nops);
+		node->u.mul.bases = copy_bytes(arrays, candidate->u.mul.bases, n * sizeof *arrays);
+		node->u.mul.exps = copy_bytes(arrays + n, candidate->u.mul.exps, n * sizeof *arrays);
+		node->u.mul.unit = NULL;
 		break;
 	case EXPR_FUN:
 		break;
 	case EXPR_FAPP:
-		node->u.fapp.counts = xmalloc(node->nops ? node->nops : 1);
-		memcpy(node->u.fapp.counts, candidate->u.fapp.counts, node->nops);
-		node->u.fapp.args = copy_ptrs(candidate->u.fapp.args, node->nops);
+		node->u.fapp.args = copy_bytes(arrays, candidate->u.fapp.args, n * sizeof *arrays);
+		node->u.fapp.counts = copy_bytes(arrays + n, candidate->u.fapp.counts, n);
 		break;
 	}
 	ctx->table[slot] = node;
@@ -239,21 +283,15 @@ static void free_node(expr *node)
 		free(node->u.sym.arg_names);
 		break;
 	case EXPR_ADD:
-		free(node->u.add.terms);
 		break;
 	case EXPR_MUL:
 		mpq_clear(node->u.mul.coef);
-		free(node->u.mul.bases);
-		free(node->u.mul.exps);
 		break;
 	case EXPR_FUN:
-		break;
 	case EXPR_FAPP:
-		free(node->u.fapp.counts);
-		free(node->u.fapp.args);
 		break;
 	}
-	free(node);
+	free(node); /* the operand arrays live in the node's block */
 }
 
 /* ------------------------------------------------------------------ context */
@@ -282,6 +320,11 @@ void expr_ctx_free(expr_ctx *ctx)
 			free_node((expr *)ctx->table[i]);
 	free(ctx->table);
 	free(ctx->memo);
+	for (size_t i = 0; i < ctx->scratch_cap; i++) {
+		mpq_clear(ctx->scratch[i]);
+		free(ctx->scratch[i]);
+	}
+	free(ctx->scratch);
 	free(ctx);
 }
 
@@ -445,11 +488,16 @@ const expr *expr_num(expr_ctx *ctx, mpq_srcptr value)
 
 const expr *expr_int(expr_ctx *ctx, long value)
 {
-	mpq_t q;
-	mpq_init(q);
+	bool small = value >= -16 && value <= 16;
+	if (small && ctx->small_ints[value + 16])
+		return ctx->small_ints[value + 16];
+	size_t mark = ctx->scratch_top;
+	mpq_ptr q = scratch_take(ctx);
 	mpq_set_si(q, value, 1);
 	const expr *e = expr_num(ctx, q);
-	mpq_clear(q);
+	ctx->scratch_top = mark;
+	if (small)
+		ctx->small_ints[value + 16] = e;
 	return e;
 }
 
@@ -680,7 +728,8 @@ static void run_sort(void *base, size_t n, size_t size, int (*compare)(const voi
 {
 	if (n < 2)
 		return;
-	char *src = base, *buffer = xmalloc(n * size), *dst = buffer;
+	_Alignas(max_align_t) char local[2048];
+	char *src = base, *buffer = n * size <= sizeof local ? local : xmalloc(n * size), *dst = buffer;
 	for (;;) {
 		size_t runs = 0, i = 0, out = 0;
 		while (i < n) {
@@ -713,15 +762,22 @@ static void run_sort(void *base, size_t n, size_t size, int (*compare)(const voi
 	}
 	if (src != (char *)base)
 		memcpy(base, src, n * size);
-	free(buffer);
+	if (buffer != local)
+		free(buffer);
 }
 
 /* ------------------------------------------------------------------ sums */
 
 typedef struct term_pair {
-	mpq_t coef;
+	mpq_ptr coef; /* a scratch rational of the context */
 	const expr *rest;
 } term_pair;
+
+typedef struct term_list {
+	term_pair *items;
+	size_t n, cap;
+	term_pair inline_items[32];
+} term_list;
 
 static int compare_term_pairs(const void *x, const void *y)
 {
@@ -729,7 +785,7 @@ static int compare_term_pairs(const void *x, const void *y)
 }
 
 /* Make the MUL c*rest where rest is coefficient-free (1, an atom or a MUL). */
-static const expr *scaled(expr_ctx *ctx, const mpq_t c, const expr *rest)
+static const expr *scaled(expr_ctx *ctx, mpq_srcptr c, const expr *rest)
 {
 	if (mpq_sgn(c) == 0)
 		return ctx->zero;
@@ -749,7 +805,10 @@ static const expr *scaled(expr_ctx *ctx, const mpq_t c, const expr *rest)
 		candidate.u.mul.bases = &rest;
 		candidate.u.mul.exps = &one_exp;
 	}
-	return intern(ctx, &candidate);
+	const expr *result = intern(ctx, &candidate);
+	if (result && result->kind == EXPR_MUL && !result->u.mul.unit)
+		((expr *)result)->u.mul.unit = rest;
+	return result;
 }
 
 const expr *expr_split_coef(expr_ctx *ctx, const expr *term, mpq_t coef)
@@ -765,34 +824,34 @@ const expr *expr_split_coef(expr_ctx *ctx, const expr *term, mpq_t coef)
 	mpq_set(coef, term->u.mul.coef);
 	if (mpq_cmp_ui(coef, 1, 1) == 0)
 		return term;
+	if (term->u.mul.unit)
+		return term->u.mul.unit;
+	const expr *rest;
 	if (term->nops == 1 && expr_is_one(term->u.mul.exps[0]))
-		return term->u.mul.bases[0];
-	mpq_t one;
-	mpq_init(one);
-	mpq_set_ui(one, 1, 1);
-	expr candidate = {.kind = EXPR_MUL, .nops = term->nops};
-	memcpy(candidate.u.mul.coef, one, sizeof(mpq_t));
-	candidate.u.mul.bases = term->u.mul.bases;
-	candidate.u.mul.exps = term->u.mul.exps;
-	const expr *rest = intern(ctx, &candidate);
-	mpq_clear(one);
+		rest = term->u.mul.bases[0];
+	else {
+		expr candidate = {.kind = EXPR_MUL, .nops = term->nops};
+		memcpy(candidate.u.mul.coef, ctx->one->u.num, sizeof(mpq_t));
+		candidate.u.mul.bases = term->u.mul.bases;
+		candidate.u.mul.exps = term->u.mul.exps;
+		rest = intern(ctx, &candidate);
+	}
+	if (rest)
+		((expr *)term)->u.mul.unit = rest;
 	return rest;
 }
 
-static void collect_terms(expr_ctx *ctx, const expr *e, term_pair **pairs, size_t *n, size_t *cap)
+static void collect_terms(expr_ctx *ctx, const expr *e, term_list *list)
 {
 	if (e->kind == EXPR_ADD) {
 		for (size_t i = 0; i < e->nops; i++)
-			collect_terms(ctx, e->u.add.terms[i], pairs, n, cap);
+			collect_terms(ctx, e->u.add.terms[i], list);
 		return;
 	}
-	if (*n == *cap) {
-		*cap = *cap ? *cap * 2 : 16;
-		*pairs = xreallocarray(*pairs, *cap, sizeof **pairs);
-	}
-	mpq_init((*pairs)[*n].coef);
-	(*pairs)[*n].rest = expr_split_coef(ctx, e, (*pairs)[*n].coef);
-	(*n)++;
+	list->items = grow_items(list->items, list->inline_items, list->n, &list->cap, sizeof *list->items);
+	term_pair *pair = &list->items[list->n++];
+	pair->coef = scratch_take(ctx);
+	pair->rest = expr_split_coef(ctx, e, pair->coef);
 }
 
 const expr *expr_add_n(expr_ctx *ctx, size_t n, const expr *const *terms)
@@ -804,58 +863,63 @@ const expr *expr_add_n(expr_ctx *ctx, size_t n, const expr *const *terms)
 		return ctx->zero;
 	if (n == 1)
 		return terms[0];
-	term_pair *pairs = NULL;
-	size_t count = 0, cap = 0;
+	size_t mark = ctx->scratch_top;
+	term_list list = {.cap = 32};
+	list.items = list.inline_items;
 	for (size_t i = 0; i < n; i++)
-		collect_terms(ctx, terms[i], &pairs, &count, &cap);
+		collect_terms(ctx, terms[i], &list);
+	term_pair *pairs = list.items;
+	size_t count = list.n;
+	const expr *result = NULL;
 	for (size_t i = 0; i < count; i++)
-		if (!pairs[i].rest) {
-			/* splitting a term hit the node limit: the error is set */
-			for (size_t j = 0; j < count; j++)
-				mpq_clear(pairs[j].coef);
-			free(pairs);
-			return NULL;
-		}
+		if (!pairs[i].rest)
+			goto out; /* splitting a term hit the node limit: the error is set */
 	run_sort(pairs, count, sizeof *pairs, compare_term_pairs);
 	/* merge like terms */
 	size_t kept = 0;
 	for (size_t i = 0; i < count; i++) {
 		if (kept > 0 && pairs[kept - 1].rest == pairs[i].rest) {
-			mpq_add(pairs[kept - 1].coef, pairs[kept - 1].coef, pairs[i].coef);
+			rat_add(pairs[kept - 1].coef, pairs[kept - 1].coef, pairs[i].coef);
 			continue;
 		}
 		if (kept != i) {
-			mpq_swap(pairs[kept].coef, pairs[i].coef);
-			pairs[kept].rest = pairs[i].rest;
+			mpq_ptr t = pairs[kept].coef;
+			pairs[kept] = pairs[i];
+			pairs[i].coef = t;
 		}
 		kept++;
 	}
-	const expr **out = xmalloc((kept ? kept : 1) * sizeof *out);
+	/* the scaled terms go back into the pairs' rest fields */
 	size_t nout = 0;
+	bool failed = false;
 	for (size_t i = 0; i < kept; i++) {
 		if (mpq_sgn(pairs[i].coef) == 0)
 			continue;
-		out[nout++] = scaled(ctx, pairs[i].coef, pairs[i].rest);
+		const expr *t = scaled(ctx, pairs[i].coef, pairs[i].rest);
+		failed |= t == NULL;
+		pairs[nout++].rest = t;
 	}
-	for (size_t i = 0; i < count; i++)
-		mpq_clear(pairs[i].coef);
-	free(pairs);
-	const expr *result;
-	bool failed = false;
-	for (size_t i = 0; i < nout; i++)
-		failed |= out[i] == NULL;
 	if (failed)
 		result = NULL;
 	else if (nout == 0)
 		result = ctx->zero;
 	else if (nout == 1)
-		result = out[0];
+		result = pairs[0].rest;
 	else {
+		const expr *local[32];
+		const expr **out = nout <= 32 ? local : xmalloc(nout * sizeof *out);
+		for (size_t i = 0; i < nout; i++)
+			out[i] = pairs[i].rest;
 		expr candidate = {.kind = EXPR_ADD, .nops = nout};
 		candidate.u.add.terms = out;
 		result = intern(ctx, &candidate);
+		if (out != local)
+			free(out);
 	}
-	free(out);
+out:
+	if (list.items != list.inline_items)
+		free(list.items);
+	ctx->scratch_top = mark;
 	return result;
 }
 
@@ -887,18 +951,26 @@ typedef struct factor {
 	const expr *base, *exponent;
 } factor;
 
+/* Factors, in the list's own storage until they outgrow it: start a list
+ * with FACTOR_LIST_INIT(name) and end it with factor_list_free. */
 typedef struct factor_list {
 	factor *items;
 	size_t n, cap;
+	factor inline_items[24];
 } factor_list;
+
+#define FACTOR_LIST_INIT(list) {.items = (list).inline_items, .cap = 24}
 
 static void factor_push(factor_list *list, const expr *base, const expr *exponent)
 {
-	if (list->n == list->cap) {
-		list->cap = list->cap ? list->cap * 2 : 8;
-		list->items = xreallocarray(list->items, list->cap, sizeof *list->items);
-	}
+	list->items = grow_items(list->items, list->inline_items, list->n, &list->cap, sizeof *list->items);
 	list->items[list->n++] = (factor){base, exponent};
+}
+
+static void factor_list_free(factor_list *list)
+{
+	if (list->items != list->inline_items)
+		free(list->items);
 }
 
 static int compare_factors(const void *x, const void *y)
@@ -907,7 +979,7 @@ static int compare_factors(const void *x, const void *y)
 }
 
 /* Intern the MUL c * prod factors (factors sorted, bases distinct, no zero exponents). */
-static const expr *make_mul(expr_ctx *ctx, const mpq_t c, const factor_list *factors)
+static const expr *make_mul(expr_ctx *ctx, mpq_srcptr c, const factor_list *factors)
 {
 	if (mpq_sgn(c) == 0)
 		return ctx->zero;
@@ -915,8 +987,9 @@ static const expr *make_mul(expr_ctx *ctx, const mpq_t c, const factor_list *fac
 		return expr_num(ctx, c);
 	if (factors->n == 1 && mpq_cmp_ui(c, 1, 1) == 0 && expr_is_one(factors->items[0].exponent))
 		return factors->items[0].base;
-	const expr **bases = xmalloc(factors->n * sizeof *bases);
-	const expr **exps = xmalloc(factors->n * sizeof *exps);
+	const expr *local[2 * 24];
+	const expr **bases = factors->n <= 24 ? local : xmalloc(2 * factors->n * sizeof *bases);
+	const expr **exps = bases + factors->n;
 	for (size_t i = 0; i < factors->n; i++) {
 		bases[i] = factors->items[i].base;
 		exps[i] = factors->items[i].exponent;
@@ -926,8 +999,8 @@ static const expr *make_mul(expr_ctx *ctx, const mpq_t c, const factor_list *fac
 	candidate.u.mul.bases = bases;
 	candidate.u.mul.exps = exps;
 	const expr *result = intern(ctx, &candidate);
-	free(bases);
-	free(exps);
+	if (bases != local)
+		free(bases);
 	return result;
 }
 
@@ -939,14 +1012,10 @@ const expr *expr_pow_pair(expr_ctx *ctx, const expr *base, const expr *exponent)
 		return ctx->one;
 	if (expr_is_one(exponent))
 		return base;
-	factor_list list = {0};
+	factor_list list = FACTOR_LIST_INIT(list);
 	factor_push(&list, base, exponent);
-	mpq_t one;
-	mpq_init(one);
-	mpq_set_ui(one, 1, 1);
-	const expr *result = make_mul(ctx, one, &list);
-	mpq_clear(one);
-	free(list.items);
+	const expr *result = make_mul(ctx, ctx->one->u.num, &list);
+	factor_list_free(&list);
 	return result;
 }
 
@@ -1168,11 +1237,12 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 	if (expr_poll_interrupt(ctx))
 		return NULL;
 
-	mpq_t coef;
-	mpq_init(coef);
+	size_t mark = ctx->scratch_top;
+	mpq_ptr coef = scratch_take(ctx);
 	mpq_set_ui(coef, 1, 1);
-	factor_list factors = {0};
-	const expr **sums = NULL;
+	factor_list factors = FACTOR_LIST_INIT(factors);
+	const expr *sums_local[8];
+	const expr **sums = sums_local;
 	size_t nsums = 0;
 	const expr **extras_early = NULL;
 	size_t nearly = 0;
@@ -1180,15 +1250,18 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 		const expr *f = inputs[i];
 		switch (f->kind) {
 		case EXPR_NUM:
-			mpq_mul(coef, coef, f->u.num);
+			rat_mul(coef, coef, f->u.num);
 			break;
 		case EXPR_MUL:
-			mpq_mul(coef, coef, f->u.mul.coef);
+			rat_mul(coef, coef, f->u.mul.coef);
 			for (size_t j = 0; j < f->nops; j++)
 				factor_push(&factors, f->u.mul.bases[j], f->u.mul.exps[j]);
 			break;
 		case EXPR_ADD:
-			sums = xreallocarray(sums, nsums + 1, sizeof *sums);
+			if (nsums == 8 && sums == sums_local) {
+				sums = xreallocarray(NULL, n, sizeof *sums);
+				memcpy(sums, sums_local, sizeof sums_local);
+			}
 			sums[nsums++] = f;
 			break;
 		default:
@@ -1275,7 +1348,7 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 
 	/* merge equal bases; fold exp factors into one exp */
 	run_sort(factors.items, factors.n, sizeof *factors.items, compare_factors);
-	factor_list merged = {0};
+	factor_list merged = FACTOR_LIST_INIT(merged);
 	const expr **exp_args = NULL;
 	size_t nexp = 0;
 	const expr **extras = NULL;
@@ -1289,7 +1362,7 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 			was_merged = true;
 		}
 		if (!exponent) {
-			free(merged.items);
+			factor_list_free(&merged);
 			free(exp_args);
 			free(extras);
 			goto done;
@@ -1332,7 +1405,7 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 	}
 	free(exp_args);
 	result = make_mul(ctx, coef, &merged);
-	free(merged.items);
+	factor_list_free(&merged);
 	if (nextras > 0 && result) {
 		extras = xreallocarray(extras, nextras + 1, sizeof *extras);
 		extras[nextras++] = result;
@@ -1340,9 +1413,10 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 	}
 	free(extras);
 done:
-	mpq_clear(coef);
-	free(factors.items);
-	free(sums);
+	ctx->scratch_top = mark;
+	factor_list_free(&factors);
+	if (sums != sums_local)
+		free(sums);
 	return result;
 }
 
@@ -1365,7 +1439,7 @@ static const expr *divide_exactly(expr_ctx *ctx, const expr *term, const expr *m
 	const expr *const *tb = term->kind == EXPR_MUL ? term->u.mul.bases : &term;
 	const expr *const *te = term->kind == EXPR_MUL ? term->u.mul.exps : &one_exp;
 	size_t tn = term->kind == EXPR_MUL ? term->nops : 1;
-	factor_list kept = {0};
+	factor_list kept = FACTOR_LIST_INIT(kept);
 	size_t j = 0;
 	const expr *result = NULL;
 	for (size_t i = 0; i < tn; i++) {
@@ -1385,19 +1459,19 @@ static const expr *divide_exactly(expr_ctx *ctx, const expr *term, const expr *m
 		factor_push(&kept, tb[i], exponent);
 	}
 	if (j == mn) {
-		mpq_t coef;
-		mpq_init(coef);
+		size_t mark = ctx->scratch_top;
+		mpq_ptr coef = scratch_take(ctx);
 		if (term->kind == EXPR_MUL)
 			mpq_set(coef, term->u.mul.coef);
 		else
 			mpq_set_ui(coef, 1, 1);
 		if (m->kind == EXPR_MUL)
-			mpq_div(coef, coef, m->u.mul.coef);
+			rat_div(coef, coef, m->u.mul.coef);
 		result = make_mul(ctx, coef, &kept);
-		mpq_clear(coef);
+		ctx->scratch_top = mark;
 	}
 out:
-	free(kept.items);
+	factor_list_free(&kept);
 	return result;
 }
 

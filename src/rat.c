@@ -2,6 +2,7 @@
 #include "rat.h"
 
 #include <ctype.h>
+#include <limits.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -206,4 +207,102 @@ char *rat_to_string(mpq_srcptr value)
 void rat_set_double(mpq_t value, double number)
 {
 	mpq_set_d(value, number);
+}
+
+/* ------------------------------------------------------------------ small fast paths */
+
+/* The value of z when it fits in a long (one limb, at most LONG_MAX in magnitude). */
+static bool small_part(mpz_srcptr z, long *value)
+{
+	size_t size = mpz_size(z);
+	if (size == 0) {
+		*value = 0;
+		return true;
+	}
+	mp_limb_t limb = mpz_getlimbn(z, 0);
+	if (size > 1 || limb > (mp_limb_t)LONG_MAX)
+		return false;
+	*value = mpz_sgn(z) < 0 ? -(long)limb : (long)limb;
+	return true;
+}
+
+static bool small_rat(mpq_srcptr q, long *num, long *den)
+{
+	return small_part(mpq_numref(q), num) && small_part(mpq_denref(q), den);
+}
+
+static unsigned long gcd_ul(unsigned long a, unsigned long b)
+{
+	while (b) {
+		unsigned long t = a % b;
+		a = b;
+		b = t;
+	}
+	return a;
+}
+
+static unsigned long abs_ul(long v)
+{
+	return v < 0 ? -(unsigned long)v : (unsigned long)v;
+}
+
+static void set_small(mpq_ptr result, long num, long den)
+{
+	mpz_set_si(mpq_numref(result), num);
+	mpz_set_ui(mpq_denref(result), (unsigned long)den);
+}
+
+/* (an/ad) * (bn/bd) with den > 0, cross-reduced so the result is canonical. */
+static bool small_mul(mpq_ptr result, long an, long ad, long bn, long bd)
+{
+	if (an == 0 || bn == 0) {
+		set_small(result, 0, 1);
+		return true;
+	}
+	long g1 = ad == 1 && bd == 1 ? 1 : (long)gcd_ul(abs_ul(an), (unsigned long)bd);
+	long g2 = ad == 1 && bd == 1 ? 1 : (long)gcd_ul(abs_ul(bn), (unsigned long)ad);
+	long num, den;
+	if (__builtin_mul_overflow(an / g1, bn / g2, &num) || __builtin_mul_overflow(ad / g2, bd / g1, &den) ||
+	    num == LONG_MIN)
+		return false;
+	set_small(result, num, den);
+	return true;
+}
+
+void rat_mul(mpq_ptr result, mpq_srcptr a, mpq_srcptr b)
+{
+	long an, ad, bn, bd;
+	if (small_rat(a, &an, &ad) && small_rat(b, &bn, &bd) && small_mul(result, an, ad, bn, bd))
+		return;
+	mpq_mul(result, a, b);
+}
+
+void rat_div(mpq_ptr result, mpq_srcptr a, mpq_srcptr b)
+{
+	long an, ad, bn, bd;
+	if (small_rat(a, &an, &ad) && small_rat(b, &bn, &bd) && bn != 0 &&
+	    small_mul(result, an, ad, bn < 0 ? -bd : bd, bn < 0 ? -bn : bn))
+		return;
+	mpq_div(result, a, b);
+}
+
+void rat_add(mpq_ptr result, mpq_srcptr a, mpq_srcptr b)
+{
+	long an, ad, bn, bd;
+	if (small_rat(a, &an, &ad) && small_rat(b, &bn, &bd)) {
+		long x, y, num, den;
+		if (ad == 1 && bd == 1) {
+			if (!__builtin_add_overflow(an, bn, &num) && num != LONG_MIN) {
+				set_small(result, num, 1);
+				return;
+			}
+		} else if (!__builtin_mul_overflow(an, bd, &x) && !__builtin_mul_overflow(bn, ad, &y) &&
+			   !__builtin_add_overflow(x, y, &num) && num != LONG_MIN &&
+			   !__builtin_mul_overflow(ad, bd, &den)) {
+			long g = num == 0 ? den : (long)gcd_ul(abs_ul(num), (unsigned long)den);
+			set_small(result, num / g, den / g);
+			return;
+		}
+	}
+	mpq_add(result, a, b);
 }

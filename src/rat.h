@@ -32,4 +32,12 @@ char *rat_to_string(mpq_srcptr value);
 /* Set value to the exact rational of a finite double. */
 void rat_set_double(mpq_t value, double number);
 
+/* Small operands (numerator and denominator within a long) are the common
+ * case for coefficients; these helpers do them in machine words and fall
+ * back to GMP on anything larger or on overflow.  Same results as
+ * mpq_mul / mpq_add / mpq_div (canonical), aliasing allowed. */
+void rat_mul(mpq_ptr result, mpq_srcptr a, mpq_srcptr b);
+void rat_add(mpq_ptr result, mpq_srcptr a, mpq_srcptr b);
+void rat_div(mpq_ptr result, mpq_srcptr a, mpq_srcptr b);
+
 #endif
