@@ -682,12 +682,13 @@ int expr_compare(const expr *a, const expr *b)
 		int c = expr_compare(a->u.fapp.func, b->u.fapp.func);
 		if (c)
 			return c;
-		for (size_t i = 0; i < a->nops && i < b->nops; i++) {
-			if (a->u.fapp.counts[i] != b->u.fapp.counts[i])
-				return a->u.fapp.counts[i] < b->u.fapp.counts[i] ? -1 : 1;
-		}
-		for (size_t i = 0; i < a->nops && i < b->nops; i++)
-			if ((c = expr_compare(a->u.fapp.args[i], b->u.fapp.args[i])))
+		size_t common = a->nops < b->nops ? a->nops : b->nops;
+		/* the first differing count decides (memcmp compares unsigned bytes) */
+		if (common && (c = memcmp(a->u.fapp.counts, b->u.fapp.counts, common)))
+			return c < 0 ? -1 : 1;
+		for (size_t i = 0; i < common; i++)
+			if (a->u.fapp.args[i] != b->u.fapp.args[i] &&
+			    (c = expr_compare(a->u.fapp.args[i], b->u.fapp.args[i])))
 				return c;
 		return a->nops < b->nops ? -1 : a->nops > b->nops;
 	}
@@ -696,10 +697,12 @@ int expr_compare(const expr *a, const expr *b)
 		size_t i = a->nops, j = b->nops;
 		while (i > 0 && j > 0) {
 			i--, j--;
-			int c = expr_compare(a->u.mul.bases[i], b->u.mul.bases[j]);
-			if (c)
+			int c;
+			if (a->u.mul.bases[i] != b->u.mul.bases[j] &&
+			    (c = expr_compare(a->u.mul.bases[i], b->u.mul.bases[j])))
 				return c;
-			if ((c = expr_compare(a->u.mul.exps[i], b->u.mul.exps[j])))
+			if (a->u.mul.exps[i] != b->u.mul.exps[j] &&
+			    (c = expr_compare(a->u.mul.exps[i], b->u.mul.exps[j])))
 				return c;
 		}
 		if (i != j)
@@ -1768,12 +1771,26 @@ bool expr_has(expr_ctx *ctx, const expr *e, const expr *sym)
 	const expr *known = expr_memo_get(ctx, HAS_TAG, e, sym);
 	if (known)
 		return known == ctx->one;
-	expr_vec kids = {0};
-	children(e, &kids);
 	bool found = false;
-	for (size_t i = 0; i < kids.n && !found; i++)
-		found = expr_has(ctx, kids.items[i], sym);
-	expr_vec_free(&kids);
+	switch (e->kind) {
+	case EXPR_ADD:
+		for (size_t i = 0; i < e->nops && !found; i++)
+			found = expr_has(ctx, e->u.add.terms[i], sym);
+		break;
+	case EXPR_MUL:
+		for (size_t i = 0; i < e->nops && !found; i++)
+			found = expr_has(ctx, e->u.mul.bases[i], sym) || expr_has(ctx, e->u.mul.exps[i], sym);
+		break;
+	case EXPR_FUN:
+		found = expr_has(ctx, e->u.fun.arg, sym);
+		break;
+	case EXPR_FAPP:
+		for (size_t i = 0; i < e->nops && !found; i++)
+			found = expr_has(ctx, e->u.fapp.args[i], sym);
+		break;
+	default:
+		break;
+	}
 	expr_memo_put(ctx, HAS_TAG, e, sym, found ? ctx->one : ctx->zero);
 	return found;
 }

@@ -65,26 +65,41 @@ void ito_diff_scale(const model *m, const ito_diff *a, const expr *factor, ito_d
 	*out = r;
 }
 
+/* The indices of the nonzero noise coefficients of d (a NULL one counts: the
+ * product with it fails as it should).  indices holds m->nnoises entries. */
+static size_t noise_support(const model *m, const ito_diff *d, size_t *indices)
+{
+	size_t count = 0;
+	for (size_t k = 0; k < m->nnoises; k++) {
+		const expr *c = coef(d, k, m);
+		if (!c || !expr_is_zero(c))
+			indices[count++] = k;
+	}
+	return count;
+}
+
 const expr *ito_covariation(model *m, const ito_diff *a, const ito_diff *b)
 {
 	expr_ctx *ctx = m->ctx;
 	size_t n = m->nnoises;
-	const expr **terms = xmalloc((n * n + 1) * sizeof *terms);
+	/* only the noises both sides load on meet: O(support_a * support_b) */
+	size_t *support = xmalloc((2 * n + 1) * sizeof *support);
+	size_t na = noise_support(m, a, support), nb = noise_support(m, b, support + na);
+	const expr **terms = xmalloc((na * nb + 1) * sizeof *terms);
 	size_t nterms = 0;
-	for (size_t k = 0; k < n; k++) {
-		const expr *ak = coef(a, k, m);
-		if (ak && expr_is_zero(ak))
-			continue;
-		for (size_t l = 0; l < n; l++) {
-			const expr *bl = coef(b, l, m);
+	for (size_t x = 0; x < na; x++) {
+		size_t k = support[x];
+		for (size_t y = 0; y < nb; y++) {
+			size_t l = support[na + y];
 			const expr *rho = model_corr(m, k, l);
-			if ((bl && expr_is_zero(bl)) || expr_is_zero(rho))
+			if (expr_is_zero(rho))
 				continue;
-			terms[nterms++] = expr_mul_n(ctx, 3, (const expr *[]){ak, bl, rho});
+			terms[nterms++] = expr_mul_n(ctx, 3, (const expr *[]){coef(a, k, m), coef(b, l, m), rho});
 		}
 	}
 	const expr *result = expr_add_n(ctx, nterms, terms);
 	free(terms);
+	free(support);
 	return result;
 }
 

@@ -46,8 +46,10 @@ struct dnode {
 typedef struct printer {
 	expr_ctx *ctx;
 	prn_format format;
-	dnode **arena;
+	dnode **arena;	    /* every node made, for printer_free */
 	size_t narena, caparena;
+	dnode **blocks;	    /* nodes come from blocks, each twice the last */
+	size_t nblocks, block_used, block_size;
 	expr_map rank_memo; /* node -> NUM holding its max symbol rank */
 	bool frac_part;	    /* LaTeX: writing the only factor of a \\frac part */
 	const prn_abbrev *abbrev;
@@ -59,11 +61,19 @@ typedef struct printer {
 	expr_map order_map; /* term -> NUM position + 1, for the sum being collected */
 } printer;
 
+/* A zeroed node; only numbers and products carry (and initialise) num. */
 static dnode *dnew(printer *p, dkind kind)
 {
-	dnode *d = xcalloc(1, sizeof *d);
+	if (p->block_used == p->block_size) {
+		p->block_size = p->block_size ? 2 * p->block_size : 8;
+		p->blocks = xreallocarray(p->blocks, p->nblocks + 1, sizeof *p->blocks);
+		p->blocks[p->nblocks++] = xcalloc(p->block_size, sizeof(dnode));
+		p->block_used = 0;
+	}
+	dnode *d = &p->blocks[p->nblocks - 1][p->block_used++];
 	d->kind = kind;
-	mpq_init(d->num);
+	if (kind == D_NUM || kind == D_PROD)
+		mpq_init(d->num);
 	if (p->narena == p->caparena) {
 		p->caparena = p->caparena ? p->caparena * 2 : 64;
 		p->arena = xreallocarray(p->arena, p->caparena, sizeof *p->arena);
@@ -75,12 +85,16 @@ static dnode *dnew(printer *p, dkind kind)
 static void printer_free(printer *p)
 {
 	for (size_t i = 0; i < p->narena; i++) {
-		mpq_clear(p->arena[i]->num);
-		free(p->arena[i]->items);
-		free(p->arena[i]->factors);
-		free(p->arena[i]);
+		dnode *d = p->arena[i];
+		if (d->kind == D_NUM || d->kind == D_PROD)
+			mpq_clear(d->num);
+		free(d->items);
+		free(d->factors);
 	}
 	free(p->arena);
+	for (size_t i = 0; i < p->nblocks; i++)
+		free(p->blocks[i]);
+	free(p->blocks);
 	expr_map_free(&p->rank_memo);
 }
 
@@ -175,6 +189,46 @@ static dnode *build_mul(printer *p, const expr *e)
 	return d;
 }
 
+typedef struct factor_count {
+	const expr *base;
+	int sign, rank;
+	size_t count;
+	const expr *exponent; /* the exponent in the first term that has the base */
+	bool uniform;	      /* the same exponent in every term that has the base */
+} factor_count;
+
+static size_t factor_slot(const factor_count *table, size_t capacity, const expr *base, int sign)
+{
+	size_t slot = ((uintptr_t)base * 0x9e3779b97f4a7c15u + (unsigned)(sign + 1)) >> 7;
+	slot &= capacity - 1;
+	while (table[slot].base && !(table[slot].base == base && table[slot].sign == sign))
+		slot = (slot + 1) & (capacity - 1);
+	return slot;
+}
+
+/* The entry of (base, sign), new and zeroed if absent; the table grows so it
+ * stays at most half full (it is sized by distinct bases, not by terms). */
+static factor_count *factor_entry(factor_count **table, size_t *capacity, size_t *used, const expr *base,
+				  int sign)
+{
+	size_t slot = factor_slot(*table, *capacity, base, sign);
+	if ((*table)[slot].base)
+		return &(*table)[slot];
+	if (2 * (*used + 1) > *capacity) {
+		size_t grown = 2 * *capacity;
+		factor_count *bigger = xcalloc(grown, sizeof *bigger);
+		for (size_t i = 0; i < *capacity; i++)
+			if ((*table)[i].base)
+				bigger[factor_slot(bigger, grown, (*table)[i].base, (*table)[i].sign)] = (*table)[i];
+		free(*table);
+		*table = bigger;
+		*capacity = grown;
+		slot = factor_slot(*table, *capacity, base, sign);
+	}
+	(*used)++;
+	return &(*table)[slot];
+}
+
 /* The factor common to all terms of a sum: the symbolic bases present in every
  * term with numeric exponents of one sign (the smaller power), and an integer
  * content > 1 when every coefficient is an integer.  Returns 1 when none. */
@@ -241,9 +295,7 @@ static const expr *common_factor(printer *p, const expr *sum)
 				result = expr_mul(ctx, result, expr_pow(ctx, base, exponent));
 			continue;
 		}
-		mpq_t best;
-		mpq_init(best);
-		mpq_set(best, exponent->u.num);
+		const expr *best = exponent;
 		bool everywhere = true;
 		for (size_t i = 1; i < sum->nops && everywhere; i++) {
 			const expr *t = sum->u.add.terms[i];
@@ -255,17 +307,16 @@ static const expr *common_factor(printer *p, const expr *sum)
 					if (t->u.mul.bases[j] == base)
 						found = t->u.mul.exps[j];
 			if (!found || found->kind != EXPR_NUM ||
-			    mpq_sgn(found->u.num) != mpq_sgn(best)) {
+			    mpq_sgn(found->u.num) != mpq_sgn(best->u.num)) {
 				everywhere = false;
 				break;
 			}
-			if (mpq_sgn(best) > 0 ? mpq_cmp(found->u.num, best) < 0
-					      : mpq_cmp(found->u.num, best) > 0)
-				mpq_set(best, found->u.num);
+			if (found != best && (mpq_sgn(best->u.num) > 0 ? rat_cmp(found->u.num, best->u.num) < 0
+								: rat_cmp(found->u.num, best->u.num) > 0))
+				best = found;
 		}
 		if (everywhere)
-			result = expr_mul(ctx, result, expr_pow(ctx, base, expr_num(ctx, best)));
-		mpq_clear(best);
+			result = expr_mul(ctx, result, expr_pow(ctx, base, best));
 	}
 	return result;
 }
@@ -426,17 +477,20 @@ static void build_function_groups(printer *p, dnode *sum, size_t n, const expr *
 	const expr **keys = xmalloc(n * sizeof *keys);
 	const expr **rests = xmalloc(n * sizeof *rests);
 	size_t *order = xmalloc(n * sizeof *order);
+	int *rank = xmalloc(n * sizeof *rank);
 	for (size_t i = 0; i < n; i++) {
 		keys[i] = function_part(p, terms[i], &rests[i]);
-		order[i] = i;
+		rank[i] = derivative_rank(keys[i]);
 	}
-	/* order by derivative rank, stable */
-	for (size_t i = 1; i < n; i++)
-		for (size_t j = i; j > 0 && derivative_rank(keys[order[j - 1]]) > derivative_rank(keys[order[j]]); j--) {
-			size_t t = order[j - 1];
-			order[j - 1] = order[j];
-			order[j] = t;
-		}
+	/* order by derivative rank, stable (a counting pass per distinct rank
+	 * would do as well; ranks are few and n is the number of terms) */
+	for (size_t i = 0; i < n; i++) {
+		size_t j = i;
+		for (; j > 0 && rank[order[j - 1]] > rank[i]; j--)
+			order[j] = order[j - 1];
+		order[j] = i;
+	}
+	free(rank);
 	bool *used = xcalloc(n, sizeof *used);
 	const expr **group = xmalloc(n * sizeof *group);
 	for (size_t oi = 0; oi < n; oi++) {
@@ -487,14 +541,6 @@ static bool term_has(const expr *term, const expr *base, int sign)
 	return e && mpq_sgn(e->u.num) == sign;
 }
 
-typedef struct factor_count {
-	const expr *base;
-	int sign, rank;
-	size_t count;
-	const expr *exponent; /* the exponent in the first term that has the base */
-	bool uniform;	      /* the same exponent in every term that has the base */
-} factor_count;
-
 /* Greedy collection: pull the factor shared by the most terms out of those
  * terms (states before parameters on ties), then collect the rest. */
 static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *terms)
@@ -507,12 +553,7 @@ static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *ter
 		return;
 	}
 	/* count, in one pass, the terms that hold each base with each exponent sign */
-	size_t capacity = 64;
-	size_t total = 0;
-	for (size_t i = 0; i < n; i++)
-		total += terms[i]->kind == EXPR_MUL ? terms[i]->nops : 1;
-	while (capacity < 2 * total + 2)
-		capacity *= 2;
+	size_t capacity = 64, used = 0;
 	factor_count *table = xcalloc(capacity, sizeof *table);
 	const expr *best = NULL;
 	int best_sign = 0;
@@ -527,11 +568,7 @@ static void build_terms(printer *p, dnode *sum, size_t n, const expr *const *ter
 			if (base->kind == EXPR_NUM || (ex && ex->kind != EXPR_NUM))
 				continue;
 			int sign = ex ? mpq_sgn(ex->u.num) : 1;
-			size_t slot = ((uintptr_t)base * 0x9e3779b97f4a7c15u + (unsigned)(sign + 1)) >> 7;
-			slot &= capacity - 1;
-			while (table[slot].base && !(table[slot].base == base && table[slot].sign == sign))
-				slot = (slot + 1) & (capacity - 1);
-			factor_count *entry = &table[slot];
+			factor_count *entry = factor_entry(&table, &capacity, &used, base, sign);
 			const expr *exponent = ex ? ex : expr_int(ctx, 1);
 			if (!entry->base) {
 				entry->base = base;

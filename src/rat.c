@@ -306,3 +306,12 @@ void rat_add(mpq_ptr result, mpq_srcptr a, mpq_srcptr b)
 	}
 	mpq_add(result, a, b);
 }
+
+int rat_cmp(mpq_srcptr a, mpq_srcptr b)
+{
+	long an, ad, bn, bd, x, y;
+	if (small_rat(a, &an, &ad) && small_rat(b, &bn, &bd) && !__builtin_mul_overflow(an, bd, &x) &&
+	    !__builtin_mul_overflow(bn, ad, &y))
+		return (x > y) - (x < y);
+	return mpq_cmp(a, b);
+}

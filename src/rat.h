@@ -39,5 +39,6 @@ void rat_set_double(mpq_t value, double number);
 void rat_mul(mpq_ptr result, mpq_srcptr a, mpq_srcptr b);
 void rat_add(mpq_ptr result, mpq_srcptr a, mpq_srcptr b);
 void rat_div(mpq_ptr result, mpq_srcptr a, mpq_srcptr b);
+int rat_cmp(mpq_srcptr a, mpq_srcptr b); /* the sign of a - b, as mpq_cmp */
 
 #endif
