@@ -1,6 +1,8 @@
 /* check_rat.c - unit tests of the exact rationals: decimal literals read
  * exactly, malformed or oversized literals refused, integer powers and exact
- * roots with their limits.
+ * roots with their limits; the machine-word fast paths of rat_mul, rat_add,
+ * rat_div and rat_cmp agree with GMP's mpq_mul, mpq_add, mpq_div and mpq_cmp
+ * (the reference) on operands around every overflow boundary.
  *
  * Every expected value below is plain arithmetic (a decimal fraction is an
  * integer over a power of ten; common practice, no source), worked by hand. */
@@ -288,6 +290,73 @@ START_TEST(test_to_double_rounding)
 }
 END_TEST
 
+/* Operands for the fast paths: small values, values at and past the edges of a
+ * long (where the machine-word path must hand over to GMP), fractions whose
+ * cross-reduction matters, zero and signs. */
+static void fill_operands(mpq_t *ops, size_t *n)
+{
+	static const char *const texts[] = {
+		"0", "1", "-1", "2", "-3", "1/2", "-1/2", "2/3", "-5/7", "6/35", "35/6",
+		"9223372036854775807", "-9223372036854775807", "9223372036854775808",
+		"-9223372036854775808", "1/9223372036854775807", "-3/9223372036854775807",
+		"4294967296", "-4294967296", "4294967297/2", "3037000499", "3037000500",
+		"-3037000500", "1/3037000500", "123456789/987654321", "18446744073709551617",
+		"1/18446744073709551617", "9223372036854775806/9223372036854775807",
+	};
+	*n = 0;
+	for (size_t i = 0; i < sizeof texts / sizeof *texts; i++) {
+		mpq_init(ops[*n]);
+		ck_assert_int_eq(mpq_set_str(ops[*n], texts[i], 10), 0);
+		mpq_canonicalize(ops[*n]);
+		(*n)++;
+	}
+}
+
+START_TEST(test_fast_paths_match_gmp)
+{
+	mpq_t ops[32], got, want;
+	size_t n;
+	fill_operands(ops, &n);
+	mpq_inits(got, want, NULL);
+	size_t compared = 0;
+	for (size_t i = 0; i < n; i++)
+		for (size_t j = 0; j < n; j++) {
+			rat_mul(got, ops[i], ops[j]);
+			mpq_mul(want, ops[i], ops[j]);
+			ck_assert_msg(mpq_equal(got, want), "rat_mul differs from mpq_mul at %zu, %zu", i, j);
+			rat_add(got, ops[i], ops[j]);
+			mpq_add(want, ops[i], ops[j]);
+			ck_assert_msg(mpq_equal(got, want), "rat_add differs from mpq_add at %zu, %zu", i, j);
+			if (mpq_sgn(ops[j]) != 0) {
+				rat_div(got, ops[i], ops[j]);
+				mpq_div(want, ops[i], ops[j]);
+				ck_assert_msg(mpq_equal(got, want), "rat_div differs from mpq_div at %zu, %zu", i, j);
+			}
+			int c = rat_cmp(ops[i], ops[j]), w = mpq_cmp(ops[i], ops[j]);
+			ck_assert_msg((c > 0) == (w > 0) && (c < 0) == (w < 0), "rat_cmp differs at %zu, %zu", i, j);
+			/* the result may be an operand (the constructors accumulate in place) */
+			mpq_set(got, ops[i]);
+			rat_mul(got, got, ops[j]);
+			mpq_mul(want, ops[i], ops[j]);
+			ck_assert_msg(mpq_equal(got, want), "rat_mul in place differs at %zu, %zu", i, j);
+			mpq_set(got, ops[i]);
+			rat_add(got, got, ops[j]);
+			mpq_add(want, ops[i], ops[j]);
+			ck_assert_msg(mpq_equal(got, want), "rat_add in place differs at %zu, %zu", i, j);
+			compared++;
+		}
+	ck_assert_uint_eq(compared, n * n);
+	/* results stay canonical: a product that cancels to an integer has denominator 1 */
+	mpq_set_str(got, "2/3", 10);
+	mpq_set_str(want, "3/2", 10);
+	rat_mul(got, got, want);
+	ck_assert(mpq_cmp_ui(got, 1, 1) == 0 && mpz_cmp_ui(mpq_denref(got), 1) == 0);
+	for (size_t i = 0; i < n; i++)
+		mpq_clear(ops[i]);
+	mpq_clears(got, want, NULL);
+}
+END_TEST
+
 Suite *rat_suite(void)
 {
 	Suite *suite = suite_create("rat");
@@ -301,6 +370,7 @@ Suite *rat_suite(void)
 	tcase_add_test(tc, test_root_exact);
 	tcase_add_test(tc, test_conversions);
 	tcase_add_test(tc, test_to_double_rounding);
+	tcase_add_test(tc, test_fast_paths_match_gmp);
 	suite_add_tcase(suite, tc);
 	return suite;
 }
