@@ -46,9 +46,7 @@ struct dnode {
 typedef struct printer {
 	expr_ctx *ctx;
 	prn_format format;
-	dnode **arena;	    /* every node made, for printer_free */
-	size_t narena, caparena;
-	dnode **blocks;	    /* nodes come from blocks, each twice the last */
+	dnode **blocks;	    /* every node made: blocks of 8, 16, 32, ... nodes */
 	size_t nblocks, block_used, block_size;
 	expr_map rank_memo; /* node -> NUM holding its max symbol rank */
 	bool frac_part;	    /* LaTeX: writing the only factor of a \\frac part */
@@ -74,26 +72,22 @@ static dnode *dnew(printer *p, dkind kind)
 	d->kind = kind;
 	if (kind == D_NUM || kind == D_PROD)
 		mpq_init(d->num);
-	if (p->narena == p->caparena) {
-		p->caparena = p->caparena ? p->caparena * 2 : 64;
-		p->arena = xreallocarray(p->arena, p->caparena, sizeof *p->arena);
-	}
-	p->arena[p->narena++] = d;
 	return d;
 }
 
 static void printer_free(printer *p)
 {
-	for (size_t i = 0; i < p->narena; i++) {
-		dnode *d = p->arena[i];
-		if (d->kind == D_NUM || d->kind == D_PROD)
-			mpq_clear(d->num);
-		free(d->items);
-		free(d->factors);
+	for (size_t b = 0, size = 8; b < p->nblocks; b++, size *= 2) {
+		size_t used = b + 1 == p->nblocks ? p->block_used : size;
+		for (size_t i = 0; i < used; i++) {
+			dnode *d = &p->blocks[b][i];
+			if (d->kind == D_NUM || d->kind == D_PROD)
+				mpq_clear(d->num);
+			free(d->items);
+			free(d->factors);
+		}
+		free(p->blocks[b]);
 	}
-	free(p->arena);
-	for (size_t i = 0; i < p->nblocks; i++)
-		free(p->blocks[i]);
 	free(p->blocks);
 	expr_map_free(&p->rank_memo);
 }
