@@ -629,6 +629,27 @@ static void scheme_step(const plan *p, scheme *s, size_t B, double h)
 	s->t += h;
 	scheme_eval_f(p, s, B, s->fnext);
 	const double *f0 = s->fcur, *drift = s->claim, *f1 = s->fnext;
+	if (nn == 1) {
+		/* the loop below for one noise, the same operations in the same order
+		 * (so the same bits), written so the compiler can keep it in registers */
+		const double *restrict b0 = s->claim + B, *restrict dw0 = s->dw;
+		double *restrict cov = s->cov, *restrict qv = s->qv, *restrict integ = s->integ;
+		double *restrict resid = s->resid, *restrict fv = s->fv, *restrict magsum = s->mag;
+		const double rho = p->rho[0];
+		for (size_t q = 0; q < B; q++) {
+			double df = f1[q] - f0[q], ba = b0[q], dwa = dw0[q];
+			double ca = 0 + rho * ba;
+			double g2 = 0 + ba * ca, bdw = 0 + ba * dwa;
+			cov[q] += df * dwa - ca * h;
+			double mag = 0 + (fabs(df * dwa) + fabs(ca) * h);
+			qv[q] += df * df;
+			integ[q] += g2 * h;
+			resid[q] += df - drift[q] * h - bdw;
+			fv[q] += fabs(df);
+			magsum[q] += mag + df * df + fabs(g2) * h + fabs(df) + fabs(drift[q]) * h + fabs(bdw);
+		}
+		goto swap;
+	}
 	for (size_t q = 0; q < B; q++) {
 		double df = f1[q] - f0[q], g2 = 0, bdw = 0, mag = 0;
 		for (size_t a = 0; a < nn; a++) {
@@ -646,6 +667,7 @@ static void scheme_step(const plan *p, scheme *s, size_t B, double h)
 		s->fv[q] += fabs(df);
 		s->mag[q] += mag + df * df + fabs(g2) * h + fabs(df) + fabs(drift[q]) * h + fabs(bdw);
 	}
+swap:;
 	double *swap = s->fcur;
 	s->fcur = s->fnext;
 	s->fnext = swap;
