@@ -18,6 +18,7 @@ void model_free(model *m)
 	for (size_t i = 0; i < m->nentries; i++)
 		free(m->entries[i].name);
 	free(m->entries);
+	free(m->name_index);
 	free(m->noises);
 	free(m->corr);
 	for (size_t i = 0; i < m->nsdes; i++)
@@ -32,12 +33,42 @@ void model_free(model *m)
 	memset(m, 0, sizeof *m);
 }
 
+static size_t name_hash(const char *name)
+{
+	size_t h = 14695981039346656037u;
+	for (; *name; name++)
+		h = (h ^ (unsigned char)*name) * 1099511628211u;
+	return h;
+}
+
+/* The slot of name in the index: its entry, or the empty slot where it goes. */
+static size_t name_slot(const model *m, const char *name)
+{
+	size_t mask = m->name_index_cap - 1, slot = name_hash(name) & mask;
+	while (m->name_index[slot] && strcmp(m->entries[m->name_index[slot] - 1].name, name) != 0)
+		slot = (slot + 1) & mask;
+	return slot;
+}
+
+/* Rebuild the index for the current entries, at most half full. */
+static void reindex(model *m)
+{
+	size_t cap = 64;
+	while (cap < 2 * (m->nentries + 1))
+		cap *= 2;
+	free(m->name_index);
+	m->name_index = xcalloc(cap, sizeof *m->name_index);
+	m->name_index_cap = cap;
+	for (size_t i = 0; i < m->nentries; i++)
+		m->name_index[name_slot(m, m->entries[i].name)] = i + 1;
+}
+
 model_entry *model_lookup(model *m, const char *name)
 {
-	for (size_t i = 0; i < m->nentries; i++)
-		if (strcmp(m->entries[i].name, name) == 0)
-			return &m->entries[i];
-	return NULL;
+	if (m->nentries == 0)
+		return NULL;
+	size_t slot = name_slot(m, name);
+	return m->name_index[slot] ? &m->entries[m->name_index[slot] - 1] : NULL;
 }
 
 model_entry *model_add(model *m, const char *name, model_kind kind, const expr *sym)
@@ -51,10 +82,23 @@ model_entry *model_add(model *m, const char *name, model_kind kind, const expr *
 		entry = &m->entries[m->nentries++];
 		memset(entry, 0, sizeof *entry);
 		entry->name = xstrdup(name);
+		if (2 * (m->nentries + 1) > m->name_index_cap)
+			reindex(m);
+		else
+			m->name_index[name_slot(m, name)] = m->nentries;
 	}
 	entry->kind = kind;
 	entry->sym = sym;
 	return entry;
+}
+
+void model_forget(model *m, model_entry *entry)
+{
+	size_t index = (size_t)(entry - m->entries);
+	free(entry->name);
+	memmove(entry, entry + 1, (m->nentries - index - 1) * sizeof *entry);
+	m->nentries--;
+	reindex(m);
 }
 
 const char *model_kind_name(model_kind kind)

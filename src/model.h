@@ -54,6 +54,8 @@ typedef struct model {
 	const expr *time;
 	model_entry *entries;
 	size_t nentries, capentries;
+	size_t *name_index;  /* open addressing over entries by name: entry index + 1, 0 empty */
+	size_t name_index_cap;
 	const expr **noises; /* in declaration order */
 	size_t nnoises;
 	const expr **corr;   /* nnoises x nnoises, row-major; NULL entries mean 0 */
@@ -67,6 +69,8 @@ void model_init(model *m, expr_ctx *ctx);
 void model_free(model *m);
 
 model_entry *model_lookup(model *m, const char *name);
+/* Remove an entry (the last declaration of a statement that failed). */
+void model_forget(model *m, model_entry *entry);
 model_entry *model_add(model *m, const char *name, model_kind kind, const expr *sym);
 const char *model_kind_name(model_kind kind);
 

@@ -1624,10 +1624,7 @@ static bool run_sde(session *s, const ast_node *st, bool stratonovich)
 		} else {
 			/* forget the name again */
 			entry->kind = MODEL_ARG;
-			size_t index = (size_t)(entry - m->entries);
-			free(entry->name);
-			memmove(entry, entry + 1, (m->nentries - index - 1) * sizeof *entry);
-			m->nentries--;
+			model_forget(m, entry);
 		}
 		expr_sym_set_rank(s->ctx, sym, PRN_RANK_PARAM);
 		return false;
@@ -1842,10 +1839,7 @@ static bool run_state(session *s, const ast_node *st)
 		*e = saved;
 		e->name = saved.name;
 	} else {
-		size_t index = (size_t)(e - m->entries);
-		free(e->name);
-		memmove(e, e + 1, (m->nentries - index - 1) * sizeof *e);
-		m->nentries--;
+		model_forget(m, e);
 	}
 	if (!ok) {
 		expr_sym_set_sign(ctx, new_sym, keep_sign);
