@@ -592,6 +592,56 @@ static void scheme_free(scheme *s)
 	free(s->below);
 }
 
+/* The per-path sums of one step: df = f(X_next) - f(X), the realised QV
+ * against the integral of g'Rg, the martingale residual, the covariation
+ * with each noise, the first variation and the rounding magnitude. */
+static void step_stats(const plan *p, scheme *s, size_t B, double h)
+{
+	size_t nn = p->nnoise;
+	const double *f0 = s->fcur, *drift = s->claim, *f1 = s->fnext;
+	for (size_t q = 0; q < B; q++) {
+		double df = f1[q] - f0[q], g2 = 0, bdw = 0, mag = 0;
+		for (size_t a = 0; a < nn; a++) {
+			double ba = s->claim[(1 + a) * B + q], dwa = s->dw[a * B + q], ca = 0;
+			for (size_t b = 0; b < nn; b++)
+				ca += p->rho[a * nn + b] * s->claim[(1 + b) * B + q];
+			g2 += ba * ca;
+			bdw += ba * dwa;
+			s->cov[a * B + q] += df * dwa - ca * h;
+			mag += fabs(df * dwa) + fabs(ca) * h;
+		}
+		s->qv[q] += df * df;
+		s->integ[q] += g2 * h;
+		s->resid[q] += df - drift[q] * h - bdw;
+		s->fv[q] += fabs(df);
+		s->mag[q] += mag + df * df + fabs(g2) * h + fabs(df) + fabs(drift[q]) * h + fabs(bdw);
+	}
+}
+
+/* step_stats for one noise: the same operations in the same order (so the
+ * same bits), without the loops over noise pairs, so the compiler keeps the
+ * loop in registers. */
+static void step_stats_one_noise(const plan *p, scheme *s, size_t B, double h)
+{
+	const double *f0 = s->fcur, *drift = s->claim, *f1 = s->fnext;
+	const double *restrict b0 = s->claim + B, *restrict dw0 = s->dw;
+	double *restrict cov = s->cov, *restrict qv = s->qv, *restrict integ = s->integ;
+	double *restrict resid = s->resid, *restrict fv = s->fv, *restrict magsum = s->mag;
+	const double rho = p->rho[0];
+	for (size_t q = 0; q < B; q++) {
+		double df = f1[q] - f0[q], ba = b0[q], dwa = dw0[q];
+		double ca = 0 + rho * ba;
+		double g2 = 0 + ba * ca, bdw = 0 + ba * dwa;
+		cov[q] += df * dwa - ca * h;
+		double mag = 0 + (fabs(df * dwa) + fabs(ca) * h);
+		qv[q] += df * df;
+		integ[q] += g2 * h;
+		resid[q] += df - drift[q] * h - bdw;
+		fv[q] += fabs(df);
+		magsum[q] += mag + df * df + fabs(g2) * h + fabs(df) + fabs(drift[q]) * h + fabs(bdw);
+	}
+}
+
 /* One step of size h with the increments s->dw: X += a h + b dW (+ Milstein),
  * the coefficients at max(X, 0) for truncated states; then the sums. */
 static void scheme_step(const plan *p, scheme *s, size_t B, double h)
@@ -628,46 +678,10 @@ static void scheme_step(const plan *p, scheme *s, size_t B, double h)
 	}
 	s->t += h;
 	scheme_eval_f(p, s, B, s->fnext);
-	const double *f0 = s->fcur, *drift = s->claim, *f1 = s->fnext;
-	if (nn == 1) {
-		/* the loop below for one noise, the same operations in the same order
-		 * (so the same bits), written so the compiler can keep it in registers */
-		const double *restrict b0 = s->claim + B, *restrict dw0 = s->dw;
-		double *restrict cov = s->cov, *restrict qv = s->qv, *restrict integ = s->integ;
-		double *restrict resid = s->resid, *restrict fv = s->fv, *restrict magsum = s->mag;
-		const double rho = p->rho[0];
-		for (size_t q = 0; q < B; q++) {
-			double df = f1[q] - f0[q], ba = b0[q], dwa = dw0[q];
-			double ca = 0 + rho * ba;
-			double g2 = 0 + ba * ca, bdw = 0 + ba * dwa;
-			cov[q] += df * dwa - ca * h;
-			double mag = 0 + (fabs(df * dwa) + fabs(ca) * h);
-			qv[q] += df * df;
-			integ[q] += g2 * h;
-			resid[q] += df - drift[q] * h - bdw;
-			fv[q] += fabs(df);
-			magsum[q] += mag + df * df + fabs(g2) * h + fabs(df) + fabs(drift[q]) * h + fabs(bdw);
-		}
-		goto swap;
-	}
-	for (size_t q = 0; q < B; q++) {
-		double df = f1[q] - f0[q], g2 = 0, bdw = 0, mag = 0;
-		for (size_t a = 0; a < nn; a++) {
-			double ba = s->claim[(1 + a) * B + q], dwa = s->dw[a * B + q], ca = 0;
-			for (size_t b = 0; b < nn; b++)
-				ca += p->rho[a * nn + b] * s->claim[(1 + b) * B + q];
-			g2 += ba * ca;
-			bdw += ba * dwa;
-			s->cov[a * B + q] += df * dwa - ca * h;
-			mag += fabs(df * dwa) + fabs(ca) * h;
-		}
-		s->qv[q] += df * df;
-		s->integ[q] += g2 * h;
-		s->resid[q] += df - drift[q] * h - bdw;
-		s->fv[q] += fabs(df);
-		s->mag[q] += mag + df * df + fabs(g2) * h + fabs(df) + fabs(drift[q]) * h + fabs(bdw);
-	}
-swap:;
+	if (nn == 1)
+		step_stats_one_noise(p, s, B, h);
+	else
+		step_stats(p, s, B, h);
 	double *swap = s->fcur;
 	s->fcur = s->fnext;
 	s->fnext = swap;
