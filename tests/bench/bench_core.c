@@ -42,6 +42,7 @@
 #include "ito.h"
 #include "model.h"
 #include "print.h"
+#include "bench_clock.h"
 #include "session.h"
 #include "xalloc.h"
 
@@ -72,27 +73,6 @@ typedef struct bench_case {
 	char form; /* for a: 'n' numeric, 's' shared symbols, 'd' distinct */
 	int n;
 } bench_case;
-
-static double now(void)
-{
-	struct timespec ts;
-	clock_gettime(CLOCK_MONOTONIC, &ts);
-	return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
-
-static int compare_doubles(const void *a, const void *b)
-{
-	double x = *(const double *)a, y = *(const double *)b;
-	return (x > y) - (x < y);
-}
-
-static double median(double *values, int n)
-{
-	if (n <= 0)
-		return -1;
-	qsort(values, (size_t)n, sizeof *values, compare_doubles);
-	return n % 2 ? values[n / 2] : 0.5 * (values[n / 2 - 1] + values[n / 2]);
-}
 
 /* ------------------------------------------------------------ case a */
 

@@ -15,22 +15,10 @@
 #include <string.h>
 #include <time.h>
 
+#include "bench_clock.h"
 #include "session.h"
 
 #define MAX_REPS 1001
-
-static double now(void)
-{
-	struct timespec ts;
-	clock_gettime(CLOCK_MONOTONIC, &ts);
-	return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
-
-static int compare_doubles(const void *a, const void *b)
-{
-	double x = *(const double *)a, y = *(const double *)b;
-	return (x > y) - (x < y);
-}
 
 /* One repetition: the seconds of the query, or -1 when a statement failed. */
 static double query_once(const char *setup, const char *query)
@@ -68,8 +56,6 @@ int main(int argc, char **argv)
 		if (times[k] < 0)
 			return 2;
 	}
-	qsort(times, (size_t)reps, sizeof *times, compare_doubles);
-	double middle = reps % 2 ? times[reps / 2] : 0.5 * (times[reps / 2 - 1] + times[reps / 2]);
-	printf("%.6g\n", middle);
+	printf("%.6g\n", median(times, reps));
 	return 0;
 }

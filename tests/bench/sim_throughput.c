@@ -46,17 +46,11 @@
 #include <omp.h>
 #endif
 
+#include "bench_clock.h"
 #include "session.h"
 #include "sim.h"
 
 enum { BLOCK = 256, ROUND = 32, MAXN = 2 };
-
-static double now(void)
-{
-	struct timespec ts;
-	clock_gettime(CLOCK_MONOTONIC, &ts);
-	return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
 
 static void set_threads(int n)
 {
@@ -312,12 +306,6 @@ static double hand_check(bool heston, long steps, long paths, stats *out)
 
 /* ------------------------------------------------------------------ the run */
 
-static int compare(const void *a, const void *b)
-{
-	double x = *(const double *)a, y = *(const double *)b;
-	return (x > y) - (x < y);
-}
-
 static double median_time(bool itox, bool heston, long steps, long paths, int reps, stats *out)
 {
 	double times[16];
@@ -325,8 +313,7 @@ static double median_time(bool itox, bool heston, long steps, long paths, int re
 		reps = 16;
 	for (int r = 0; r < reps; r++)
 		times[r] = itox ? itox_check(heston, steps, paths, out) : hand_check(heston, steps, paths, out);
-	qsort(times, (size_t)reps, sizeof *times, compare);
-	return times[reps / 2];
+	return median(times, reps);
 }
 
 static void print_stats(const char *who, const stats *s)
