@@ -40,6 +40,8 @@
  * in block order, so the result does not depend on the number of threads.
  * Blocks run in rounds of CHECK_ROUND, so memory does not grow with paths.
  */
+#include <config.h>
+
 #include "crosscheck.h"
 
 #include <float.h>
@@ -52,6 +54,7 @@
 #include "eval.h"
 #include "print.h"
 #include "sim.h"
+#include "vector.h"
 #include "xalloc.h"
 
 enum { CHECK_BLOCK = 256, CHECK_ROUND = 32 };
@@ -369,6 +372,10 @@ static char *plan_programs(plan *p)
 	free(claim);
 	if (!p->cprog)
 		return cannot_evaluate(p->ctx, bad);
+	/* in every block call the paths share t and the parameters */
+	eval_set_uniform(p->coef, np);
+	eval_set_uniform(p->fprog, np);
+	eval_set_uniform(p->cprog, np);
 	return NULL;
 }
 
@@ -533,7 +540,8 @@ typedef struct scheme {
 	double t;
 	double *x, *vars, *cout, *claim, *fcur, *fnext, *dw;
 	double *qv, *integ, *resid, *fv, *cov, *mag;
-	bool *below;
+	double *work; /* 5 B: step_stats' per-path scratch */
+	unsigned char *below;
 } scheme;
 
 static void scheme_eval_f(const plan *p, scheme *s, size_t B, double *out)
@@ -565,6 +573,7 @@ static void scheme_init(const plan *p, scheme *s, size_t B, long ratio)
 	s->mag = xcalloc(B, sizeof *s->mag);
 	s->cov = xcalloc((nn + 1) * B, sizeof *s->cov);
 	s->below = xcalloc(B, sizeof *s->below);
+	s->work = xmalloc(5 * B * sizeof *s->work);
 	for (size_t i = 0; i < np; i++)
 		for (size_t q = 0; q < B; q++)
 			s->x[i * B + q] = p->point[i];
@@ -590,44 +599,68 @@ static void scheme_free(scheme *s)
 	free(s->mag);
 	free(s->cov);
 	free(s->below);
+	free(s->work);
 }
 
 /* The per-path sums of one step: df = f(X_next) - f(X), the realised QV
  * against the integral of g'Rg, the martingale residual, the covariation
- * with each noise, the first variation and the rounding magnitude. */
-static void step_stats(const plan *p, scheme *s, size_t B, double h)
+ * with each noise, the first variation and the rounding magnitude.  Written
+ * as passes over the block (one per noise), each a plain loop the compiler
+ * vectorises. */
+ITOX_VECTOR static void step_stats(const plan *p, scheme *s, size_t B, double h)
 {
 	size_t nn = p->nnoise;
-	const double *f0 = s->fcur, *drift = s->claim, *f1 = s->fnext;
+	const double *restrict f0 = s->fcur, *restrict f1 = s->fnext, *restrict drift = s->claim;
+	double *restrict df = s->work, *restrict g2 = df + B, *restrict bdw = g2 + B, *restrict mag = bdw + B;
+	double *restrict ca = mag + B;
+	ITOX_INDEPENDENT
 	for (size_t q = 0; q < B; q++) {
-		double df = f1[q] - f0[q], g2 = 0, bdw = 0, mag = 0;
-		for (size_t a = 0; a < nn; a++) {
-			double ba = s->claim[(1 + a) * B + q], dwa = s->dw[a * B + q], ca = 0;
-			for (size_t b = 0; b < nn; b++)
-				ca += p->rho[a * nn + b] * s->claim[(1 + b) * B + q];
-			g2 += ba * ca;
-			bdw += ba * dwa;
-			s->cov[a * B + q] += df * dwa - ca * h;
-			mag += fabs(df * dwa) + fabs(ca) * h;
+		df[q] = f1[q] - f0[q];
+		g2[q] = bdw[q] = mag[q] = 0;
+	}
+	for (size_t a = 0; a < nn; a++) {
+		const double *restrict ba = s->claim + (1 + a) * B, *restrict dwa = s->dw + a * B;
+		double *restrict cov = s->cov + a * B;
+		ITOX_INDEPENDENT
+		for (size_t q = 0; q < B; q++)
+			ca[q] = 0;
+		for (size_t b = 0; b < nn; b++) {
+			const double rho = p->rho[a * nn + b], *restrict bb = s->claim + (1 + b) * B;
+			ITOX_INDEPENDENT
+			for (size_t q = 0; q < B; q++)
+				ca[q] += rho * bb[q];
 		}
-		s->qv[q] += df * df;
-		s->integ[q] += g2 * h;
-		s->resid[q] += df - drift[q] * h - bdw;
-		s->fv[q] += fabs(df);
-		s->mag[q] += mag + df * df + fabs(g2) * h + fabs(df) + fabs(drift[q]) * h + fabs(bdw);
+		ITOX_INDEPENDENT
+		for (size_t q = 0; q < B; q++) {
+			g2[q] += ba[q] * ca[q];
+			bdw[q] += ba[q] * dwa[q];
+			cov[q] += df[q] * dwa[q] - ca[q] * h;
+			mag[q] += fabs(df[q] * dwa[q]) + fabs(ca[q]) * h;
+		}
+	}
+	double *restrict qv = s->qv, *restrict integ = s->integ, *restrict resid = s->resid;
+	double *restrict fv = s->fv, *restrict magsum = s->mag;
+	ITOX_INDEPENDENT
+	for (size_t q = 0; q < B; q++) {
+		double d = df[q];
+		qv[q] += d * d;
+		integ[q] += g2[q] * h;
+		resid[q] += d - drift[q] * h - bdw[q];
+		fv[q] += fabs(d);
+		magsum[q] += mag[q] + d * d + fabs(g2[q]) * h + fabs(d) + fabs(drift[q]) * h + fabs(bdw[q]);
 	}
 }
 
 /* step_stats for one noise: the same operations in the same order (so the
- * same bits), without the loops over noise pairs, so the compiler keeps the
- * loop in registers. */
-static void step_stats_one_noise(const plan *p, scheme *s, size_t B, double h)
+ * same bits) in one pass. */
+ITOX_VECTOR static void step_stats_one_noise(const plan *p, scheme *s, size_t B, double h)
 {
-	const double *f0 = s->fcur, *drift = s->claim, *f1 = s->fnext;
+	const double *restrict f0 = s->fcur, *restrict drift = s->claim, *restrict f1 = s->fnext;
 	const double *restrict b0 = s->claim + B, *restrict dw0 = s->dw;
 	double *restrict cov = s->cov, *restrict qv = s->qv, *restrict integ = s->integ;
 	double *restrict resid = s->resid, *restrict fv = s->fv, *restrict magsum = s->mag;
 	const double rho = p->rho[0];
+	ITOX_INDEPENDENT
 	for (size_t q = 0; q < B; q++) {
 		double df = f1[q] - f0[q], ba = b0[q], dwa = dw0[q];
 		double ca = 0 + rho * ba;
@@ -644,37 +677,50 @@ static void step_stats_one_noise(const plan *p, scheme *s, size_t B, double h)
 
 /* One step of size h with the increments s->dw: X += a h + b dW (+ Milstein),
  * the coefficients at max(X, 0) for truncated states; then the sums. */
-static void scheme_step(const plan *p, scheme *s, size_t B, double h)
+ITOX_VECTOR static void scheme_step(const plan *p, scheme *s, size_t B, double h)
 {
 	size_t np = p->nproc, nn = p->nnoise;
-	for (size_t i = 0; i < np; i++)
-		for (size_t q = 0; q < B; q++) {
-			double x = s->x[i * B + q];
-			s->vars[i * B + q] = p->truncate[i] && x < 0 ? 0 : x;
-		}
+	for (size_t i = 0; i < np; i++) {
+		const double *restrict x = s->x + i * B;
+		double *restrict v = s->vars + i * B;
+		if (p->truncate[i])
+			ITOX_INDEPENDENT
+			for (size_t q = 0; q < B; q++)
+				v[q] = x[q] < 0 ? 0 : x[q];
+		else
+			memcpy(v, x, B * sizeof *v);
+	}
+	double *restrict tv = s->vars + np * B;
+	ITOX_INDEPENDENT
 	for (size_t q = 0; q < B; q++)
-		s->vars[np * B + q] = s->t;
+		tv[q] = s->t;
 	eval_run(p->coef, B, s->vars, s->cout);
 	eval_run(p->cprog, B, s->vars, s->claim);
 	for (size_t i = 0; i < np; i++) {
-		double *x = s->x + i * B;
-		const double *drift = s->cout + i * B;
+		double *restrict x = s->x + i * B;
+		const double *restrict drift = s->cout + i * B;
+		ITOX_INDEPENDENT
 		for (size_t q = 0; q < B; q++)
 			x[q] += drift[q] * h;
 		for (size_t a = 0; a < nn; a++) {
-			const double *b = s->cout + (np + i * nn + a) * B, *dw = s->dw + a * B;
+			const double *restrict b = s->cout + (np + i * nn + a) * B, *restrict dw = s->dw + a * B;
+			ITOX_INDEPENDENT
 			for (size_t q = 0; q < B; q++)
 				x[q] += b[q] * dw[q];
 		}
 		if (p->mil_noise[i] >= 0) {
-			const double *c = s->cout + (np + np * nn + i) * B, *dw = s->dw + (size_t)p->mil_noise[i] * B;
+			const double *restrict c = s->cout + (np + np * nn + i) * B;
+			const double *restrict dw = s->dw + (size_t)p->mil_noise[i] * B;
+			ITOX_INDEPENDENT
 			for (size_t q = 0; q < B; q++)
 				x[q] += c[q] * (dw[q] * dw[q] - h);
 		}
-		if (p->truncate[i])
+		if (p->truncate[i]) {
+			unsigned char *restrict below = s->below;
+			ITOX_INDEPENDENT
 			for (size_t q = 0; q < B; q++)
-				if (x[q] < 0)
-					s->below[q] = true;
+				below[q] |= x[q] < 0;
+		}
 	}
 	s->t += h;
 	scheme_eval_f(p, s, B, s->fnext);
@@ -689,7 +735,7 @@ static void scheme_step(const plan *p, scheme *s, size_t B, double h)
 
 /* Run B paths over nsteps fine steps of size dt for all schemes at once:
  * dW = sqrt(dt) L Z with Z independent standard normals. */
-static void block_paths(const plan *p, volatile sig_atomic_t *interrupt, sim_rng *rng, size_t B, long nsteps,
+ITOX_VECTOR static void block_paths(const plan *p, volatile sig_atomic_t *interrupt, sim_rng *rng, size_t B, long nsteps,
 			double dt, size_t nschemes, scheme *schemes)
 {
 	size_t nn = p->nnoise;
@@ -698,22 +744,34 @@ static void block_paths(const plan *p, volatile sig_atomic_t *interrupt, sim_rng
 	for (long k = 0; k < nsteps; k++) {
 		if (interrupt && k % 64 == 0 && *interrupt)
 			break; /* the result is dropped: run_blocks reports the interrupt */
-		for (size_t q = 0; q < B; q++)
-			for (size_t a = 0; a < nn; a++)
-				z[a * B + q] = sim_normal(rng);
+		sim_normals(rng, nn * B, z);
 		for (size_t si = 0; si < nschemes; si++) {
 			scheme *s = &schemes[si];
-			for (size_t a = 0; a < nn; a++)
+			for (size_t a = 0; a < nn; a++) {
+				double *restrict dw = s->dw + a * B;
+				bool fresh = s->pending == 0; /* the first increment of a step is stored, not added */
 				for (size_t c = 0; c <= a; c++) {
 					double l = p->chol[a * nn + c] * root;
-					if (l != 0)
+					const double *restrict zc = z + c * B;
+					if (l == 0)
+						continue;
+					if (fresh) {
+						ITOX_INDEPENDENT
 						for (size_t q = 0; q < B; q++)
-							s->dw[a * B + q] += l * z[c * B + q];
+							dw[q] = l * zc[q];
+					} else {
+						ITOX_INDEPENDENT
+						for (size_t q = 0; q < B; q++)
+							dw[q] += l * zc[q];
+					}
+					fresh = false;
 				}
+				if (fresh)
+					memset(dw, 0, B * sizeof *dw);
+			}
 			if (++s->pending == s->ratio || k == nsteps - 1) {
 				scheme_step(p, s, B, (double)s->pending * dt);
 				s->pending = 0;
-				memset(s->dw, 0, nn * B * sizeof *s->dw);
 			}
 		}
 	}

@@ -1,12 +1,17 @@
 /* eval.c - compile expressions to straight-line code and run it over blocks. */
+#include <config.h>
+
 #include "eval.h"
 
+#include <float.h>
 #include <math.h>
+#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "expr-internal.h"
 #include "rat.h"
+#include "vector.h"
 #include "xalloc.h"
 
 typedef enum op { OP_CONST, OP_VAR, OP_ADD, OP_MUL, OP_POWI, OP_POWD, OP_POWX, OP_SQRT, OP_FUN } op;
@@ -20,6 +25,9 @@ typedef struct instr {
 	size_t nlist;
 	expr_builtin fn;  /* OP_FUN */
 	size_t var;	  /* OP_VAR */
+	bool uniform;	  /* the same at every point of a call (eval_set_uniform) */
+	size_t direct;	  /* o + 1 when written straight into output o, else 0 */
+	bool spread;	  /* uniform, and read by an instruction computed per point */
 } instr;
 
 struct eval_prog {
@@ -45,6 +53,7 @@ static size_t emit_instr(compiler *c, instr in)
 		p->capcode = p->capcode ? p->capcode * 2 : 64;
 		p->code = xreallocarray(p->code, p->capcode, sizeof *p->code);
 	}
+	in.uniform = in.code == OP_CONST;
 	p->code[p->ncode] = in;
 	return p->ncode++;
 }
@@ -134,6 +143,34 @@ static bool compile_node(compiler *c, const expr *e, size_t *reg)
 	return true;
 }
 
+/* An instruction computed per point whose register is an output writes its
+ * result straight into the first such output (eval_run then copies nothing
+ * for it); constants, uniform instructions and variables are copied. */
+static void assign_outputs(eval_prog *prog)
+{
+	for (size_t i = 0; i < prog->ncode; i++)
+		prog->code[i].direct = 0, prog->code[i].spread = false;
+	for (size_t i = 0; i < prog->ncode; i++) {
+		const instr *in = &prog->code[i];
+		if (in->uniform)
+			continue;
+		if (in->code == OP_ADD || in->code == OP_MUL)
+			for (size_t k = 0; k < in->nlist; k++)
+				prog->code[in->list[k]].spread = true;
+		else if (in->code == OP_POWX)
+			prog->code[in->a].spread = prog->code[in->b].spread = true;
+		else if (in->code != OP_CONST && in->code != OP_VAR)
+			prog->code[in->a].spread = true;
+	}
+	for (size_t i = 0; i < prog->ncode; i++)
+		prog->code[i].spread = prog->code[i].spread && prog->code[i].uniform;
+	for (size_t o = 0; o < prog->nout; o++) {
+		instr *in = &prog->code[prog->outputs[o]];
+		if (!in->uniform && in->code != OP_VAR && !in->direct)
+			in->direct = o + 1;
+	}
+}
+
 eval_prog *eval_compile(expr_ctx *ctx, size_t nout, const expr *const *outputs, size_t nvars,
 			const expr *const *vars, const expr **bad)
 {
@@ -152,6 +189,7 @@ eval_prog *eval_compile(expr_ctx *ctx, size_t nout, const expr *const *outputs, 
 		}
 	}
 	expr_map_free(&c.regs);
+	assign_outputs(prog);
 	return prog;
 }
 
@@ -212,6 +250,52 @@ static double powi(double x, long n)
 
 enum { BLOCK = 64 };
 
+/* log over n points, written so the compiler can vectorise it: the method
+ * of fdlibm's e_log.c (Sun Microsystems, 1993; from memory), without its
+ * branches.  x = 2^k m with m in [sqrt(2)/2, sqrt(2)), f = m - 1 (exact),
+ * s = f/(2 + f), log(1 + f) = f - (f^2/2 - s (f^2/2 + R(s^2))) with R the
+ * degree-14 even polynomial Lg1 s^2 + ... + Lg7 s^14, and k log 2 added in two
+ * parts (ln2_hi has trailing zero bits, so k ln2_hi is exact).  fdlibm bounds
+ * the error below 1 ulp; the unit tests compare with libm.  Zero, negative,
+ * subnormal, infinite and NaN inputs go to libm's log afterwards. */
+ITOX_VECTOR static void log_block(size_t n, const double *restrict x, double *restrict r)
+{
+	static const double ln2_hi = 6.93147180369123816490e-01, ln2_lo = 1.90821492927058770002e-10;
+	static const double lg1 = 6.666666666666735130e-01, lg2 = 3.999999999940941908e-01,
+			    lg3 = 2.857142874366239149e-01, lg4 = 2.222219843214978396e-01,
+			    lg5 = 1.818357216161805012e-01, lg6 = 1.531383769920937332e-01,
+			    lg7 = 1.479819860511658591e-01;
+	const uint64_t mantissa = UINT64_C(0x000fffffffffffff), one = UINT64_C(0x3ff0000000000000);
+	const uint64_t magic = UINT64_C(0x4330000000000000); /* 2^52: its low bits hold an integer */
+	uint64_t odd = 0;
+	/* 2^52 - 1 - the fraction bits of sqrt(2) (0x3ff6a09e667f3bcd, rounded):
+	 * adding it carries into bit 52 exactly when the fraction exceeds them */
+	const uint64_t above = (UINT64_C(1) << 52) - 1 - UINT64_C(0x0006a09e667f3bcd);
+	for (size_t p = 0; p < n; p++) {
+		uint64_t bits;
+		memcpy(&bits, &x[p], sizeof bits);
+		uint64_t frac = bits & mantissa;
+		uint64_t high = (frac + above) >> 52; /* 1 when 1.frac > sqrt(2): then m/2 and k + 1 */
+		uint64_t mbits = (frac | one) - (high << 52);
+		uint64_t ebits = ((bits >> 52) + high) | magic;
+		double m, biased;
+		memcpy(&m, &mbits, sizeof m);
+		memcpy(&biased, &ebits, sizeof biased);
+		double k = biased - (0x1.0p52 + 1023.0);
+		double f = m - 1.0, s = f / (2.0 + f), z = s * s, w = z * z;
+		double t1 = w * (lg2 + w * (lg4 + w * lg6));
+		double t2 = z * (lg1 + w * (lg3 + w * (lg5 + w * lg7)));
+		double hfsq = 0.5 * f * f;
+		r[p] = k * ln2_hi - ((hfsq - (s * (hfsq + (t1 + t2)) + k * ln2_lo)) - f);
+		uint64_t e = bits >> 52; /* sign and exponent: 1..2046 for positive normal numbers */
+		odd |= ((e - 1) >> 11) | ((e + 1) >> 11);
+	}
+	if (odd)
+		for (size_t p = 0; p < n; p++)
+			if (!(x[p] >= DBL_MIN && x[p] <= DBL_MAX))
+				r[p] = log(x[p]);
+}
+
 /* f(x) over n points, the switch outside the loop so each loop is plain. */
 static void apply_builtin_block(expr_builtin fn, size_t n, const double *x, double *r)
 {
@@ -221,8 +305,7 @@ static void apply_builtin_block(expr_builtin fn, size_t n, const double *x, doub
 			r[p] = exp(x[p]);
 		return;
 	case EXPR_F_LOG:
-		for (size_t p = 0; p < n; p++)
-			r[p] = log(x[p]);
+		log_block(n, x, r);
 		return;
 	default:
 		for (size_t p = 0; p < n; p++)
@@ -231,121 +314,182 @@ static void apply_builtin_block(expr_builtin fn, size_t n, const double *x, doub
 	}
 }
 
-/* Registers: instruction i writes regs + i*BLOCK, except that a variable is
- * read where it lies (src[i] points into vars) and a constant is filled
- * once per call.  Every instruction computes the same operations in the same
- * order as a plain left-to-right evaluation, so results do not depend on the
- * block size: a product c*x1*...*xk is ((c*x1)*x2)..., with c = 1 skipped
- * (1*x1 = x1 exactly), a sum ((x1 + x2) + x3)... */
-void eval_run(const eval_prog *prog, size_t npoints, const double *vars, double *outputs)
+/* One instruction over n points: r from the registers src. */
+ITOX_VECTOR static void run_instr(const instr *in, const double *const *src, double *r, size_t n)
+{
+	switch (in->code) {
+	case OP_CONST:
+	case OP_VAR:
+		break; /* placed by eval_run */
+	case OP_ADD: {
+		const double *x0 = src[in->list[0]];
+		if (in->nlist == 1) {
+			memcpy(r, x0, n * sizeof *r);
+			break;
+		}
+		const double *x1 = src[in->list[1]];
+		for (size_t p = 0; p < n; p++)
+			r[p] = x0[p] + x1[p];
+		for (size_t k = 2; k < in->nlist; k++) {
+			const double *x = src[in->list[k]];
+			for (size_t p = 0; p < n; p++)
+				r[p] += x[p];
+		}
+		break;
+	}
+	case OP_MUL: {
+		const double c = in->constant;
+		size_t k = 0;
+		if (in->nlist == 0) {
+			for (size_t p = 0; p < n; p++)
+				r[p] = c;
+		} else if (c == 1.0) {
+			const double *x0 = src[in->list[0]];
+			if (in->nlist >= 2) {
+				const double *x1 = src[in->list[1]];
+				for (size_t p = 0; p < n; p++)
+					r[p] = x0[p] * x1[p];
+				k = 2;
+			} else {
+				memcpy(r, x0, n * sizeof *r);
+				k = 1;
+			}
+		} else {
+			const double *x0 = src[in->list[0]];
+			for (size_t p = 0; p < n; p++)
+				r[p] = c * x0[p];
+			k = 1;
+		}
+		for (; k < in->nlist; k++) {
+			const double *x = src[in->list[k]];
+			for (size_t p = 0; p < n; p++)
+				r[p] *= x[p];
+		}
+		break;
+	}
+	case OP_POWI: {
+		const double *x = src[in->a];
+		if (in->power == 2)
+			for (size_t p = 0; p < n; p++)
+				r[p] = x[p] * x[p];
+		else if (in->power == -1)
+			for (size_t p = 0; p < n; p++)
+				r[p] = 1.0 / x[p];
+		else
+			for (size_t p = 0; p < n; p++)
+				r[p] = powi(x[p], in->power);
+		break;
+	}
+	case OP_SQRT: {
+		const double *x = src[in->a];
+		for (size_t p = 0; p < n; p++)
+			r[p] = sqrt(x[p]);
+		break;
+	}
+	case OP_POWD: {
+		const double *x = src[in->a];
+		for (size_t p = 0; p < n; p++)
+			r[p] = pow(x[p], in->constant);
+		break;
+	}
+	case OP_POWX: {
+		const double *x = src[in->a], *y = src[in->b];
+		for (size_t p = 0; p < n; p++)
+			r[p] = pow(x[p], y[p]);
+		break;
+	}
+	case OP_FUN:
+		apply_builtin_block(in->fn, n, src[in->a], r);
+		break;
+	}
+}
+
+void eval_set_uniform(eval_prog *prog, size_t first)
+{
+	for (size_t i = 0; i < prog->ncode; i++) {
+		instr *in = &prog->code[i];
+		bool u = true;
+		switch (in->code) {
+		case OP_CONST: break;
+		case OP_VAR: u = in->var >= first; break;
+		case OP_ADD:
+		case OP_MUL:
+			for (size_t k = 0; k < in->nlist; k++)
+				u = u && prog->code[in->list[k]].uniform;
+			break;
+		case OP_POWX: u = prog->code[in->a].uniform && prog->code[in->b].uniform; break;
+		default: u = prog->code[in->a].uniform; break;
+		}
+		in->uniform = u;
+	}
+	assign_outputs(prog);
+}
+
+/* Registers: instruction i writes regs + i*BLOCK, except that a variable
+ * that varies is read where it lies (src[i] points into vars), and an
+ * output computed per point is written where it belongs (assign_outputs).
+ * Constants and uniform instructions (eval_set_uniform) are computed once per
+ * call, at the first point; those that instructions per point read are
+ * spread over a block, uniform outputs filled.  Every instruction computes
+ * the same operations in the same order as a plain left-to-right
+ * evaluation, so results do not depend on the block size: a product
+ * c*x1*...*xk is ((c*x1)*x2)..., with c = 1 skipped (1*x1 = x1 exactly), a
+ * sum ((x1 + x2) + x3)... */
+enum { STACK_CODE = 16 };
+
+ITOX_VECTOR void eval_run(const eval_prog *prog, size_t npoints, const double *vars, double *outputs)
 {
 	size_t ncode = prog->ncode ? prog->ncode : 1;
-	double *regs = xmalloc(ncode * BLOCK * sizeof *regs);
-	const double **src = xmalloc(ncode * sizeof *src);
+	double stack_regs[STACK_CODE * BLOCK];
+	const double *stack_src[STACK_CODE];
+	double *regs = ncode <= STACK_CODE ? stack_regs : xmalloc(ncode * BLOCK * sizeof *regs);
+	const double **src = ncode <= STACK_CODE ? stack_src : xmalloc(ncode * sizeof *src);
 	for (size_t i = 0; i < prog->ncode; i++) {
-		src[i] = regs + i * BLOCK;
-		if (prog->code[i].code == OP_CONST)
-			for (size_t p = 0; p < BLOCK; p++)
-				regs[i * BLOCK + p] = prog->code[i].constant;
+		const instr *in = &prog->code[i];
+		double *r = regs + i * BLOCK;
+		src[i] = r;
+		if (!in->uniform || npoints == 0)
+			continue;
+		if (in->code == OP_CONST)
+			r[0] = in->constant;
+		else if (in->code == OP_VAR)
+			r[0] = vars[in->var * npoints];
+		else
+			run_instr(in, src, r, 1);
+		if (in->spread)
+			for (size_t p = 1; p < BLOCK; p++)
+				r[p] = r[0];
 	}
+	for (size_t o = 0; o < prog->nout && npoints; o++)
+		if (prog->code[prog->outputs[o]].uniform) {
+			double value = src[prog->outputs[o]][0], *out = outputs + o * npoints;
+			for (size_t p = 0; p < npoints; p++)
+				out[p] = value;
+		}
 	for (size_t start = 0; start < npoints; start += BLOCK) {
 		size_t n = npoints - start < BLOCK ? npoints - start : BLOCK;
 		for (size_t i = 0; i < prog->ncode; i++) {
 			const instr *in = &prog->code[i];
-			double *r = regs + i * BLOCK;
-			switch (in->code) {
-			case OP_CONST:
-				break;
-			case OP_VAR:
+			if (in->uniform)
+				continue;
+			if (in->code == OP_VAR) {
 				src[i] = vars + in->var * npoints + start;
-				break;
-			case OP_ADD: {
-				const double *x0 = src[in->list[0]];
-				if (in->nlist == 1) {
-					memcpy(r, x0, n * sizeof *r);
-					break;
-				}
-				const double *x1 = src[in->list[1]];
-				for (size_t p = 0; p < n; p++)
-					r[p] = x0[p] + x1[p];
-				for (size_t k = 2; k < in->nlist; k++) {
-					const double *x = src[in->list[k]];
-					for (size_t p = 0; p < n; p++)
-						r[p] += x[p];
-				}
-				break;
-			}
-			case OP_MUL: {
-				const double c = in->constant;
-				size_t k = 0;
-				if (in->nlist == 0) {
-					for (size_t p = 0; p < n; p++)
-						r[p] = c;
-				} else if (c == 1.0) {
-					const double *x0 = src[in->list[0]];
-					if (in->nlist >= 2) {
-						const double *x1 = src[in->list[1]];
-						for (size_t p = 0; p < n; p++)
-							r[p] = x0[p] * x1[p];
-						k = 2;
-					} else {
-						memcpy(r, x0, n * sizeof *r);
-						k = 1;
-					}
-				} else {
-					const double *x0 = src[in->list[0]];
-					for (size_t p = 0; p < n; p++)
-						r[p] = c * x0[p];
-					k = 1;
-				}
-				for (; k < in->nlist; k++) {
-					const double *x = src[in->list[k]];
-					for (size_t p = 0; p < n; p++)
-						r[p] *= x[p];
-				}
-				break;
-			}
-			case OP_POWI: {
-				const double *x = src[in->a];
-				if (in->power == 2)
-					for (size_t p = 0; p < n; p++)
-						r[p] = x[p] * x[p];
-				else if (in->power == -1)
-					for (size_t p = 0; p < n; p++)
-						r[p] = 1.0 / x[p];
-				else
-					for (size_t p = 0; p < n; p++)
-						r[p] = powi(x[p], in->power);
-				break;
-			}
-			case OP_SQRT: {
-				const double *x = src[in->a];
-				for (size_t p = 0; p < n; p++)
-					r[p] = sqrt(x[p]);
-				break;
-			}
-			case OP_POWD: {
-				const double *x = src[in->a];
-				for (size_t p = 0; p < n; p++)
-					r[p] = pow(x[p], in->constant);
-				break;
-			}
-			case OP_POWX: {
-				const double *x = src[in->a], *y = src[in->b];
-				for (size_t p = 0; p < n; p++)
-					r[p] = pow(x[p], y[p]);
-				break;
-			}
-			case OP_FUN:
-				apply_builtin_block(in->fn, n, src[in->a], r);
-				break;
+			} else {
+				double *r = in->direct ? outputs + (in->direct - 1) * npoints + start : regs + i * BLOCK;
+				run_instr(in, src, r, n);
+				src[i] = r;
 			}
 		}
-		for (size_t o = 0; o < prog->nout; o++)
-			memcpy(outputs + o * npoints + start, src[prog->outputs[o]], n * sizeof(double));
+		for (size_t o = 0; o < prog->nout; o++) {
+			const instr *in = &prog->code[prog->outputs[o]];
+			if (!in->uniform && in->direct != o + 1)
+				memcpy(outputs + o * npoints + start, src[prog->outputs[o]], n * sizeof(double));
+		}
 	}
-	free(src);
-	free(regs);
+	if (src != stack_src)
+		free(src);
+	if (regs != stack_regs)
+		free(regs);
 }
 
 double eval_at(expr_ctx *ctx, const expr *e, size_t nvars, const expr *const *vars,

@@ -20,6 +20,11 @@ eval_prog *eval_compile(expr_ctx *ctx, size_t nout, const expr *const *outputs, 
 			const expr *const *vars, const expr **bad);
 void eval_free(eval_prog *prog);
 
+/* Declare that variables first, first + 1, ... take the same value at every
+ * point of each eval_run call (parameters, the time of a step): what depends
+ * on them alone is computed once per call.  The results are the same bits. */
+void eval_set_uniform(eval_prog *prog, size_t first);
+
 /* Evaluate at npoints points: vars[v*npoints + p], outputs[o*npoints + p]. */
 void eval_run(const eval_prog *prog, size_t npoints, const double *vars, double *outputs);
 

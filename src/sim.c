@@ -1,7 +1,13 @@
-/* sim.c - xoshiro256++ and polar normals (references in sim.h). */
+/* sim.c - xoshiro256++ and ziggurat normals (references in sim.h). */
+#include <config.h>
+
 #include "sim.h"
 
 #include <math.h>
+#include <pthread.h>
+#include <string.h>
+
+#include "vector.h"
 
 static uint64_t rotl(uint64_t x, int k)
 {
@@ -21,7 +27,6 @@ void sim_rng_seed(sim_rng *rng, uint64_t seed)
 	uint64_t state = seed;
 	for (int i = 0; i < 4; i++)
 		rng->s[i] = splitmix64(&state);
-	rng->has_spare = 0;
 }
 
 uint64_t sim_rng_next(sim_rng *rng)
@@ -57,7 +62,6 @@ void sim_rng_jump(sim_rng *rng)
 	rng->s[1] = s1;
 	rng->s[2] = s2;
 	rng->s[3] = s3;
-	rng->has_spare = 0;
 }
 
 double sim_uniform(sim_rng *rng)
@@ -65,22 +69,155 @@ double sim_uniform(sim_rng *rng)
 	return (double)(sim_rng_next(rng) >> 11) * 0x1.0p-53;
 }
 
+/* The layers, computed once: r is the start of the tail for 256 layers
+ * (Marsaglia and Tsang, section 2 and their table; the unit tests check that
+ * the layers close, x[255] (1 - f(x[255])) = v), v = r f(r) + the tail's area
+ * sqrt(pi/2) erfc(r/sqrt 2), and x[i+1] = f^-1(f(x[i]) + v/x[i]). */
+static const double zig_r = 3.6541528853610088;
+static double zig_v, zig_x[SIM_ZIG_LAYERS + 1], zig_f[SIM_ZIG_LAYERS + 1];
+static pthread_once_t zig_once = PTHREAD_ONCE_INIT;
+
+static double gauss(double x)
+{
+	return exp(-0.5 * x * x);
+}
+
+static void zig_build(void)
+{
+	const double half_pi_root = 1.2533141373155002512; /* sqrt(pi/2) */
+	zig_v = zig_r * gauss(zig_r) + half_pi_root * erfc(zig_r / sqrt(2.0));
+	zig_x[0] = zig_v / gauss(zig_r);
+	zig_x[1] = zig_r;
+	for (int i = 1; i < SIM_ZIG_LAYERS - 1; i++)
+		zig_x[i + 1] = sqrt(-2.0 * log(zig_v / zig_x[i] + gauss(zig_x[i])));
+	zig_x[SIM_ZIG_LAYERS] = 0;
+	for (int i = 0; i <= SIM_ZIG_LAYERS; i++)
+		zig_f[i] = gauss(zig_x[i]);
+}
+
+const double *sim_ziggurat_x(double *r, double *v)
+{
+	pthread_once(&zig_once, zig_build);
+	*r = zig_r;
+	*v = zig_v;
+	return zig_x;
+}
+
+/* Beyond r: Marsaglia's tail method, a = -log(u1)/r, b = -log(u2) until
+ * 2b > a^2, then r + a (u in (0, 1], so the logs are finite). */
+static double zig_tail(sim_rng *rng)
+{
+	double a, b;
+	do {
+		a = -log(1.0 - sim_uniform(rng)) / zig_r;
+		b = -log(1.0 - sim_uniform(rng));
+	} while (b + b <= a * a);
+	return zig_r + a;
+}
+
+/* The rare part of a draw, x = u x[layer] at or beyond x[layer + 1]: the
+ * tail (layer 0) or the wedge test; NAN means draw again. */
+static double zig_edge(sim_rng *rng, unsigned layer, double x)
+{
+	if (layer == 0)
+		return zig_tail(rng);
+	double y = zig_f[layer] + sim_uniform(rng) * (zig_f[layer + 1] - zig_f[layer]);
+	return y < gauss(x) ? x : NAN;
+}
+
+/* The candidate of one 64-bit output: bits 0-7 pick the layer, bits 12-63
+ * the uniform u in [0, 1) (through the exponent of 1.0, so the compiler can
+ * vectorise it), x = u x[layer]; bit 8 is the sign. */
+static inline double zig_candidate(uint64_t bits)
+{
+	uint64_t ubits = (bits >> 12) | UINT64_C(0x3ff0000000000000);
+	double u;
+	memcpy(&u, &ubits, sizeof u);
+	return (u - 1.0) * zig_x[bits & 0xff];
+}
+
+static inline double with_sign(double x, uint64_t bits)
+{
+	uint64_t xbits;
+	memcpy(&xbits, &x, sizeof xbits);
+	xbits |= (bits & 0x100) << 55;
+	memcpy(&x, &xbits, sizeof x);
+	return x;
+}
+
+/* A full draw for a position the batch rejected, from the output bits it
+ * rejected: the tail or wedge test, then whole new draws until one is
+ * accepted. */
+static double zig_redraw(sim_rng *rng, uint64_t bits)
+{
+	for (;;) {
+		unsigned layer = (unsigned)(bits & 0xff);
+		double x = zig_candidate(bits);
+		if (x < zig_x[layer + 1])
+			return with_sign(x, bits);
+		x = zig_edge(rng, layer, x);
+		if (!isnan(x))
+			return with_sign(x, bits);
+		bits = sim_rng_next(rng);
+	}
+}
+
+enum { ZIG_BATCH = SIM_NORMAL_BATCH, ZIG_CHUNK = 16 };
+
+/* The common case over a batch of m outputs: x is accepted when
+ * x < x[layer + 1] (about 99 % of the draws); rejected positions get NAN,
+ * and bad[c] says whether chunk c of ZIG_CHUNK positions has any. */
+ITOX_VECTOR static void zig_accept(size_t m, const uint64_t *restrict raw, double *restrict out,
+				   unsigned char *restrict bad)
+{
+	for (size_t c = 0; c * ZIG_CHUNK < m; c++) {
+		size_t first = c * ZIG_CHUNK, end = m - first < ZIG_CHUNK ? m : first + ZIG_CHUNK;
+		uint64_t rejected = 0;
+		for (size_t i = first; i < end; i++) {
+			double x = zig_candidate(raw[i]), limit = zig_x[(raw[i] & 0xff) + 1];
+			out[i] = x < limit ? with_sign(x, raw[i]) : NAN;
+			rejected |= x >= limit;
+		}
+		bad[c] = rejected != 0;
+	}
+}
+
+/* n draws, in batches: the generator's outputs first (the state in locals),
+ * then the common case for the whole batch, then the rejected positions in
+ * order, each from its own output and further draws of the stream. */
+void sim_normals(sim_rng *rng, size_t n, double *out)
+{
+	pthread_once(&zig_once, zig_build);
+	uint64_t raw[ZIG_BATCH];
+	for (size_t start = 0; start < n; start += ZIG_BATCH) {
+		size_t m = n - start < ZIG_BATCH ? n - start : ZIG_BATCH;
+		uint64_t s0 = rng->s[0], s1 = rng->s[1], s2 = rng->s[2], s3 = rng->s[3];
+		for (size_t i = 0; i < m; i++) {
+			raw[i] = rotl(s0 + s3, 23) + s0;
+			uint64_t t = s1 << 17;
+			s2 ^= s0;
+			s3 ^= s1;
+			s1 ^= s2;
+			s0 ^= s3;
+			s2 ^= t;
+			s3 = rotl(s3, 45);
+		}
+		rng->s[0] = s0, rng->s[1] = s1, rng->s[2] = s2, rng->s[3] = s3;
+		double *o = out + start;
+		unsigned char bad[ZIG_BATCH / ZIG_CHUNK];
+		zig_accept(m, raw, o, bad);
+		for (size_t c = 0; c * ZIG_CHUNK < m; c++)
+			for (size_t i = c * ZIG_CHUNK; bad[c] && i < m && i < (c + 1) * ZIG_CHUNK; i++)
+				if (isnan(o[i]))
+					o[i] = zig_redraw(rng, raw[i]);
+	}
+}
+
 double sim_normal(sim_rng *rng)
 {
-	if (rng->has_spare) {
-		rng->has_spare = 0;
-		return rng->spare;
-	}
-	double u, v, s;
-	do {
-		u = 2.0 * sim_uniform(rng) - 1.0;
-		v = 2.0 * sim_uniform(rng) - 1.0;
-		s = u * u + v * v;
-	} while (s >= 1.0 || s == 0.0);
-	double factor = sqrt(-2.0 * log(s) / s);
-	rng->spare = v * factor;
-	rng->has_spare = 1;
-	return u * factor;
+	double x;
+	sim_normals(rng, 1, &x);
+	return x;
 }
 
 /* c = l l^T column by column: l_jj = sqrt(c_jj - sum_k<j l_jk^2),

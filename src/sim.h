@@ -2,8 +2,12 @@
  *
  * xoshiro256++ (Blackman and Vigna, "Scrambled linear pseudorandom number
  * generators", ACM TOMS 2021), seeded through splitmix64, with the jump
- * function for independent streams; normals by the polar method (Marsaglia
- * and Bray, SIAM Review 1964).
+ * function for independent streams; normals by the ziggurat method with 256
+ * layers (Marsaglia and Tsang, "The Ziggurat Method for Generating Random
+ * Variables", Journal of Statistical Software 5(8), 2000), taking the layer
+ * and the sign from bits of the 64-bit draw that the uniform does not use
+ * (the correlation Doornik pointed out in "An Improved Ziggurat Method to
+ * Generate Normal Random Samples", 2005, comes from sharing them).
  */
 #ifndef ITOX_SIM_H
 #define ITOX_SIM_H
@@ -14,8 +18,6 @@
 
 typedef struct sim_rng {
 	uint64_t s[4];
-	double spare;	/* the second normal of a polar pair */
-	int has_spare;
 } sim_rng;
 
 void sim_rng_seed(sim_rng *rng, uint64_t seed);
@@ -23,6 +25,19 @@ void sim_rng_jump(sim_rng *rng); /* advance 2^128 steps: a new independent strea
 uint64_t sim_rng_next(sim_rng *rng);
 double sim_uniform(sim_rng *rng);	/* in [0, 1) */
 double sim_normal(sim_rng *rng);	/* standard normal */
+/* n standard normals, in batches of SIM_NORMAL_BATCH from the start: the
+ * draws a batch rejects are redrawn after it, so the numbers depend on how
+ * a sequence is split into calls, except that calls whose lengths are
+ * multiples of the batch give the numbers of one call. */
+enum { SIM_NORMAL_BATCH = 256 };
+void sim_normals(sim_rng *rng, size_t n, double *out);
+
+/* The ziggurat's layers (for tests): x[0] is the width of the bottom layer's
+ * rectangle (area v, the tail included), x[1] = r, x[256] = 0; every layer
+ * i >= 1 is the rectangle [0, x[i]] x [f(x[i]), f(x[i+1])] of area v, with
+ * f(x) = exp(-x^2/2). */
+enum { SIM_ZIG_LAYERS = 256 };
+const double *sim_ziggurat_x(double *r, double *v);
 
 /* Lower Cholesky factor l of the n x n correlation matrix c (row-major), with
  * c = l l^T; a zero pivot (a degenerate matrix, rho = +-1) leaves its column

@@ -10,5 +10,6 @@ Suite *diff_suite(void);
 Suite *print_suite(void);
 Suite *grammar_suite(void);
 Suite *props_suite(void);
+Suite *sim_suite(void);
 
 #endif

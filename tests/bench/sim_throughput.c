@@ -11,7 +11,7 @@
  * session_run() (the declarations untimed; compiling, the finite differences
  * and printing are inside the time, but are a small part of it).  The
  * hand-written loop does the same work with the coefficients typed in C: the
- * same generator (xoshiro256++, polar normals, src/sim.h), the same streams
+ * same generator (xoshiro256++, ziggurat normals, src/sim.h), the same streams
  * (block j of 256 paths uses the seed jumped j times), the same two grids (N
  * and N/2 steps on one set of increments) and the same per-path statistics
  * (QV - I, the martingale residual, the covariations, f(T)), merged in block
@@ -225,9 +225,8 @@ static void hand_block(bool heston, const params *p, sim_rng *rng, size_t n, lon
 	for (int i = 0; i < 2; i++)
 		grid_init(p, &grids[i], i + 1, n);
 	for (long k = 0; k < steps; k++) {
-		for (size_t q = 0; q < n; q++)
-			for (size_t a = 0; a < nn; a++)
-				z[a][q] = sim_normal(rng);
+		for (size_t a = 0; a < nn; a++)
+			sim_normals(rng, n, z[a]);
 		for (int i = 0; i < 2; i++) {
 			grid *g = &grids[i];
 			for (size_t a = 0; a < nn; a++)

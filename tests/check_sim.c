@@ -1,0 +1,273 @@
+/* check_sim.c - unit tests of the numerical core under `check`: the
+ * ziggurat's layers and the distribution of its draws, the batched
+ * generator against one draw at a time, the block logarithm against libm,
+ * and uniform variables and direct outputs of compiled programs against a
+ * plain evaluation.
+ *
+ * Sources: the layer equations of the ziggurat are those of Marsaglia and
+ * Tsang, "The Ziggurat Method for Generating Random Variables", J. Stat.
+ * Software 5(8), 2000, section 2 (from memory); the moments of the standard
+ * normal (mean 0, variance 1, fourth moment 3) and the tail probability
+ * P(|Z| > a) = erfc(a/sqrt 2) are handbook facts (Abramowitz and Stegun,
+ * 26.2, from memory); the Kolmogorov-Smirnov bound sqrt(n) D < 1.95 at level
+ * 0.001 is the asymptotic Kolmogorov distribution's quantile (from memory).
+ * The reference for the logarithm is the C library's log.  Every
+ * statistical test uses a fixed seed and a bound at about five standard
+ * errors, so it is deterministic and fails only for a real fault: a start
+ * of the tail r off by 1e-7, a biased uniform and a lost sign bit were each
+ * seen to fail it, as were a logarithm coefficient off by 1e-5, a wrong
+ * reduction boundary and a variable wrongly taken as uniform. */
+
+#include <check.h>
+#include <float.h>
+#include <math.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "check_suites.h"
+#include "eval.h"
+#include "expr.h"
+#include "sim.h"
+
+static double gauss(double x)
+{
+	return exp(-0.5 * x * x);
+}
+
+/* Every layer has the same area v: the bottom one x[0] f(r) (rectangle and
+ * tail), the others x[i] (f(x[i+1]) - f(x[i])); the top one closes at 0. */
+START_TEST(test_ziggurat_layers)
+{
+	double r, v;
+	const double *x = sim_ziggurat_x(&r, &v);
+	ck_assert_double_eq_tol(r, 3.6541528853610088, 1e-15);
+	double tail = 1.2533141373155002512 * erfc(r / sqrt(2.0)); /* integral of f beyond r */
+	ck_assert_double_eq_tol(v, r * gauss(r) + tail, 1e-18);
+	ck_assert_double_eq_tol(x[0] * gauss(r), v, 1e-15);
+	ck_assert(x[1] == r);
+	ck_assert(x[SIM_ZIG_LAYERS] == 0);
+	for (int i = 1; i < SIM_ZIG_LAYERS; i++) {
+		ck_assert_msg(x[i + 1] < x[i], "layer %d does not shrink", i);
+		double area = x[i] * (gauss(x[i + 1]) - gauss(x[i]));
+		ck_assert_msg(fabs(area - v) < 1e-9 * v, "layer %d: area %.17g, v %.17g", i, area, v);
+	}
+}
+END_TEST
+
+static int compare_doubles(const void *a, const void *b)
+{
+	double x = *(const double *)a, y = *(const double *)b;
+	return (x > y) - (x < y);
+}
+
+START_TEST(test_normal_distribution)
+{
+	enum { n = 1 << 20 };
+	double *z = malloc(n * sizeof *z);
+	ck_assert_ptr_nonnull(z);
+	sim_rng rng;
+	sim_rng_seed(&rng, 20261202);
+	sim_normals(&rng, n, z);
+	double r, v;
+	sim_ziggurat_x(&r, &v);
+	double m1 = 0, m2 = 0, m4 = 0;
+	long beyond3 = 0, beyond_r = 0, negative = 0;
+	for (size_t i = 0; i < n; i++) {
+		double x = z[i];
+		ck_assert(isfinite(x));
+		m1 += x, m2 += x * x, m4 += x * x * x * x;
+		beyond3 += fabs(x) > 3;
+		beyond_r += fabs(x) > r;
+		negative += x < 0;
+	}
+	m1 /= n, m2 /= n, m4 /= n;
+	ck_assert_msg(fabs(m1) < 5 * sqrt(1.0 / n), "mean %g", m1);
+	ck_assert_msg(fabs(m2 - 1) < 5 * sqrt(2.0 / n), "variance %g", m2);
+	ck_assert_msg(fabs(m4 - 3) < 5 * sqrt(96.0 / n), "fourth moment %g", m4); /* var of z^4 = 105 - 9 */
+	ck_assert_msg(fabs(negative - n / 2.0) < 5 * sqrt(n / 4.0), "%ld negative of %d", negative, n);
+	/* the tail beyond 3 and beyond r (drawn by the tail method) */
+	double p3 = erfc(3 / sqrt(2.0)), pr = erfc(r / sqrt(2.0));
+	ck_assert_msg(fabs(beyond3 - n * p3) < 5 * sqrt(n * p3), "%ld beyond 3, expected %g", beyond3, n * p3);
+	ck_assert_msg(beyond_r > 0 && fabs(beyond_r - n * pr) < 5 * sqrt(n * pr), "%ld beyond r, expected %g",
+		      beyond_r, n * pr);
+	/* Kolmogorov-Smirnov against the normal distribution function */
+	qsort(z, n, sizeof *z, compare_doubles);
+	double d = 0;
+	for (size_t i = 0; i < n; i++) {
+		double cdf = eval_ncdf(z[i]);
+		d = fmax(d, fmax(fabs(cdf - (double)i / n), fabs(cdf - (double)(i + 1) / n)));
+	}
+	ck_assert_msg(sqrt((double)n) * d < 1.95, "KS sqrt(n) D = %g", sqrt((double)n) * d);
+	free(z);
+}
+END_TEST
+
+/* Consecutive draws are uncorrelated: lag-1 and lag-256 (one block of
+ * paths) products have mean 0 and standard error 1/sqrt(n). */
+START_TEST(test_normal_independence)
+{
+	enum { n = 1 << 20 };
+	double *z = malloc(n * sizeof *z);
+	ck_assert_ptr_nonnull(z);
+	sim_rng rng;
+	sim_rng_seed(&rng, 7);
+	sim_normals(&rng, n, z);
+	for (size_t lag = 1; lag <= 256; lag += 255) {
+		double c = 0;
+		for (size_t i = lag; i < n; i++)
+			c += z[i] * z[i - lag];
+		c /= n - lag;
+		ck_assert_msg(fabs(c) < 5 / sqrt((double)n), "lag %zu correlation %g", lag, c);
+	}
+	free(z);
+}
+END_TEST
+
+/* Calls whose lengths are multiples of the batch give the numbers of one
+ * call (sim.h), whatever the split; a last short call continues the stream. */
+START_TEST(test_normal_batches)
+{
+	enum { n = 4 * SIM_NORMAL_BATCH + 100 };
+	double one[n], split[n];
+	sim_rng a, b;
+	sim_rng_seed(&a, 99);
+	sim_rng_seed(&b, 99);
+	sim_normals(&a, n, one);
+	sim_normals(&b, SIM_NORMAL_BATCH, split);
+	sim_normals(&b, 2 * SIM_NORMAL_BATCH, split + SIM_NORMAL_BATCH);
+	sim_normals(&b, SIM_NORMAL_BATCH, split + 3 * SIM_NORMAL_BATCH);
+	sim_normals(&b, 100, split + 4 * SIM_NORMAL_BATCH);
+	ck_assert_mem_eq(one, split, sizeof one);
+	ck_assert_mem_eq(a.s, b.s, sizeof a.s);
+}
+END_TEST
+
+static long ulps_apart(double x, double y)
+{
+	int64_t a, b;
+	memcpy(&a, &x, sizeof a);
+	memcpy(&b, &y, sizeof b);
+	if ((a < 0) != (b < 0))
+		return x == y ? 0 : LONG_MAX;
+	return labs((long)(a - b));
+}
+
+/* log over a block is within one unit in the last place of libm's log, on
+ * numbers across the whole exponent range, near 1 (where log is small and
+ * the relative error counts) and near sqrt(2) (the reduction's boundary);
+ * the special inputs give libm's results. */
+START_TEST(test_block_log)
+{
+	expr_ctx *ctx = expr_ctx_new();
+	const expr *x = expr_sym(ctx, "x");
+	const expr *f = expr_fun(ctx, EXPR_F_LOG, x);
+	eval_prog *prog = eval_compile(ctx, 1, &f, 1, &x, NULL);
+	ck_assert_ptr_nonnull(prog);
+	enum { n = 200000 };
+	double *in = malloc(n * sizeof *in), *out = malloc(n * sizeof *out);
+	sim_rng rng;
+	sim_rng_seed(&rng, 5);
+	for (size_t i = 0; i < n; i++) {
+		double u = sim_uniform(&rng);
+		switch (i % 4) {
+		case 0: in[i] = ldexp(1 + u, (int)(sim_rng_next(&rng) % 2044) - 1022); break;
+		case 1: in[i] = 1 + ldexp(u - 0.5, -(int)(sim_rng_next(&rng) % 52)); break;
+		case 2: in[i] = 1.41421356237309504880 * (1 + ldexp(u - 0.5, -(int)(sim_rng_next(&rng) % 52))); break;
+		default: in[i] = 0.5 + 1.5 * u; break;
+		}
+	}
+	eval_run(prog, n, in, out);
+	long worst = 0;
+	double at = 0;
+	for (size_t i = 0; i < n; i++) {
+		long d = ulps_apart(out[i], log(in[i]));
+		if (d > worst)
+			worst = d, at = in[i];
+	}
+	ck_assert_msg(worst <= 1, "log differs from libm by %ld ulp at %.17g", worst, at);
+	double special[] = {0, -0.0, -1, INFINITY, -INFINITY, NAN, 4.9e-324, 1e-310, DBL_MIN, DBL_MAX, 1, 2};
+	size_t ns = sizeof special / sizeof *special;
+	double got[sizeof special / sizeof *special];
+	eval_run(prog, ns, special, got);
+	for (size_t i = 0; i < ns; i++) {
+		double want = log(special[i]);
+		ck_assert_msg((isnan(want) && isnan(got[i])) || got[i] == want, "log(%g) = %.17g, libm %.17g",
+			      special[i], got[i], want);
+	}
+	free(in);
+	free(out);
+	eval_free(prog);
+	expr_ctx_free(ctx);
+}
+END_TEST
+
+/* Declaring the parameters uniform changes no bit of any output: outputs
+ * that vary (written in place), uniform ones (filled), one output twice, a
+ * variable as an output; over more points than one block. */
+START_TEST(test_uniform_variables)
+{
+	expr_ctx *ctx = expr_ctx_new();
+	const expr *vars[] = {expr_sym(ctx, "S"), expr_sym(ctx, "v"), expr_sym(ctx, "t"), expr_sym(ctx, "mu"),
+			      expr_sym(ctx, "xi")};
+	const expr *S = vars[0], *v = vars[1], *t = vars[2], *mu = vars[3], *xi = vars[4];
+	const expr *half = expr_rat(ctx, 1, 2);
+	const expr *drift = expr_mul(ctx, expr_sub(ctx, mu, expr_mul(ctx, half, v)), S);
+	const expr *claim = expr_sub(ctx, mu, expr_mul(ctx, half, expr_pow(ctx, xi, expr_int(ctx, 2))));
+	const expr *decay = expr_mul(ctx, S, expr_fun(ctx, EXPR_F_EXP, expr_neg(ctx, expr_mul(ctx, mu, t))));
+	const expr *outs[] = {drift, claim, decay, drift, v, expr_pow_rat(ctx, v, 1, 2), mu};
+	size_t nout = sizeof outs / sizeof *outs, nvars = sizeof vars / sizeof *vars;
+	eval_prog *plain = eval_compile(ctx, nout, outs, nvars, vars, NULL);
+	eval_prog *uniform = eval_compile(ctx, nout, outs, nvars, vars, NULL);
+	ck_assert_ptr_nonnull(plain);
+	ck_assert_ptr_nonnull(uniform);
+	eval_set_uniform(uniform, 2); /* t, mu, xi */
+	enum { n = 300 };
+	double *in = malloc(nvars * n * sizeof *in);
+	double *a = malloc(nout * n * sizeof *a), *b = malloc(nout * n * sizeof *b);
+	sim_rng rng;
+	sim_rng_seed(&rng, 11);
+	for (size_t q = 0; q < n; q++) {
+		in[0 * n + q] = 50 + 100 * sim_uniform(&rng);
+		in[1 * n + q] = 0.01 + 0.1 * sim_uniform(&rng);
+		in[2 * n + q] = 0.25;
+		in[3 * n + q] = 0.05;
+		in[4 * n + q] = 0.3;
+	}
+	eval_run(plain, n, in, a);
+	eval_run(uniform, n, in, b);
+	ck_assert_mem_eq(a, b, nout * n * sizeof *a);
+	/* and the plain program is the formula, point by point */
+	for (size_t q = 0; q < n; q += 37) {
+		double s = in[q], vq = in[n + q];
+		ck_assert_double_eq_tol(a[q], (0.05 - 0.5 * vq) * s, 1e-12 * s);
+		ck_assert_double_eq_tol(a[n + q], 0.05 - 0.5 * 0.09, 1e-15);
+		ck_assert_double_eq_tol(a[2 * n + q], s * exp(-0.05 * 0.25), 1e-12 * s);
+		ck_assert(a[3 * n + q] == a[q]);
+		ck_assert(a[4 * n + q] == vq);
+		ck_assert(a[5 * n + q] == sqrt(vq));
+		ck_assert(a[6 * n + q] == 0.05);
+	}
+	free(in);
+	free(a);
+	free(b);
+	eval_free(plain);
+	eval_free(uniform);
+	expr_ctx_free(ctx);
+}
+END_TEST
+
+Suite *sim_suite(void)
+{
+	Suite *suite = suite_create("sim");
+	TCase *tc = tcase_create("numerics");
+	tcase_set_timeout(tc, 120);
+	tcase_add_test(tc, test_ziggurat_layers);
+	tcase_add_test(tc, test_normal_distribution);
+	tcase_add_test(tc, test_normal_independence);
+	tcase_add_test(tc, test_normal_batches);
+	tcase_add_test(tc, test_block_log);
+	tcase_add_test(tc, test_uniform_variables);
+	suite_add_tcase(suite, tc);
+	return suite;
+}
