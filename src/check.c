@@ -538,19 +538,19 @@ static char *fd_name(const plan *p, const fd_row *row)
 typedef struct scheme {
 	long ratio, pending;
 	double t;
-	double *x, *vars, *cout, *claim, *fcur, *fnext, *dw;
+	double *x, *vars, *cout, *claim, *fcur, *fnext, *dw; /* x: nvars rows, as vars */
 	double *qv, *integ, *resid, *fv, *cov, *mag;
 	double *work; /* 5 B: step_stats' per-path scratch */
 	unsigned char *below;
 } scheme;
 
+/* f at the states as simulated: s->x has the layout of the program's
+ * variables (states, t, parameters), so only the time row changes. */
 static void scheme_eval_f(const plan *p, scheme *s, size_t B, double *out)
 {
-	for (size_t i = 0; i < p->nproc; i++)
-		memcpy(s->vars + i * B, s->x + i * B, B * sizeof *s->vars);
 	for (size_t q = 0; q < B; q++)
-		s->vars[p->nproc * B + q] = s->t;
-	eval_run(p->fprog, B, s->vars, out);
+		s->x[p->nproc * B + q] = s->t;
+	eval_run(p->fprog, B, s->x, out);
 }
 
 static void scheme_init(const plan *p, scheme *s, size_t B, long ratio)
@@ -559,7 +559,7 @@ static void scheme_init(const plan *p, scheme *s, size_t B, long ratio)
 	s->ratio = ratio;
 	s->pending = 0;
 	s->t = p->point[np];
-	s->x = xmalloc((np + 1) * B * sizeof *s->x);
+	s->x = xmalloc(p->nvars * B * sizeof *s->x);
 	s->vars = xmalloc(p->nvars * B * sizeof *s->vars);
 	s->cout = xmalloc((p->ncoef + 1) * B * sizeof *s->cout);
 	s->claim = xmalloc(p->nclaim * B * sizeof *s->claim);
@@ -579,7 +579,7 @@ static void scheme_init(const plan *p, scheme *s, size_t B, long ratio)
 			s->x[i * B + q] = p->point[i];
 	for (size_t v = np + 1; v < p->nvars; v++)
 		for (size_t q = 0; q < B; q++)
-			s->vars[v * B + q] = p->point[v];
+			s->vars[v * B + q] = s->x[v * B + q] = p->point[v];
 	scheme_eval_f(p, s, B, s->fcur);
 }
 

@@ -248,7 +248,7 @@ static double powi(double x, long n)
 	return result;
 }
 
-enum { BLOCK = 64 };
+enum { BLOCK = 128 };
 
 /* log over n points, written so the compiler can vectorise it: the method
  * of fdlibm's e_log.c (Sun Microsystems, 1993; from memory), without its
