@@ -35,9 +35,10 @@
  * the state as simulated.  Paths whose statistics are not finite are counted, left out
  * and reported; over 1% of them make the verdict inconsistent.
  *
- * Threads.  Paths run in blocks of CHECK_BLOCK; block j draws from the stream
- * of the seed jumped j times (xoshiro256++ jump), and block results are merged
- * in block order, so the result does not depend on the number of threads.
+ * Threads.  Paths run in blocks of CHECK_BLOCK; block j draws from SIM_LANES
+ * streams side by side, the seed's stream jumped j SIM_LANES + k times for
+ * lane k (xoshiro256++ jump, sim.h), and block results are merged in block
+ * order, so the result does not depend on the number of threads.
  * Blocks run in rounds of CHECK_ROUND, so memory does not grow with paths.
  */
 #include <config.h>
@@ -735,7 +736,7 @@ ITOX_VECTOR static void scheme_step(const plan *p, scheme *s, size_t B, double h
 
 /* Run B paths over nsteps fine steps of size dt for all schemes at once:
  * dW = sqrt(dt) L Z with Z independent standard normals. */
-ITOX_VECTOR static void block_paths(const plan *p, volatile sig_atomic_t *interrupt, sim_rng *rng, size_t B, long nsteps,
+ITOX_VECTOR static void block_paths(const plan *p, volatile sig_atomic_t *interrupt, sim_lanes *rng, size_t B, long nsteps,
 			double dt, size_t nschemes, scheme *schemes)
 {
 	size_t nn = p->nnoise;
@@ -744,7 +745,7 @@ ITOX_VECTOR static void block_paths(const plan *p, volatile sig_atomic_t *interr
 	for (long k = 0; k < nsteps; k++) {
 		if (interrupt && k % 64 == 0 && *interrupt)
 			break; /* the result is dropped: run_blocks reports the interrupt */
-		sim_normals(rng, nn * B, z);
+		sim_lanes_normals(rng, nn * B, z);
 		for (size_t si = 0; si < nschemes; si++) {
 			scheme *s = &schemes[si];
 			for (size_t a = 0; a < nn; a++) {
@@ -831,7 +832,7 @@ static void path_values(const plan *p, const scheme *s, size_t B, size_t q, doub
 		v[STAT_COV + a] = s->cov[a * B + q];
 }
 
-static void main_block(const job *jb, sim_rng *rng, size_t B, block_result *r)
+static void main_block(const job *jb, sim_lanes *rng, size_t B, block_result *r)
 {
 	const plan *p = jb->p;
 	size_t nschemes = jb->steps >= 2 ? 2 : 1;
@@ -878,7 +879,7 @@ typedef struct conv_result {
 	sim_stat qv[CHECK_NCONV], integ[CHECK_NCONV], gap[CHECK_NCONV], fv[CHECK_NCONV];
 } conv_result;
 
-static void conv_block(const job *jb, sim_rng *rng, size_t B, conv_result *r)
+static void conv_block(const job *jb, sim_lanes *rng, size_t B, conv_result *r)
 {
 	const plan *p = jb->p;
 	long finest = check_conv_steps[CHECK_NCONV - 1];
@@ -924,15 +925,14 @@ static bool run_blocks(expr_ctx *ctx, const job *jb, size_t npaths, bool conv, b
 	size_t nblocks = (npaths + CHECK_BLOCK - 1) / CHECK_BLOCK;
 	sim_rng stream;
 	sim_rng_seed(&stream, jb->p->in->seed);
-	sim_rng rngs[CHECK_ROUND];
+	sim_lanes rngs[CHECK_ROUND];
 	block_result results[CHECK_ROUND];
 	conv_result *convs = conv ? xcalloc(CHECK_ROUND, sizeof *convs) : NULL;
 	bool interrupted = false;
 	for (size_t first = 0; first < nblocks && !interrupted; first += CHECK_ROUND) {
 		size_t count = nblocks - first < CHECK_ROUND ? nblocks - first : CHECK_ROUND;
 		for (size_t i = 0; i < count; i++) {
-			rngs[i] = stream;
-			sim_rng_jump(&stream);
+			sim_lanes_take(&rngs[i], &stream);
 			if (conv)
 				memset(&convs[i], 0, sizeof convs[i]);
 			else

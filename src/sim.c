@@ -182,42 +182,61 @@ ITOX_VECTOR static void zig_accept(size_t m, const uint64_t *restrict raw, doubl
 	}
 }
 
-/* n draws, in batches: the generator's outputs first (the state in locals),
- * then the common case for the whole batch, then the rejected positions in
- * order, each from its own output and further draws of the stream. */
-void sim_normals(sim_rng *rng, size_t n, double *out)
+void sim_lanes_take(sim_lanes *lanes, sim_rng *stream)
+{
+	for (int k = 0; k < SIM_LANES; k++) {
+		for (int w = 0; w < 4; w++)
+			lanes->s[w][k] = stream->s[w];
+		sim_rng_jump(stream);
+	}
+}
+
+/* The generator's outputs for a batch, lane by lane: m must be a multiple of
+ * SIM_LANES; raw[i] is the next output of lane i mod SIM_LANES. */
+ITOX_VECTOR static void lanes_fill(sim_lanes *restrict lanes, size_t m, uint64_t *restrict raw)
+{
+	uint64_t s0[SIM_LANES], s1[SIM_LANES], s2[SIM_LANES], s3[SIM_LANES];
+	memcpy(s0, lanes->s[0], sizeof s0);
+	memcpy(s1, lanes->s[1], sizeof s1);
+	memcpy(s2, lanes->s[2], sizeof s2);
+	memcpy(s3, lanes->s[3], sizeof s3);
+	for (size_t i = 0; i < m; i += SIM_LANES)
+		for (int k = 0; k < SIM_LANES; k++) {
+			raw[i + k] = rotl(s0[k] + s3[k], 23) + s0[k];
+			uint64_t t = s1[k] << 17;
+			s2[k] ^= s0[k];
+			s3[k] ^= s1[k];
+			s1[k] ^= s2[k];
+			s0[k] ^= s3[k];
+			s2[k] ^= t;
+			s3[k] = rotl(s3[k], 45);
+		}
+	memcpy(lanes->s[0], s0, sizeof s0);
+	memcpy(lanes->s[1], s1, sizeof s1);
+	memcpy(lanes->s[2], s2, sizeof s2);
+	memcpy(lanes->s[3], s3, sizeof s3);
+}
+
+/* n draws, in batches: the lanes' outputs, the common case for the whole
+ * batch, then the rejected positions in order from lane 0. */
+void sim_lanes_normals(sim_lanes *lanes, size_t n, double *out)
 {
 	pthread_once(&zig_once, zig_build);
 	uint64_t raw[ZIG_BATCH];
 	for (size_t start = 0; start < n; start += ZIG_BATCH) {
 		size_t m = n - start < ZIG_BATCH ? n - start : ZIG_BATCH;
-		uint64_t s0 = rng->s[0], s1 = rng->s[1], s2 = rng->s[2], s3 = rng->s[3];
-		for (size_t i = 0; i < m; i++) {
-			raw[i] = rotl(s0 + s3, 23) + s0;
-			uint64_t t = s1 << 17;
-			s2 ^= s0;
-			s3 ^= s1;
-			s1 ^= s2;
-			s0 ^= s3;
-			s2 ^= t;
-			s3 = rotl(s3, 45);
-		}
-		rng->s[0] = s0, rng->s[1] = s1, rng->s[2] = s2, rng->s[3] = s3;
+		lanes_fill(lanes, (m + SIM_LANES - 1) / SIM_LANES * SIM_LANES, raw);
 		double *o = out + start;
 		unsigned char bad[ZIG_BATCH / ZIG_CHUNK];
 		zig_accept(m, raw, o, bad);
+		sim_rng lane0 = {{lanes->s[0][0], lanes->s[1][0], lanes->s[2][0], lanes->s[3][0]}};
 		for (size_t c = 0; c * ZIG_CHUNK < m; c++)
 			for (size_t i = c * ZIG_CHUNK; bad[c] && i < m && i < (c + 1) * ZIG_CHUNK; i++)
 				if (isnan(o[i]))
-					o[i] = zig_redraw(rng, raw[i]);
+					o[i] = zig_redraw(&lane0, raw[i]);
+		for (int w = 0; w < 4; w++)
+			lanes->s[w][0] = lane0.s[w];
 	}
-}
-
-double sim_normal(sim_rng *rng)
-{
-	double x;
-	sim_normals(rng, 1, &x);
-	return x;
 }
 
 /* c = l l^T column by column: l_jj = sqrt(c_jj - sum_k<j l_jk^2),

@@ -24,13 +24,23 @@ void sim_rng_seed(sim_rng *rng, uint64_t seed);
 void sim_rng_jump(sim_rng *rng); /* advance 2^128 steps: a new independent stream */
 uint64_t sim_rng_next(sim_rng *rng);
 double sim_uniform(sim_rng *rng);	/* in [0, 1) */
-double sim_normal(sim_rng *rng);	/* standard normal */
-/* n standard normals, in batches of SIM_NORMAL_BATCH from the start: the
- * draws a batch rejects are redrawn after it, so the numbers depend on how
- * a sequence is split into calls, except that calls whose lengths are
- * multiples of the batch give the numbers of one call. */
-enum { SIM_NORMAL_BATCH = 256 };
-void sim_normals(sim_rng *rng, size_t n, double *out);
+
+/* Normals come from SIM_LANES streams side by side, so the generator runs
+ * in vector lanes: sim_lanes_take fills lane k with the stream, then jumps
+ * the stream (so a caller taking lanes for block after block gives lane k
+ * of block j the seed's stream jumped j SIM_LANES + k times).
+ * sim_lanes_normals gives n standard normals, in batches of
+ * SIM_NORMAL_BATCH from the start of the call: position i of a batch comes
+ * from lane i mod SIM_LANES; the few draws a batch rejects are redrawn
+ * after it from lane 0.  So the numbers depend on how a sequence is split
+ * into calls, except that calls whose lengths are multiples of the batch
+ * give the numbers of one call. */
+enum { SIM_LANES = 8, SIM_NORMAL_BATCH = 256 };
+typedef struct sim_lanes {
+	uint64_t s[4][SIM_LANES]; /* word w of lane k: s[w][k] */
+} sim_lanes;
+void sim_lanes_take(sim_lanes *lanes, sim_rng *stream);
+void sim_lanes_normals(sim_lanes *lanes, size_t n, double *out);
 
 /* The ziggurat's layers (for tests): x[0] is the width of the bottom layer's
  * rectangle (area v, the tail included), x[1] = r, x[256] = 0; every layer

@@ -1,6 +1,6 @@
 /* check_sim.c - unit tests of the numerical core under `check`: the
- * ziggurat's layers and the distribution of its draws, the batched
- * generator against one draw at a time, the block logarithm against libm,
+ * ziggurat's layers and the distribution of its draws, the side-by-side
+ * streams and batches of the generator, the block logarithm against libm,
  * and uniform variables and direct outputs of compiled programs against a
  * plain evaluation.
  *
@@ -55,6 +55,16 @@ START_TEST(test_ziggurat_layers)
 }
 END_TEST
 
+/* n normals from the lanes taken from the stream of seed. */
+static void draw(uint64_t seed, size_t n, double *z)
+{
+	sim_rng stream;
+	sim_lanes lanes;
+	sim_rng_seed(&stream, seed);
+	sim_lanes_take(&lanes, &stream);
+	sim_lanes_normals(&lanes, n, z);
+}
+
 static int compare_doubles(const void *a, const void *b)
 {
 	double x = *(const double *)a, y = *(const double *)b;
@@ -66,9 +76,7 @@ START_TEST(test_normal_distribution)
 	enum { n = 1 << 20 };
 	double *z = malloc(n * sizeof *z);
 	ck_assert_ptr_nonnull(z);
-	sim_rng rng;
-	sim_rng_seed(&rng, 20261202);
-	sim_normals(&rng, n, z);
+	draw(20261202, n, z);
 	double r, v;
 	sim_ziggurat_x(&r, &v);
 	double m1 = 0, m2 = 0, m4 = 0;
@@ -103,17 +111,18 @@ START_TEST(test_normal_distribution)
 }
 END_TEST
 
-/* Consecutive draws are uncorrelated: lag-1 and lag-256 (one block of
- * paths) products have mean 0 and standard error 1/sqrt(n). */
+/* Consecutive draws are uncorrelated: lag-1 (neighbouring lanes), lag-8
+ * (one lane) and lag-256 (one block of paths) products have mean 0 and
+ * standard error 1/sqrt(n). */
 START_TEST(test_normal_independence)
 {
 	enum { n = 1 << 20 };
 	double *z = malloc(n * sizeof *z);
 	ck_assert_ptr_nonnull(z);
-	sim_rng rng;
-	sim_rng_seed(&rng, 7);
-	sim_normals(&rng, n, z);
-	for (size_t lag = 1; lag <= 256; lag += 255) {
+	draw(7, n, z);
+	size_t lags[] = {1, SIM_LANES, SIM_NORMAL_BATCH};
+	for (size_t li = 0; li < 3; li++) {
+		size_t lag = lags[li];
 		double c = 0;
 		for (size_t i = lag; i < n; i++)
 			c += z[i] * z[i - lag];
@@ -124,20 +133,30 @@ START_TEST(test_normal_independence)
 }
 END_TEST
 
-/* Calls whose lengths are multiples of the batch give the numbers of one
- * call (sim.h), whatever the split; a last short call continues the stream. */
-START_TEST(test_normal_batches)
+/* Lane k starts where the stream jumped k times starts, and the stream
+ * moves on by SIM_LANES jumps; calls whose lengths are multiples of the
+ * batch give the numbers of one call (sim.h), whatever the split. */
+START_TEST(test_normal_lanes)
 {
+	sim_rng stream, expect;
+	sim_rng_seed(&stream, 99);
+	sim_rng_seed(&expect, 99);
+	sim_lanes a;
+	sim_lanes_take(&a, &stream);
+	for (int k = 0; k < SIM_LANES; k++) {
+		for (int w = 0; w < 4; w++)
+			ck_assert_uint_eq(a.s[w][k], expect.s[w]);
+		sim_rng_jump(&expect);
+	}
+	ck_assert_mem_eq(stream.s, expect.s, sizeof stream.s);
 	enum { n = 4 * SIM_NORMAL_BATCH + 100 };
 	double one[n], split[n];
-	sim_rng a, b;
-	sim_rng_seed(&a, 99);
-	sim_rng_seed(&b, 99);
-	sim_normals(&a, n, one);
-	sim_normals(&b, SIM_NORMAL_BATCH, split);
-	sim_normals(&b, 2 * SIM_NORMAL_BATCH, split + SIM_NORMAL_BATCH);
-	sim_normals(&b, SIM_NORMAL_BATCH, split + 3 * SIM_NORMAL_BATCH);
-	sim_normals(&b, 100, split + 4 * SIM_NORMAL_BATCH);
+	sim_lanes b = a;
+	sim_lanes_normals(&a, n, one);
+	sim_lanes_normals(&b, SIM_NORMAL_BATCH, split);
+	sim_lanes_normals(&b, 2 * SIM_NORMAL_BATCH, split + SIM_NORMAL_BATCH);
+	sim_lanes_normals(&b, SIM_NORMAL_BATCH, split + 3 * SIM_NORMAL_BATCH);
+	sim_lanes_normals(&b, 100, split + 4 * SIM_NORMAL_BATCH);
 	ck_assert_mem_eq(one, split, sizeof one);
 	ck_assert_mem_eq(a.s, b.s, sizeof a.s);
 }
@@ -265,7 +284,7 @@ Suite *sim_suite(void)
 	tcase_add_test(tc, test_ziggurat_layers);
 	tcase_add_test(tc, test_normal_distribution);
 	tcase_add_test(tc, test_normal_independence);
-	tcase_add_test(tc, test_normal_batches);
+	tcase_add_test(tc, test_normal_lanes);
 	tcase_add_test(tc, test_block_log);
 	tcase_add_test(tc, test_uniform_variables);
 	suite_add_tcase(suite, tc);

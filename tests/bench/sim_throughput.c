@@ -11,9 +11,10 @@
  * session_run() (the declarations untimed; compiling, the finite differences
  * and printing are inside the time, but are a small part of it).  The
  * hand-written loop does the same work with the coefficients typed in C: the
- * same generator (xoshiro256++, ziggurat normals, src/sim.h), the same streams
- * (block j of 256 paths uses the seed jumped j times), the same two grids (N
- * and N/2 steps on one set of increments) and the same per-path statistics
+ * same generator (xoshiro256++ in SIM_LANES side-by-side streams, ziggurat
+ * normals, src/sim.h), the same streams (lane k of block j of 256 paths uses
+ * the seed jumped 8j + k times), the same two grids (N and N/2 steps on one
+ * set of increments) and the same per-path statistics
  * (QV - I, the martingale residual, the covariations, f(T)), merged in block
  * order.  So both compute the same numbers, and the program prints both sets
  * of means side by side as evidence.  Throughput is path-steps (paths times N
@@ -214,19 +215,19 @@ static void grid_init(const params *p, grid *g, long ratio, size_t n)
 
 /* B paths of one block over steps fine steps, both grids on the same
  * increments dW = sqrt(dt) L z. */
-static void hand_block(bool heston, const params *p, sim_rng *rng, size_t n, long steps, double dt,
+static void hand_block(bool heston, const params *p, sim_lanes *rng, size_t n, long steps, double dt,
 		       block_sums *out)
 {
 	size_t nn = heston ? 2 : 1;
 	double l[MAXN][MAXN] = {{1, 0}, {p->rho, sqrt(1 - p->rho * p->rho)}};
 	double root = sqrt(dt);
 	static _Thread_local grid grids[2];
-	static _Thread_local double z[MAXN][BLOCK];
+	static _Thread_local double zbuf[MAXN * BLOCK];
+	const double *z[MAXN] = {zbuf, zbuf + n}; /* noise a of path q: z[a][q], as check lays them out */
 	for (int i = 0; i < 2; i++)
 		grid_init(p, &grids[i], i + 1, n);
 	for (long k = 0; k < steps; k++) {
-		for (size_t a = 0; a < nn; a++)
-			sim_normals(rng, n, z[a]);
+		sim_lanes_normals(rng, nn * n, zbuf);
 		for (int i = 0; i < 2; i++) {
 			grid *g = &grids[i];
 			for (size_t a = 0; a < nn; a++)
@@ -271,16 +272,14 @@ static double hand_check(bool heston, long steps, long paths, stats *out)
 	size_t nblocks = ((size_t)paths + BLOCK - 1) / BLOCK;
 	sim_rng stream;
 	sim_rng_seed(&stream, 7);
-	sim_rng rngs[ROUND];
+	sim_lanes rngs[ROUND];
 	block_sums sums[ROUND];
 	block_sums total;
 	memset(&total, 0, sizeof total);
 	for (size_t first = 0; first < nblocks; first += ROUND) {
 		size_t count = nblocks - first < ROUND ? nblocks - first : ROUND;
-		for (size_t i = 0; i < count; i++) {
-			rngs[i] = stream;
-			sim_rng_jump(&stream);
-		}
+		for (size_t i = 0; i < count; i++)
+			sim_lanes_take(&rngs[i], &stream);
 #ifdef _OPENMP
 #pragma omp parallel for schedule(dynamic, 1)
 #endif
