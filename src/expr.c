@@ -13,6 +13,7 @@
  */
 #include "expr-internal.h"
 
+#include <stddef.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -43,7 +44,42 @@ struct expr_ctx {
 	__mpq_struct **scratch;
 	size_t scratch_top, scratch_cap;
 	const expr *small_ints[33]; /* -16..16, made on first use */
+	/* Nodes live in chunks that are freed with the context (nodes are never
+	 * freed one by one): arena is the chunk being filled, with left bytes
+	 * free at next. */
+	struct arena_chunk *arena;
+	char *arena_next;
+	size_t arena_left;
 };
+
+typedef struct arena_chunk {
+	struct arena_chunk *prev;
+	max_align_t data[];
+} arena_chunk;
+
+enum { ARENA_MIN = 64 * 1024, ARENA_MAX = 4 * 1024 * 1024 };
+
+/* bytes of node storage, aligned for any type */
+static void *arena_alloc(expr_ctx *ctx, size_t bytes)
+{
+	const size_t align = sizeof(max_align_t);
+	bytes = (bytes + align - 1) / align * align;
+	if (bytes > ctx->arena_left) {
+		size_t size = ctx->arena ? 2 * (size_t)(ctx->arena_next + ctx->arena_left - (char *)ctx->arena->data)
+					 : ARENA_MIN;
+		size = size > ARENA_MAX ? ARENA_MAX : size;
+		size = size < bytes ? bytes : size;
+		arena_chunk *chunk = xmalloc(sizeof *chunk + size);
+		chunk->prev = ctx->arena;
+		ctx->arena = chunk;
+		ctx->arena_next = (char *)chunk->data;
+		ctx->arena_left = size;
+	}
+	void *p = ctx->arena_next;
+	ctx->arena_next += bytes;
+	ctx->arena_left -= bytes;
+	return p;
+}
 
 static mpq_ptr scratch_take(expr_ctx *ctx)
 {
@@ -207,7 +243,18 @@ static unsigned node_height(const expr *e)
 	return h + 1;
 }
 
-/* Intern a candidate: return the existing equal node, or a heap copy of it.
+/* q as a read-only GMP number over a copy of from's limbs at limbs (room for
+ * both parts); it is never cleared. */
+static void read_only_copy(mpq_ptr q, mpq_srcptr from, mp_limb_t *limbs)
+{
+	size_t nnum = mpz_size(mpq_numref(from)), nden = mpz_size(mpq_denref(from));
+	memcpy(limbs, mpz_limbs_read(mpq_numref(from)), nnum * sizeof *limbs);
+	memcpy(limbs + nnum, mpz_limbs_read(mpq_denref(from)), nden * sizeof *limbs);
+	mpz_roinit_n(mpq_numref(q), limbs, mpq_numref(from)->_mp_size);
+	mpz_roinit_n(mpq_denref(q), limbs + nnum, mpq_denref(from)->_mp_size);
+}
+
+/* Intern a candidate: return the existing equal node, or an arena copy of it.
  * The candidate's arrays and numbers are borrowed; they are copied when kept. */
 static const expr *intern(expr_ctx *ctx, expr *candidate)
 {
@@ -225,7 +272,8 @@ static const expr *intern(expr_ctx *ctx, expr *candidate)
 	candidate->height = node_height(candidate);
 	if (ctx->limits.max_height && candidate->height > ctx->limits.max_height)
 		return expr_fail(ctx, EXPR_ERR_DEPTH, "expression nested too deeply (tree depth limit reached)");
-	/* one block: the node, then its operand arrays */
+	/* one block in the arena: the node, its operand arrays, the limbs of
+	 * its number (read-only GMP numbers over them: nodes never change) */
 	size_t n = candidate->nops, extra = 0;
 	if (candidate->kind == EXPR_ADD)
 		extra = n * sizeof(expr *);
@@ -233,13 +281,17 @@ static const expr *intern(expr_ctx *ctx, expr *candidate)
 		extra = 2 * n * sizeof(expr *);
 	else if (candidate->kind == EXPR_FAPP)
 		extra = n * sizeof(expr *) + n;
-	expr *node = xmalloc(sizeof *node + extra);
+	mpq_srcptr number = candidate->kind == EXPR_NUM ? candidate->u.num
+			    : candidate->kind == EXPR_MUL ? candidate->u.mul.coef : NULL;
+	size_t limbs = number ? mpz_size(mpq_numref(number)) + mpz_size(mpq_denref(number)) : 0;
+	expr *node = arena_alloc(ctx, sizeof *node + limbs * sizeof(mp_limb_t) + extra);
 	*node = *candidate;
-	const expr **arrays = (const expr **)(node + 1);
+	if (number)
+		read_only_copy(candidate->kind == EXPR_NUM ? node->u.num : node->u.mul.coef, number,
+			       (mp_limb_t *)(node + 1));
+	const expr **arrays = (const expr **)((mp_limb_t *)(node + 1) + limbs);
 	switch (node->kind) {
 	case EXPR_NUM:
-		mpq_init(node->u.num);
-		mpq_set(node->u.num, candidate->u.num);
 		break;
 	case EXPR_SYM:
 		node->u.sym.name = xstrdup(candidate->u.sym.name);
@@ -252,8 +304,6 @@ static const expr *intern(expr_ctx *ctx, expr *candidate)
 		node->u.add.terms = copy_bytes(arrays, candidate->u.add.terms, n * sizeof *arrays);
 		break;
 	case EXPR_MUL:
-		mpq_init(node->u.mul.coef);
-		mpq_set(node->u.mul.coef, candidate->u.mul.coef);
 		node->u.mul.bases = copy_bytes(arrays, candidate->u.mul.bases, n * sizeof *arrays);
 		node->u.mul.exps = copy_bytes(arrays + n, candidate->u.mul.exps, n * sizeof *arrays);
 		node->u.mul.unit = NULL;
@@ -270,28 +320,15 @@ static const expr *intern(expr_ctx *ctx, expr *candidate)
 	return node;
 }
 
+/* What a node owns outside the arena: a symbol's names. */
 static void free_node(expr *node)
 {
-	switch (node->kind) {
-	case EXPR_NUM:
-		mpq_clear(node->u.num);
-		break;
-	case EXPR_SYM:
+	if (node->kind == EXPR_SYM) {
 		free(node->u.sym.name);
 		for (size_t i = 0; i < node->u.sym.nargs; i++)
 			free(node->u.sym.arg_names[i]);
 		free(node->u.sym.arg_names);
-		break;
-	case EXPR_ADD:
-		break;
-	case EXPR_MUL:
-		mpq_clear(node->u.mul.coef);
-		break;
-	case EXPR_FUN:
-	case EXPR_FAPP:
-		break;
 	}
-	free(node); /* the operand arrays live in the node's block */
 }
 
 /* ------------------------------------------------------------------ context */
@@ -325,6 +362,10 @@ void expr_ctx_free(expr_ctx *ctx)
 		free(ctx->scratch[i]);
 	}
 	free(ctx->scratch);
+	for (arena_chunk *chunk = ctx->arena, *prev; chunk; chunk = prev) {
+		prev = chunk->prev;
+		free(chunk);
+	}
 	free(ctx);
 }
 
