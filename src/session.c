@@ -941,7 +941,10 @@ static void put_term(session *s, xbuf *buf, const expr *c, const char *increment
 	const char *times = latex ? "\\," : "*";
 	if (top_level_sum(text)) {
 		xbuf_put(buf, all_negative ? (first ? "-" : " - ") : (first ? "" : " + "));
-		xbuf_printf(buf, latex ? "\\left(%s\\right)%s" : "(%s)*%s", text, increment);
+		xbuf_put(buf, latex ? "\\left(" : "(");
+		xbuf_put(buf, text);
+		xbuf_put(buf, latex ? "\\right)" : ")*");
+		xbuf_put(buf, increment);
 		free(text);
 		return;
 	}
@@ -951,10 +954,13 @@ static void put_term(session *s, xbuf *buf, const expr *c, const char *increment
 		xbuf_put(buf, negative ? "-" : "");
 	else
 		xbuf_put(buf, negative ? " - " : " + ");
-	if (strcmp(body, "1") == 0)
+	if (strcmp(body, "1") == 0) {
 		xbuf_put(buf, increment);
-	else
-		xbuf_printf(buf, "%s%s%s", body, times, increment);
+	} else {
+		xbuf_put(buf, body);
+		xbuf_put(buf, times);
+		xbuf_put(buf, increment);
+	}
 	free(text);
 }
 

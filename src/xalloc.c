@@ -138,18 +138,26 @@ void xbuf_putc(xbuf *buf, char c)
 	xbuf_putn(buf, &c, 1);
 }
 
+/* Formats into the free space first; only a result that does not fit is
+ * formatted a second time, into a grown buffer. */
 void xbuf_printf(xbuf *buf, const char *format, ...)
 {
+	xbuf_reserve(buf, 64);
+	size_t room = buf->capacity - buf->length;
 	va_list args;
 	va_start(args, format);
-	int length = vsnprintf(NULL, 0, format, args);
+	int length = vsnprintf(buf->data + buf->length, room, format, args);
 	va_end(args);
-	if (length <= 0)
+	if (length <= 0) {
+		buf->data[buf->length] = '\0';
 		return;
-	xbuf_reserve(buf, (size_t)length);
-	va_start(args, format);
-	vsnprintf(buf->data + buf->length, (size_t)length + 1, format, args);
-	va_end(args);
+	}
+	if ((size_t)length >= room) {
+		xbuf_reserve(buf, (size_t)length);
+		va_start(args, format);
+		vsnprintf(buf->data + buf->length, (size_t)length + 1, format, args);
+		va_end(args);
+	}
 	buf->length += (size_t)length;
 }
 
