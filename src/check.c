@@ -700,10 +700,18 @@ ITOX_VECTOR static void scheme_step(const plan *p, scheme *s, size_t B, double h
 	for (size_t i = 0; i < np; i++) {
 		double *restrict x = s->x + i * B;
 		const double *restrict drift = s->cout + i * B;
-		ITOX_INDEPENDENT
-		for (size_t q = 0; q < B; q++)
-			x[q] += drift[q] * h;
-		for (size_t a = 0; a < nn; a++) {
+		/* ((x + a h) + b_1 dW_1) + b_2 dW_2 ..., the first two terms in one pass */
+		const double *restrict b0 = s->cout + (np + i * nn) * B, *restrict dw0 = s->dw;
+		if (nn == 0) {
+			ITOX_INDEPENDENT
+			for (size_t q = 0; q < B; q++)
+				x[q] += drift[q] * h;
+		} else {
+			ITOX_INDEPENDENT
+			for (size_t q = 0; q < B; q++)
+				x[q] = (x[q] + drift[q] * h) + b0[q] * dw0[q];
+		}
+		for (size_t a = 1; a < nn; a++) {
 			const double *restrict b = s->cout + (np + i * nn + a) * B, *restrict dw = s->dw + a * B;
 			ITOX_INDEPENDENT
 			for (size_t q = 0; q < B; q++)

@@ -576,7 +576,7 @@ static int usage(void)
 
 int main(int argc, char **argv)
 {
-	bench_options opt = {.reps = 5, .budget = 3, .timeout = 30, .max_n = 1000};
+	bench_options opt = {.reps = MAX_REPS, .budget = 3, .timeout = 30, .max_n = 1000};
 	xalloc_use_for_gmp();
 	for (int i = 1; i < argc; i++) {
 		const char *arg = argv[i], *value = i + 1 < argc ? argv[i + 1] : NULL;
