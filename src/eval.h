@@ -25,7 +25,8 @@ void eval_free(eval_prog *prog);
  * on them alone is computed once per call.  The results are the same bits. */
 void eval_set_uniform(eval_prog *prog, size_t first);
 
-/* Evaluate at npoints points: vars[v*npoints + p], outputs[o*npoints + p]. */
+/* Evaluate at npoints points: vars[v*npoints + p], outputs[o*npoints + p]
+ * (the two arrays must not overlap: outputs are written as they are computed). */
 void eval_run(const eval_prog *prog, size_t npoints, const double *vars, double *outputs);
 
 /* One expression at one point (convenience; compiles each time). */
