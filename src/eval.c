@@ -27,7 +27,6 @@ typedef struct instr {
 	size_t var;	  /* OP_VAR */
 	bool uniform;	  /* the same at every point of a call (eval_set_uniform) */
 	size_t direct;	  /* o + 1 when written straight into output o, else 0 */
-	bool spread;	  /* uniform, and read by an instruction computed per point */
 } instr;
 
 struct eval_prog {
@@ -149,21 +148,7 @@ static bool compile_node(compiler *c, const expr *e, size_t *reg)
 static void assign_outputs(eval_prog *prog)
 {
 	for (size_t i = 0; i < prog->ncode; i++)
-		prog->code[i].direct = 0, prog->code[i].spread = false;
-	for (size_t i = 0; i < prog->ncode; i++) {
-		const instr *in = &prog->code[i];
-		if (in->uniform)
-			continue;
-		if (in->code == OP_ADD || in->code == OP_MUL)
-			for (size_t k = 0; k < in->nlist; k++)
-				prog->code[in->list[k]].spread = true;
-		else if (in->code == OP_POWX)
-			prog->code[in->a].spread = prog->code[in->b].spread = true;
-		else if (in->code != OP_CONST && in->code != OP_VAR)
-			prog->code[in->a].spread = true;
-	}
-	for (size_t i = 0; i < prog->ncode; i++)
-		prog->code[i].spread = prog->code[i].spread && prog->code[i].uniform;
+		prog->code[i].direct = 0;
 	for (size_t o = 0; o < prog->nout; o++) {
 		instr *in = &prog->code[prog->outputs[o]];
 		if (!in->uniform && in->code != OP_VAR && !in->direct)
@@ -314,26 +299,46 @@ static void apply_builtin_block(expr_builtin fn, size_t n, const double *x, doub
 	}
 }
 
-/* One instruction over n points: r from the registers src. */
-ITOX_VECTOR static void run_instr(const instr *in, const double *const *src, double *r, size_t n)
+/* One instruction over n points: r from the registers src.  An operand that
+ * is uniform (code[j].uniform) is read once, as a number: x*u and x + u are
+ * the same operations whether u is one number or an array of copies. */
+ITOX_VECTOR static void run_instr(const instr *code, const instr *in, const double *const *src, double *r, size_t n)
 {
 	switch (in->code) {
 	case OP_CONST:
 	case OP_VAR:
 		break; /* placed by eval_run */
 	case OP_ADD: {
-		const double *x0 = src[in->list[0]];
+		size_t j0 = in->list[0];
+		const double *x0 = src[j0];
 		if (in->nlist == 1) {
 			memcpy(r, x0, n * sizeof *r);
 			break;
 		}
-		const double *x1 = src[in->list[1]];
-		for (size_t p = 0; p < n; p++)
-			r[p] = x0[p] + x1[p];
+		size_t j1 = in->list[1];
+		const double *x1 = src[j1];
+		if (code[j0].uniform) {
+			const double u = x0[0];
+			for (size_t p = 0; p < n; p++)
+				r[p] = u + x1[p];
+		} else if (code[j1].uniform) {
+			const double u = x1[0];
+			for (size_t p = 0; p < n; p++)
+				r[p] = x0[p] + u;
+		} else {
+			for (size_t p = 0; p < n; p++)
+				r[p] = x0[p] + x1[p];
+		}
 		for (size_t k = 2; k < in->nlist; k++) {
 			const double *x = src[in->list[k]];
-			for (size_t p = 0; p < n; p++)
-				r[p] += x[p];
+			if (code[in->list[k]].uniform) {
+				const double u = x[0];
+				for (size_t p = 0; p < n; p++)
+					r[p] += u;
+			} else {
+				for (size_t p = 0; p < n; p++)
+					r[p] += x[p];
+			}
 		}
 		break;
 	}
@@ -343,27 +348,47 @@ ITOX_VECTOR static void run_instr(const instr *in, const double *const *src, dou
 		if (in->nlist == 0) {
 			for (size_t p = 0; p < n; p++)
 				r[p] = c;
-		} else if (c == 1.0) {
-			const double *x0 = src[in->list[0]];
-			if (in->nlist >= 2) {
-				const double *x1 = src[in->list[1]];
+		} else if (c == 1.0 && in->nlist >= 2) {
+			size_t j0 = in->list[0], j1 = in->list[1];
+			const double *x0 = src[j0], *x1 = src[j1];
+			if (code[j0].uniform) {
+				const double u = x0[0];
+				for (size_t p = 0; p < n; p++)
+					r[p] = u * x1[p];
+			} else if (code[j1].uniform) {
+				const double u = x1[0];
+				for (size_t p = 0; p < n; p++)
+					r[p] = x0[p] * u;
+			} else {
 				for (size_t p = 0; p < n; p++)
 					r[p] = x0[p] * x1[p];
-				k = 2;
-			} else {
-				memcpy(r, x0, n * sizeof *r);
-				k = 1;
 			}
+			k = 2;
+		} else if (c == 1.0) {
+			memcpy(r, src[in->list[0]], n * sizeof *r);
+			k = 1;
 		} else {
 			const double *x0 = src[in->list[0]];
-			for (size_t p = 0; p < n; p++)
-				r[p] = c * x0[p];
+			if (code[in->list[0]].uniform) {
+				const double u = c * x0[0];
+				for (size_t p = 0; p < n; p++)
+					r[p] = u;
+			} else {
+				for (size_t p = 0; p < n; p++)
+					r[p] = c * x0[p];
+			}
 			k = 1;
 		}
 		for (; k < in->nlist; k++) {
 			const double *x = src[in->list[k]];
-			for (size_t p = 0; p < n; p++)
-				r[p] *= x[p];
+			if (code[in->list[k]].uniform) {
+				const double u = x[0];
+				for (size_t p = 0; p < n; p++)
+					r[p] *= u;
+			} else {
+				for (size_t p = 0; p < n; p++)
+					r[p] *= x[p];
+			}
 		}
 		break;
 	}
@@ -394,8 +419,15 @@ ITOX_VECTOR static void run_instr(const instr *in, const double *const *src, dou
 	}
 	case OP_POWX: {
 		const double *x = src[in->a], *y = src[in->b];
-		for (size_t p = 0; p < n; p++)
-			r[p] = pow(x[p], y[p]);
+		if (code[in->a].uniform)
+			for (size_t p = 0; p < n; p++)
+				r[p] = pow(x[0], y[p]);
+		else if (code[in->b].uniform)
+			for (size_t p = 0; p < n; p++)
+				r[p] = pow(x[p], y[0]);
+		else
+			for (size_t p = 0; p < n; p++)
+				r[p] = pow(x[p], y[p]);
 		break;
 	}
 	case OP_FUN:
@@ -429,8 +461,8 @@ void eval_set_uniform(eval_prog *prog, size_t first)
  * that varies is read where it lies (src[i] points into vars), and an
  * output computed per point is written where it belongs (assign_outputs).
  * Constants and uniform instructions (eval_set_uniform) are computed once per
- * call, at the first point; those that instructions per point read are
- * spread over a block, uniform outputs filled.  Every instruction computes
+ * call, at the first point (instructions per point read them as numbers);
+ * uniform outputs are filled.  Every instruction computes
  * the same operations in the same order as a plain left-to-right
  * evaluation, so results do not depend on the block size: a product
  * c*x1*...*xk is ((c*x1)*x2)..., with c = 1 skipped (1*x1 = x1 exactly), a
@@ -455,10 +487,7 @@ ITOX_VECTOR void eval_run(const eval_prog *prog, size_t npoints, const double *v
 		else if (in->code == OP_VAR)
 			r[0] = vars[in->var * npoints];
 		else
-			run_instr(in, src, r, 1);
-		if (in->spread)
-			for (size_t p = 1; p < BLOCK; p++)
-				r[p] = r[0];
+			run_instr(prog->code, in, src, r, 1);
 	}
 	for (size_t o = 0; o < prog->nout && npoints; o++)
 		if (prog->code[prog->outputs[o]].uniform) {
@@ -476,7 +505,7 @@ ITOX_VECTOR void eval_run(const eval_prog *prog, size_t npoints, const double *v
 				src[i] = vars + in->var * npoints + start;
 			} else {
 				double *r = in->direct ? outputs + (in->direct - 1) * npoints + start : regs + i * BLOCK;
-				run_instr(in, src, r, n);
+				run_instr(prog->code, in, src, r, n);
 				src[i] = r;
 			}
 		}

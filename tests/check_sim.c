@@ -234,7 +234,12 @@ START_TEST(test_uniform_variables)
 	const expr *drift = expr_mul(ctx, expr_sub(ctx, mu, expr_mul(ctx, half, v)), S);
 	const expr *claim = expr_sub(ctx, mu, expr_mul(ctx, half, expr_pow(ctx, xi, expr_int(ctx, 2))));
 	const expr *decay = expr_mul(ctx, S, expr_fun(ctx, EXPR_F_EXP, expr_neg(ctx, expr_mul(ctx, mu, t))));
-	const expr *outs[] = {drift, claim, decay, drift, v, expr_pow_rat(ctx, v, 1, 2), mu};
+	const expr *outs[] = {drift, claim, decay, drift, v, expr_pow_rat(ctx, v, 1, 2), mu,
+			      /* uniform operands in every position of sums, products and powers */
+			      expr_add(ctx, expr_add(ctx, S, v), expr_mul(ctx, xi, mu)),
+			      expr_mul(ctx, expr_mul(ctx, S, v), mu), expr_mul(ctx, expr_int(ctx, 3), expr_mul(ctx, mu, S)),
+			      expr_mul(ctx, expr_int(ctx, 3), expr_mul(ctx, mu, xi)), expr_pow(ctx, S, mu),
+			      expr_pow(ctx, mu, v), expr_add(ctx, xi, expr_fun(ctx, EXPR_F_LOG, v))};
 	size_t nout = sizeof outs / sizeof *outs, nvars = sizeof vars / sizeof *vars;
 	eval_prog *plain = eval_compile(ctx, nout, outs, nvars, vars, NULL);
 	eval_prog *uniform = eval_compile(ctx, nout, outs, nvars, vars, NULL);
