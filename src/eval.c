@@ -317,7 +317,11 @@ ITOX_VECTOR static void run_instr(const instr *code, const instr *in, const doub
 		}
 		size_t j1 = in->list[1];
 		const double *x1 = src[j1];
-		if (code[j0].uniform) {
+		if (code[j0].uniform && code[j1].uniform) {
+			const double u = x0[0] + x1[0];
+			for (size_t p = 0; p < n; p++)
+				r[p] = u;
+		} else if (code[j0].uniform) {
 			const double u = x0[0];
 			for (size_t p = 0; p < n; p++)
 				r[p] = u + x1[p];
@@ -351,7 +355,11 @@ ITOX_VECTOR static void run_instr(const instr *code, const instr *in, const doub
 		} else if (c == 1.0 && in->nlist >= 2) {
 			size_t j0 = in->list[0], j1 = in->list[1];
 			const double *x0 = src[j0], *x1 = src[j1];
-			if (code[j0].uniform) {
+			if (code[j0].uniform && code[j1].uniform) {
+				const double u = x0[0] * x1[0];
+				for (size_t p = 0; p < n; p++)
+					r[p] = u;
+			} else if (code[j0].uniform) {
 				const double u = x0[0];
 				for (size_t p = 0; p < n; p++)
 					r[p] = u * x1[p];

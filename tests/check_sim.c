@@ -239,7 +239,10 @@ START_TEST(test_uniform_variables)
 			      expr_add(ctx, expr_add(ctx, S, v), expr_mul(ctx, xi, mu)),
 			      expr_mul(ctx, expr_mul(ctx, S, v), mu), expr_mul(ctx, expr_int(ctx, 3), expr_mul(ctx, mu, S)),
 			      expr_mul(ctx, expr_int(ctx, 3), expr_mul(ctx, mu, xi)), expr_pow(ctx, S, mu),
-			      expr_pow(ctx, mu, v), expr_add(ctx, xi, expr_fun(ctx, EXPR_F_LOG, v))};
+			      expr_pow(ctx, mu, v), expr_add(ctx, xi, expr_fun(ctx, EXPR_F_LOG, v)),
+			      /* two uniform operands first, then one per point (mu, t sort before v) */
+			      expr_mul(ctx, expr_mul(ctx, mu, t), v), expr_add(ctx, expr_add(ctx, mu, t), v),
+			      expr_mul(ctx, expr_int(ctx, 3), expr_mul(ctx, expr_mul(ctx, mu, t), v))};
 	size_t nout = sizeof outs / sizeof *outs, nvars = sizeof vars / sizeof *vars;
 	eval_prog *plain = eval_compile(ctx, nout, outs, nvars, vars, NULL);
 	eval_prog *uniform = eval_compile(ctx, nout, outs, nvars, vars, NULL);
@@ -258,8 +261,16 @@ START_TEST(test_uniform_variables)
 		in[3 * n + q] = 0.05;
 		in[4 * n + q] = 0.3;
 	}
+	/* the plain program first runs at other parameter values, so that the
+	 * registers it leaves on the stack cannot stand in for values the
+	 * uniform program should have computed */
+	for (size_t q = 0; q < n; q++)
+		in[3 * n + q] = 0.07, in[4 * n + q] = 0.4;
 	eval_run(plain, n, in, a);
+	for (size_t q = 0; q < n; q++)
+		in[3 * n + q] = 0.05, in[4 * n + q] = 0.3;
 	eval_run(uniform, n, in, b);
+	eval_run(plain, n, in, a);
 	ck_assert_mem_eq(a, b, nout * n * sizeof *a);
 	/* and the plain program is the formula, point by point */
 	for (size_t q = 0; q < n; q += 37) {
