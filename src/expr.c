@@ -908,8 +908,10 @@ const expr *expr_add_n(expr_ctx *ctx, size_t n, const expr *const *terms)
 	if (n == 1)
 		return terms[0];
 	size_t mark = ctx->scratch_top;
-	term_list list = {.cap = 32};
+	term_list list; /* not an initializer, which would clear the inline storage */
 	list.items = list.inline_items;
+	list.n = 0;
+	list.cap = sizeof list.inline_items / sizeof *list.inline_items;
 	for (size_t i = 0; i < n; i++)
 		collect_terms(ctx, terms[i], &list);
 	term_pair *pairs = list.items;
@@ -996,14 +998,20 @@ typedef struct factor {
 } factor;
 
 /* Factors, in the list's own storage until they outgrow it: start a list
- * with FACTOR_LIST_INIT(name) and end it with factor_list_free. */
+ * with factor_list_init and end it with factor_list_free. */
 typedef struct factor_list {
 	factor *items;
 	size_t n, cap;
 	factor inline_items[24];
 } factor_list;
 
-#define FACTOR_LIST_INIT(list) {.items = (list).inline_items, .cap = 24}
+/* Not an initializer: that would clear the inline storage on every call. */
+static void factor_list_init(factor_list *list)
+{
+	list->items = list->inline_items;
+	list->n = 0;
+	list->cap = sizeof list->inline_items / sizeof *list->inline_items;
+}
 
 static void factor_push(factor_list *list, const expr *base, const expr *exponent)
 {
@@ -1056,7 +1064,8 @@ const expr *expr_pow_pair(expr_ctx *ctx, const expr *base, const expr *exponent)
 		return ctx->one;
 	if (expr_is_one(exponent))
 		return base;
-	factor_list list = FACTOR_LIST_INIT(list);
+	factor_list list;
+	factor_list_init(&list);
 	factor_push(&list, base, exponent);
 	const expr *result = make_mul(ctx, ctx->one->u.num, &list);
 	factor_list_free(&list);
@@ -1284,7 +1293,8 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 	size_t mark = ctx->scratch_top;
 	mpq_ptr coef = scratch_take(ctx);
 	mpq_set_ui(coef, 1, 1);
-	factor_list factors = FACTOR_LIST_INIT(factors);
+	factor_list factors;
+	factor_list_init(&factors);
 	const expr *sums_local[8];
 	const expr **sums = sums_local;
 	size_t nsums = 0;
@@ -1392,7 +1402,8 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 
 	/* merge equal bases; fold exp factors into one exp */
 	run_sort(factors.items, factors.n, sizeof *factors.items, compare_factors);
-	factor_list merged = FACTOR_LIST_INIT(merged);
+	factor_list merged;
+	factor_list_init(&merged);
 	const expr **exp_args = NULL;
 	size_t nexp = 0;
 	const expr **extras = NULL;
@@ -1483,7 +1494,8 @@ static const expr *divide_exactly(expr_ctx *ctx, const expr *term, const expr *m
 	const expr *const *tb = term->kind == EXPR_MUL ? term->u.mul.bases : &term;
 	const expr *const *te = term->kind == EXPR_MUL ? term->u.mul.exps : &one_exp;
 	size_t tn = term->kind == EXPR_MUL ? term->nops : 1;
-	factor_list kept = FACTOR_LIST_INIT(kept);
+	factor_list kept;
+	factor_list_init(&kept);
 	size_t j = 0;
 	const expr *result = NULL;
 	for (size_t i = 0; i < tn; i++) {
