@@ -477,7 +477,7 @@ void eval_set_uniform(eval_prog *prog, size_t first)
  * sum ((x1 + x2) + x3)... */
 enum { STACK_CODE = 16 };
 
-ITOX_VECTOR void eval_run(const eval_prog *prog, size_t npoints, const double *vars, double *outputs)
+ITOX_VECTOR static void run_program(const eval_prog *prog, size_t npoints, const double *vars, double *outputs)
 {
 	size_t ncode = prog->ncode ? prog->ncode : 1;
 	double stack_regs[STACK_CODE * BLOCK];
@@ -527,6 +527,13 @@ ITOX_VECTOR void eval_run(const eval_prog *prog, size_t npoints, const double *v
 		free(src);
 	if (regs != stack_regs)
 		free(regs);
+}
+
+/* The clones are static: clang resolves a multiversioned function only
+ * where the attribute is seen, so other files call this plain function. */
+void eval_run(const eval_prog *prog, size_t npoints, const double *vars, double *outputs)
+{
+	run_program(prog, npoints, vars, outputs);
 }
 
 double eval_at(expr_ctx *ctx, const expr *e, size_t nvars, const expr *const *vars,

@@ -4,7 +4,10 @@
  * also be compiled for AVX2 and AVX-512 machines, the copy chosen when the
  * program starts (configure: --disable-vector-clones); every copy does the
  * same floating-point operations in the same order (configure turns off
- * contraction into FMA), so results do not depend on the machine.
+ * contraction into FMA), so results do not depend on the machine.  Put it
+ * on static functions only: clang calls a multiversioned function through
+ * its resolver only where the attribute is seen, so a call from another file
+ * would not link.
  * ITOX_INDEPENDENT before a loop says that its arrays do not overlap, so
  * the compiler need not check before vectorising (GCC's ivdep, clang's
  * assume_safety).
