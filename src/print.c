@@ -59,16 +59,18 @@ typedef struct printer {
 	expr_map order_map; /* term -> NUM position + 1, for the sum being collected */
 } printer;
 
-/* A zeroed node; only numbers and products carry (and initialise) num. */
+/* A zeroed node; only numbers and products carry (and initialise) num.
+ * Blocks are not cleared when made: a node is, when it is handed out. */
 static dnode *dnew(printer *p, dkind kind)
 {
 	if (p->block_used == p->block_size) {
 		p->block_size = p->block_size ? 2 * p->block_size : 8;
 		p->blocks = xreallocarray(p->blocks, p->nblocks + 1, sizeof *p->blocks);
-		p->blocks[p->nblocks++] = xcalloc(p->block_size, sizeof(dnode));
+		p->blocks[p->nblocks++] = xreallocarray(NULL, p->block_size, sizeof(dnode));
 		p->block_used = 0;
 	}
 	dnode *d = &p->blocks[p->nblocks - 1][p->block_used++];
+	memset(d, 0, sizeof *d);
 	d->kind = kind;
 	if (kind == D_NUM || kind == D_PROD)
 		mpq_init(d->num);

@@ -1045,7 +1045,9 @@ static void output_differential(session *s, const char *kind, const expr *of, co
 		char *body = differential_text(s, d, latex);
 		if (of) {
 			char *label = differential_label(s, of, latex ? PRN_LATEX : PRN_TEXT);
-			xbuf_printf(&buf, "%s = %s", label, body);
+			xbuf_put(&buf, label);
+			xbuf_put(&buf, " = ");
+			xbuf_put(&buf, body);
 			free(label);
 		} else {
 			xbuf_put(&buf, body);
