@@ -467,6 +467,30 @@ static dnode *ordered(dnode *d, size_t order)
 }
 
 /* Terms that contain generic functions: grouped by the function part. */
+typedef struct group_member {
+	const expr *key;
+	size_t index, place; /* the term's index, and its place in the rank order */
+} group_member;
+
+typedef struct group_run {
+	size_t start, length, place; /* place: the first member's, in the rank order */
+} group_run;
+
+static int compare_members(const void *x, const void *y)
+{
+	const group_member *a = x, *b = y;
+	uintptr_t ka = (uintptr_t)a->key, kb = (uintptr_t)b->key;
+	if (ka != kb)
+		return ka < kb ? -1 : 1;
+	return (a->index > b->index) - (a->index < b->index);
+}
+
+static int compare_runs(const void *x, const void *y)
+{
+	const group_run *a = x, *b = y;
+	return (a->place > b->place) - (a->place < b->place);
+}
+
 static void build_function_groups(printer *p, dnode *sum, size_t n, const expr *const *terms)
 {
 	expr_ctx *ctx = p->ctx;
@@ -487,32 +511,44 @@ static void build_function_groups(printer *p, dnode *sum, size_t n, const expr *
 		order[j] = i;
 	}
 	free(rank);
-	bool *used = xcalloc(n, sizeof *used);
+	/* Groups of equal keys, members in term order, groups in the order of
+	 * their first member in `order`: sort the terms by (key, index), so each
+	 * group is a run, then the runs by their first place in `order`. */
+	group_member *members = xmalloc(n * sizeof *members);
+	for (size_t oi = 0; oi < n; oi++)
+		members[order[oi]] = (group_member){.key = keys[order[oi]], .index = order[oi], .place = oi};
+	qsort(members, n, sizeof *members, compare_members);
+	group_run *runs = xmalloc(n * sizeof *runs);
+	size_t nruns = 0;
+	for (size_t i = 0; i < n; i++) {
+		if (i == 0 || members[i].key != members[i - 1].key)
+			runs[nruns++] = (group_run){.start = i, .place = members[i].place};
+		runs[nruns - 1].length++;
+		if (members[i].place < runs[nruns - 1].place)
+			runs[nruns - 1].place = members[i].place;
+	}
+	qsort(runs, nruns, sizeof *runs, compare_runs);
 	const expr **group = xmalloc(n * sizeof *group);
-	for (size_t oi = 0; oi < n; oi++) {
-		size_t i = order[oi];
-		if (used[i])
-			continue;
-		size_t ng = 0;
-		for (size_t j = 0; j < n; j++)
-			if (!used[j] && keys[j] == keys[i]) {
-				group[ng++] = rests[j];
-				used[j] = true;
-			}
-		if (expr_is_one(keys[i])) {
+	for (size_t r = 0; r < nruns; r++) {
+		size_t ng = runs[r].length;
+		const expr *key = members[runs[r].start].key;
+		for (size_t k = 0; k < ng; k++)
+			group[k] = rests[members[runs[r].start + k].index];
+		if (expr_is_one(key)) {
 			build_terms(p, sum, ng, group);
 			continue;
 		}
 		const expr *coefficient = expr_add_n(ctx, ng, group);
 		if (ng == 1 || !coefficient || coefficient->kind != EXPR_ADD)
-			push_sum_item(sum, build(p, expr_mul(ctx, coefficient, keys[i])));
+			push_sum_item(sum, build(p, expr_mul(ctx, coefficient, key)));
 		else
-			push_sum_item(sum, product_display(p, keys[i], coefficient));
+			push_sum_item(sum, product_display(p, key, coefficient));
 	}
 	free(keys);
 	free(rests);
 	free(order);
-	free(used);
+	free(members);
+	free(runs);
 	free(group);
 }
 
