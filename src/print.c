@@ -147,6 +147,7 @@ static int factor_rank(printer *p, const expr *base)
 /* ------------------------------------------------------------------ building */
 
 static dnode *build(printer *p, const expr *e);
+static bool at_declared_args(const expr *e);
 
 static int compare_dfactors(const void *x, const void *y)
 {
@@ -773,6 +774,8 @@ static dnode *build(printer *p, const expr *e)
 	case EXPR_FAPP:
 		d = dnew(p, D_FAPP);
 		d->e = e;
+		if (p->format != PRN_C && at_declared_args(e))
+			return d; /* written without its arguments (emit_fapp) */
 		d->items = xmalloc(e->nops * sizeof *d->items);
 		d->n = e->nops;
 		for (size_t i = 0; i < e->nops; i++)
