@@ -41,6 +41,7 @@ struct dnode {
 	dfactor *factors;  /* D_PROD */
 	size_t nfactors;
 	size_t order;	   /* in a collected sum: position of its first term in the node order */
+	bool declared;	   /* D_FAPP at its declared arguments (written without them) */
 };
 
 typedef struct printer {
@@ -774,7 +775,8 @@ static dnode *build(printer *p, const expr *e)
 	case EXPR_FAPP:
 		d = dnew(p, D_FAPP);
 		d->e = e;
-		if (p->format != PRN_C && at_declared_args(e))
+		d->declared = at_declared_args(e);
+		if (p->format != PRN_C && d->declared)
 			return d; /* written without its arguments (emit_fapp) */
 		d->items = xmalloc(e->nops * sizeof *d->items);
 		d->n = e->nops;
@@ -1054,7 +1056,7 @@ static void emit_fun(printer *p, xbuf *out, const dnode *d)
 static void emit_fapp(printer *p, xbuf *out, const dnode *d)
 {
 	char *name = prn_fapp_name(d->e);
-	bool declared = at_declared_args(d->e);
+	bool declared = d->declared;
 	if (p->format == PRN_C) {
 		for (char *c = name; *c; c++)
 			if (*c == '{' || *c == '}' || *c == ',')
