@@ -162,7 +162,7 @@ static double zig_redraw(sim_rng *rng, uint64_t bits)
 	}
 }
 
-enum { ZIG_BATCH = SIM_NORMAL_BATCH, ZIG_CHUNK = 16 };
+enum { ZIG_CHUNK = 16 };
 
 /* The common case over a batch of m outputs: x is accepted when
  * x < x[layer + 1] (about 99 % of the draws); rejected positions get NAN,
@@ -222,18 +222,22 @@ ITOX_VECTOR static void lanes_fill(sim_lanes *restrict lanes, size_t m, uint64_t
 void sim_lanes_normals(sim_lanes *lanes, size_t n, double *out)
 {
 	pthread_once(&zig_once, zig_build);
-	uint64_t raw[ZIG_BATCH];
-	for (size_t start = 0; start < n; start += ZIG_BATCH) {
-		size_t m = n - start < ZIG_BATCH ? n - start : ZIG_BATCH;
+	uint64_t raw[SIM_NORMAL_BATCH];
+	for (size_t start = 0; start < n; start += SIM_NORMAL_BATCH) {
+		size_t m = n - start < SIM_NORMAL_BATCH ? n - start : SIM_NORMAL_BATCH;
 		lanes_fill(lanes, (m + SIM_LANES - 1) / SIM_LANES * SIM_LANES, raw);
 		double *o = out + start;
-		unsigned char bad[ZIG_BATCH / ZIG_CHUNK];
+		unsigned char bad[SIM_NORMAL_BATCH / ZIG_CHUNK];
 		zig_accept(m, raw, o, bad);
 		sim_rng lane0 = {{lanes->s[0][0], lanes->s[1][0], lanes->s[2][0], lanes->s[3][0]}};
-		for (size_t c = 0; c * ZIG_CHUNK < m; c++)
-			for (size_t i = c * ZIG_CHUNK; bad[c] && i < m && i < (c + 1) * ZIG_CHUNK; i++)
+		for (size_t c = 0; c * ZIG_CHUNK < m; c++) {
+			if (!bad[c])
+				continue;
+			size_t end = m - c * ZIG_CHUNK < ZIG_CHUNK ? m : (c + 1) * ZIG_CHUNK;
+			for (size_t i = c * ZIG_CHUNK; i < end; i++)
 				if (isnan(o[i]))
 					o[i] = zig_redraw(&lane0, raw[i]);
+		}
 		for (int w = 0; w < 4; w++)
 			lanes->s[w][0] = lane0.s[w];
 	}
