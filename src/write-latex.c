@@ -105,39 +105,46 @@ static bool math(writer *w, const stmt_result *r, xbuf *buf)
 	return false;
 }
 
-/* A claim's or check's verdict as a sentence (standalone) or a comment. */
-static void sentence(writer *w, const stmt_result *r, xbuf *buf, bool comment)
+/* A claim's or check's verdict: "holds (exact)", "consistent". New string. */
+static char *verdict(writer *w, const stmt_result *r)
 {
-	char *place = result_place(r);
-	xbuf text = {0};
 	if (r->kind == RESULT_CLAIM) {
 		char *detail = writer_claim_detail(r, w->ctx);
-		xbuf_printf(&text, "%s: claim %s%s", place, result_claim_verdict(r), detail);
+		char *text = xasprintf("%s%s", result_claim_verdict(r), detail);
 		free(detail);
-	} else {
-		xbuf_printf(&text, "%s: check %s", place,
-		            r->check->consistent ? "consistent" : "inconsistent");
+		return text;
 	}
-	if (comment) {
-		xbuf_printf(buf, "%% %s", text.data);
-		if (r->kind == RESULT_CHECK && r->check->text) {
-			/* the check's table, line by line, as comments */
-			for (const char *line = r->check->text; *line;) {
-				const char *end = strchr(line, '\n');
-				size_t length = end ? (size_t)(end - line) : strlen(line);
-				xbuf_printf(buf, "\n%% %.*s", (int)length, line);
-				line += length + (end != NULL);
-			}
-		}
-	} else {
-		xbuf_put(buf, "\\texttt{");
-		put_escaped(buf, r->statement ? r->statement : "");
-		xbuf_put(buf, "}: ");
-		put_escaped(buf, strchr(text.data, ' ') + 1); /* the verdict after the place */
-		xbuf_put(buf, ".\n");
-	}
-	xbuf_free(&text);
+	return xstrdup(r->check->consistent ? "consistent" : "inconsistent");
+}
+
+/* Plain LaTeX output: the verdict as % comments (the check's table too). */
+static void comment(writer *w, const stmt_result *r, xbuf *buf)
+{
+	char *place = result_place(r);
+	char *text = verdict(w, r);
+	xbuf_printf(buf, "%% %s: %s %s", place, r->kind == RESULT_CLAIM ? "claim" : "check", text);
+	free(text);
 	free(place);
+	if (r->kind != RESULT_CHECK || !r->check->text)
+		return;
+	for (const char *line = r->check->text; *line;) {
+		const char *end = strchr(line, '\n');
+		size_t length = end ? (size_t)(end - line) : strlen(line);
+		xbuf_printf(buf, "\n%% %.*s", (int)length, line);
+		line += length + (end != NULL);
+	}
+}
+
+/* A standalone document: "the claim \texttt{...} holds (exact)." */
+static void sentence(writer *w, const stmt_result *r, xbuf *buf)
+{
+	char *text = verdict(w, r);
+	xbuf_printf(buf, "the %s \\texttt{", r->kind == RESULT_CLAIM ? "claim" : "check");
+	put_escaped(buf, r->statement ? r->statement : "");
+	xbuf_put(buf, r->kind == RESULT_CLAIM ? "} " : "} is ");
+	put_escaped(buf, text);
+	xbuf_put(buf, ".\n");
+	free(text);
 }
 
 static bool latex_write(writer *w, const stmt_result *r, char **error)
@@ -146,7 +153,7 @@ static bool latex_write(writer *w, const stmt_result *r, char **error)
 	xbuf buf = {0};
 	if (!w->standalone) {
 		if (!math(w, r, &buf))
-			sentence(w, r, &buf, true);
+			comment(w, r, &buf);
 		if (buf.length)
 			writer_line(w, buf.data);
 		xbuf_free(&buf);
@@ -164,8 +171,8 @@ static bool latex_write(writer *w, const stmt_result *r, char **error)
 		put_escaped(&st->body, r->statement ? r->statement : "");
 		xbuf_printf(&st->body, "}\n\\begin{align*}\n%s\n\\end{align*}\n\n", buf.data);
 	} else {
-		xbuf_put(&st->body, ". ");
-		sentence(w, r, &st->body, false);
+		xbuf_put(&st->body, ": ");
+		sentence(w, r, &st->body);
 		xbuf_putc(&st->body, '\n');
 	}
 	xbuf_free(&buf);
