@@ -59,6 +59,8 @@ typedef struct printer {
 	size_t nsum_terms;
 	expr_map order_map; /* term -> NUM position + 1, for the sum being collected */
 	prn_c_calls *calls; /* C: the generic partials called, or NULL */
+	bool in_exponent;   /* LaTeX: writing an exponent (no stacked fractions there) */
+	bool followed;	    /* LaTeX: the factor being written has another after it */
 } printer;
 
 /* A zeroed node; only numbers and products carry (and initialise) num.
@@ -976,7 +978,7 @@ static void emit_number(printer *p, xbuf *out, const mpq_t q)
 		}
 		return;
 	}
-	if (p->format == PRN_LATEX && !rat_is_integer(q)) {
+	if (p->format == PRN_LATEX && !rat_is_integer(q) && !p->in_exponent) {
 		char *num = rat_to_string(q);
 		char *slash = strchr(num, '/');
 		*slash = '\0';
@@ -1039,13 +1041,20 @@ static void emit_fun(printer *p, xbuf *out, const dnode *d)
 			return;
 		}
 		if (fn == EXPR_F_EXP) {
+			bool outer = p->in_exponent;
+			p->in_exponent = true;
+			p->followed = false;
 			xbuf_put(out, "e^{");
 			emit(p, out, d->child);
 			xbuf_putc(out, '}');
+			p->in_exponent = outer;
 			return;
 		}
 		xbuf_put(out, expr_builtin_latex(fn));
-		bool plain = fn == EXPR_F_LOG || fn == EXPR_F_SIN || fn == EXPR_F_COS;
+		/* \log v without brackets only where nothing follows: \log v S would
+		 * read as the log of v S */
+		bool plain = (fn == EXPR_F_LOG || fn == EXPR_F_SIN || fn == EXPR_F_COS) && !p->followed;
+		p->followed = false;
 		if (plain && d->child->kind == D_SYM) {
 			xbuf_putc(out, ' ');
 			emit(p, out, d->child);
@@ -1162,9 +1171,13 @@ static void emit_power(printer *p, xbuf *out, const dfactor *f, bool absolute)
 		}
 		emit_paren(p, out, base, !is_atomic(base));
 		if (p->format == PRN_LATEX) {
+			bool outer = p->in_exponent;
+			p->in_exponent = true;
+			p->followed = false;
 			xbuf_put(out, "^{");
 			emit(p, out, ex);
 			xbuf_putc(out, '}');
+			p->in_exponent = outer;
 		} else {
 			xbuf_putc(out, '^');
 			emit_paren(p, out, ex, !is_atomic(ex));
@@ -1209,14 +1222,10 @@ static void emit_power(printer *p, xbuf *out, const dfactor *f, bool absolute)
 						      base->e->u.fun.fn != EXPR_F_ABS);
 		emit_paren(p, out, base, base_paren);
 		if (p->format == PRN_LATEX) {
-			xbuf_put(out, "^{");
+			/* v^{3/2}: an exponent holds no stacked fraction */
 			char *s = rat_to_string(e);
-			if (rat_is_integer(e))
-				xbuf_put(out, s);
-			else
-				emit_number(p, out, e);
+			xbuf_printf(out, "^{%s}", s);
 			free(s);
-			xbuf_putc(out, '}');
 		} else {
 			char *s = rat_to_string(e);
 			if (rat_is_integer(e) && mpq_sgn(e) > 0)
@@ -1270,13 +1279,19 @@ static void emit_factor_list(printer *p, xbuf *out, const dnode *d, bool denomin
 		xbuf_put(out, coef_text);
 		(*count)++;
 	}
+	size_t last = d->nfactors;
+	for (size_t i = 0; i < d->nfactors; i++)
+		if (side(p, &d->factors[i]) == (denominator ? 1 : 0))
+			last = i;
 	for (size_t i = 0; i < d->nfactors; i++) {
 		const dfactor *f = &d->factors[i];
 		if (side(p, f) != (denominator ? 1 : 0))
 			continue;
 		if (*count)
 			xbuf_put(out, times);
+		p->followed = p->format == PRN_LATEX && i != last;
 		emit_power(p, out, f, denominator);
+		p->followed = false;
 		(*count)++;
 	}
 }
@@ -1335,7 +1350,8 @@ static void emit_prod(printer *p, xbuf *out, const dnode *d)
 		free(bottom);
 		return;
 	}
-	if (nden == 0) {
+	bool inline_fraction = p->format == PRN_LATEX && p->in_exponent; /* e^{a/2}, not e^{\tfrac{1}{2} a} */
+	if (nden == 0 && (integer || !inline_fraction)) {
 		char *coef = NULL;
 		if (!unit || nnum == 0) {
 			xbuf buf = {0};
@@ -1364,7 +1380,7 @@ static void emit_prod(printer *p, xbuf *out, const dnode *d)
 	size_t nden_parts = count;
 	free(top);
 	free(bottom);
-	if (p->format == PRN_LATEX) {
+	if (p->format == PRN_LATEX && !inline_fraction) {
 		xbuf_printf(out, "\\frac{%s}{%s}", num.data, den.data);
 	} else {
 		bool num_paren = p->format == PRN_C && nnum_parts > 1;
