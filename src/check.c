@@ -1,4 +1,4 @@
-/* check.c - the numerical cross-check of a differential (see check.h).
+/* check.c - the numerical cross-check of a differential (see crosscheck.h).
  *
  * Claim under test: df = a dt + sum_k b_k dW_k, with dW_k dW_l = rho_kl dt.
  *
@@ -10,36 +10,11 @@
  * the variable (fd_scale).  The tolerance is 1e-5 relative to max(1, |value|)
  * plus ten times the rounding error eps |f| / h^k of the quotient.
  *
- * Simulation.  Euler-Maruyama (or Milstein) paths of the processes f needs,
- * from the point, over [t0, t0 + T] with N steps of size h.  Along each path:
- *   QV - I  = sum (f(X_k+1) - f(X_k))^2 - sum g(X_k)^2 h,   g^2 = sum_kl b_k b_l rho_kl
- *   M       = f(X_N) - f(X_0) - sum a(X_k) h - sum_k b_k(X_k) dW_k
- *   C_k     = sum (f(X_k+1) - f(X_k)) dW_k - sum (sum_l rho_kl b_l(X_k)) h
- * Each has mean zero when the claim is right, up to the discretisation.  The
- * term sum b dW in M has mean zero whatever b is (dW_k is independent of X_k),
- * so it is a control variate (Glasserman, Monte Carlo Methods in Financial
- * Engineering, 4.1, from memory): it leaves the mean alone and, when b is
- * right, removes the martingale part from the variance, so a wrong drift shows
- * clearly.  C_k tests each coefficient with its sign, which QV cannot see.
- *
- * Discretisation bias.  Conditionally on X_k one step of the scheme gives
- * E[(df)^2] - g^2 h = O(h^2) and E[df] - a h = O(h^2), so all statistics have
- * a bias c*h + O(h^2).  Every path is run on two grids driven by the same
- * Brownian increments, N steps and N/2 steps (pairs of increments summed), and
- * the statistic used is the Richardson combination 2 S(h) - S(2h), whose bias
- * is O(h^2) (Talay and Tubaro's expansion of the weak error, from memory).
- *
- * Domain.  States assumed positive or nonnegative get full truncation: the
- * coefficients of the SDEs, and those of the claim, see max(x, 0) (Lord,
- * Koekkoek and van Dijk, Quantitative Finance 2010); f itself is evaluated at
- * the state as simulated.  Paths whose statistics are not finite are counted, left out
- * and reported; over 1% of them make the verdict inconsistent.
- *
- * Threads.  Paths run in blocks of CHECK_BLOCK; block j draws from SIM_LANES
- * streams side by side, the seed's stream jumped j SIM_LANES + k times for
- * lane k (xoshiro256++ jump, sim.h), and block results are merged in block
- * order, so the result does not depend on the number of threads.
- * Blocks run in rounds of CHECK_ROUND, so memory does not grow with paths.
+ * Simulation (sim-paths.c): along paths of the processes f needs, the
+ * realised quadratic variation, the martingale residual and the covariation
+ * with each noise, each a mean that is zero when the claim is right.  Paths
+ * whose statistics are not finite are counted, left out and reported; over
+ * 1% of them make the verdict inconsistent.
  */
 #include <config.h>
 
@@ -54,17 +29,14 @@
 #include "diff.h"
 #include "eval.h"
 #include "print.h"
-#include "sim.h"
-#include "vector.h"
+#include "sim-paths.h"
 #include "xalloc.h"
 
-enum { CHECK_BLOCK = 256, CHECK_ROUND = 32 };
 static const double check_z_tolerance = 4;
 static const double check_fd_tolerance = 1e-5;
 static const double check_bad_fraction = 0.01;
 static const double check_default_work = 2e8;
-static const long check_conv_steps[] = {10, 100, 1000, 10000};
-enum { CHECK_NCONV = 4, CHECK_CONV_PATHS = 1000 };
+enum { CHECK_CONV_PATHS = 1000 };
 
 /* ------------------------------------------------------------------ the plan */
 
@@ -89,6 +61,7 @@ typedef struct plan {
 	eval_prog *cprog; /* the claimed drift and b_a, at the truncated point like the SDE's */
 	size_t ncoef, nclaim;
 	char *note;
+	sim_paths_model paths; /* the plan as the path simulation reads it */
 } plan;
 
 static bool vec_has(const expr_vec *vec, const expr *e)
@@ -395,6 +368,22 @@ static char *plan_make(plan *p)
 	}
 	if (!error)
 		error = plan_finite(p);
+	if (!error)
+		p->paths = (sim_paths_model){.nproc = p->nproc,
+		                             .nvars = p->nvars,
+		                             .nnoise = p->nnoise,
+		                             .point = p->point,
+		                             .truncate = p->truncate,
+		                             .rho = p->rho,
+		                             .chol = p->chol,
+		                             .mil_noise = p->mil_noise,
+		                             .coef = p->coef,
+		                             .fprog = p->fprog,
+		                             .cprog = p->cprog,
+		                             .ncoef = p->ncoef,
+		                             .nclaim = p->nclaim,
+		                             .horizon = p->in->horizon,
+		                             .seed = p->in->seed};
 	return error;
 }
 
@@ -532,445 +521,6 @@ static char *fd_name(const plan *p, const fd_row *row)
 	return short_names ? xasprintf("f_%s%s", a, b) : *b ? xasprintf("f_{%s,%s}", a, b) : xasprintf("f_{%s}", a);
 }
 
-/* ------------------------------------------------------------------ paths */
-
-/* One discretisation of a block of paths; it steps every `ratio` fine steps
- * with the sum of their Brownian increments. */
-typedef struct scheme {
-	long ratio, pending;
-	double t;
-	double *x, *vars, *cout, *claim, *fcur, *fnext, *dw; /* x: nvars rows, as vars */
-	double *qv, *integ, *resid, *fv, *cov, *mag;
-	double *work; /* 5 B: step_stats' per-path scratch */
-	unsigned char *below;
-} scheme;
-
-/* f at the states as simulated: s->x has the layout of the program's
- * variables (states, t, parameters), so only the time row changes. */
-static void scheme_eval_f(const plan *p, scheme *s, size_t B, double *out)
-{
-	for (size_t q = 0; q < B; q++)
-		s->x[p->nproc * B + q] = s->t;
-	eval_run(p->fprog, B, s->x, out);
-}
-
-static void scheme_init(const plan *p, scheme *s, size_t B, long ratio)
-{
-	size_t np = p->nproc, nn = p->nnoise;
-	s->ratio = ratio;
-	s->pending = 0;
-	s->t = p->point[np];
-	s->x = xmalloc(p->nvars * B * sizeof *s->x);
-	s->vars = xmalloc(p->nvars * B * sizeof *s->vars);
-	s->cout = xmalloc((p->ncoef + 1) * B * sizeof *s->cout);
-	s->claim = xmalloc(p->nclaim * B * sizeof *s->claim);
-	s->fcur = xmalloc(B * sizeof *s->fcur);
-	s->fnext = xmalloc(B * sizeof *s->fnext);
-	s->dw = xcalloc((nn + 1) * B, sizeof *s->dw);
-	s->qv = xcalloc(B, sizeof *s->qv);
-	s->integ = xcalloc(B, sizeof *s->integ);
-	s->resid = xcalloc(B, sizeof *s->resid);
-	s->fv = xcalloc(B, sizeof *s->fv);
-	s->mag = xcalloc(B, sizeof *s->mag);
-	s->cov = xcalloc((nn + 1) * B, sizeof *s->cov);
-	s->below = xcalloc(B, sizeof *s->below);
-	s->work = xmalloc(5 * B * sizeof *s->work);
-	for (size_t i = 0; i < np; i++)
-		for (size_t q = 0; q < B; q++)
-			s->x[i * B + q] = p->point[i];
-	for (size_t v = np + 1; v < p->nvars; v++)
-		for (size_t q = 0; q < B; q++)
-			s->vars[v * B + q] = s->x[v * B + q] = p->point[v];
-	scheme_eval_f(p, s, B, s->fcur);
-}
-
-static void scheme_free(scheme *s)
-{
-	free(s->x);
-	free(s->vars);
-	free(s->cout);
-	free(s->claim);
-	free(s->fcur);
-	free(s->fnext);
-	free(s->dw);
-	free(s->qv);
-	free(s->integ);
-	free(s->resid);
-	free(s->fv);
-	free(s->mag);
-	free(s->cov);
-	free(s->below);
-	free(s->work);
-}
-
-/* The per-path sums of one step: df = f(X_next) - f(X), the realised QV
- * against the integral of g'Rg, the martingale residual, the covariation
- * with each noise, the first variation and the rounding magnitude.  Written
- * as passes over the block (one per noise), each a plain loop the compiler
- * vectorises. */
-ITOX_VECTOR static void step_stats(const plan *p, scheme *s, size_t B, double h)
-{
-	size_t nn = p->nnoise;
-	const double *restrict f0 = s->fcur, *restrict f1 = s->fnext, *restrict drift = s->claim;
-	double *restrict df = s->work, *restrict g2 = df + B, *restrict bdw = g2 + B, *restrict mag = bdw + B;
-	double *restrict ca = mag + B;
-	ITOX_INDEPENDENT
-	for (size_t q = 0; q < B; q++) {
-		df[q] = f1[q] - f0[q];
-		g2[q] = bdw[q] = mag[q] = 0;
-	}
-	for (size_t a = 0; a < nn; a++) {
-		const double *restrict ba = s->claim + (1 + a) * B, *restrict dwa = s->dw + a * B;
-		double *restrict cov = s->cov + a * B;
-		ITOX_INDEPENDENT
-		for (size_t q = 0; q < B; q++)
-			ca[q] = 0;
-		for (size_t b = 0; b < nn; b++) {
-			const double rho = p->rho[a * nn + b], *restrict bb = s->claim + (1 + b) * B;
-			ITOX_INDEPENDENT
-			for (size_t q = 0; q < B; q++)
-				ca[q] += rho * bb[q];
-		}
-		ITOX_INDEPENDENT
-		for (size_t q = 0; q < B; q++) {
-			g2[q] += ba[q] * ca[q];
-			bdw[q] += ba[q] * dwa[q];
-			cov[q] += df[q] * dwa[q] - ca[q] * h;
-			mag[q] += fabs(df[q] * dwa[q]) + fabs(ca[q]) * h;
-		}
-	}
-	double *restrict qv = s->qv, *restrict integ = s->integ, *restrict resid = s->resid;
-	double *restrict fv = s->fv, *restrict magsum = s->mag;
-	ITOX_INDEPENDENT
-	for (size_t q = 0; q < B; q++) {
-		double d = df[q];
-		qv[q] += d * d;
-		integ[q] += g2[q] * h;
-		resid[q] += d - drift[q] * h - bdw[q];
-		fv[q] += fabs(d);
-		magsum[q] += mag[q] + d * d + fabs(g2[q]) * h + fabs(d) + fabs(drift[q]) * h + fabs(bdw[q]);
-	}
-}
-
-/* step_stats for one noise: the same operations in the same order (so the
- * same bits) in one pass. */
-ITOX_VECTOR static void step_stats_one_noise(const plan *p, scheme *s, size_t B, double h)
-{
-	const double *restrict f0 = s->fcur, *restrict drift = s->claim, *restrict f1 = s->fnext;
-	const double *restrict b0 = s->claim + B, *restrict dw0 = s->dw;
-	double *restrict cov = s->cov, *restrict qv = s->qv, *restrict integ = s->integ;
-	double *restrict resid = s->resid, *restrict fv = s->fv, *restrict magsum = s->mag;
-	const double rho = p->rho[0];
-	ITOX_INDEPENDENT
-	for (size_t q = 0; q < B; q++) {
-		double df = f1[q] - f0[q], ba = b0[q], dwa = dw0[q];
-		double ca = 0 + rho * ba;
-		double g2 = 0 + ba * ca, bdw = 0 + ba * dwa;
-		cov[q] += df * dwa - ca * h;
-		double mag = 0 + (fabs(df * dwa) + fabs(ca) * h);
-		qv[q] += df * df;
-		integ[q] += g2 * h;
-		resid[q] += df - drift[q] * h - bdw;
-		fv[q] += fabs(df);
-		magsum[q] += mag + df * df + fabs(g2) * h + fabs(df) + fabs(drift[q]) * h + fabs(bdw);
-	}
-}
-
-/* One step of size h with the increments s->dw: X += a h + b dW (+ Milstein),
- * the coefficients at max(X, 0) for truncated states; then the sums. */
-ITOX_VECTOR static void scheme_step(const plan *p, scheme *s, size_t B, double h)
-{
-	size_t np = p->nproc, nn = p->nnoise;
-	for (size_t i = 0; i < np; i++) {
-		const double *restrict x = s->x + i * B;
-		double *restrict v = s->vars + i * B;
-		if (p->truncate[i])
-			ITOX_INDEPENDENT
-			for (size_t q = 0; q < B; q++)
-				v[q] = x[q] < 0 ? 0 : x[q];
-		else
-			memcpy(v, x, B * sizeof *v);
-	}
-	double *restrict tv = s->vars + np * B;
-	ITOX_INDEPENDENT
-	for (size_t q = 0; q < B; q++)
-		tv[q] = s->t;
-	eval_run(p->coef, B, s->vars, s->cout);
-	eval_run(p->cprog, B, s->vars, s->claim);
-	for (size_t i = 0; i < np; i++) {
-		double *restrict x = s->x + i * B;
-		const double *restrict drift = s->cout + i * B;
-		/* ((x + a h) + b_1 dW_1) + b_2 dW_2 ..., the first two terms in one pass */
-		const double *restrict b0 = s->cout + (np + i * nn) * B, *restrict dw0 = s->dw;
-		if (nn == 0) {
-			ITOX_INDEPENDENT
-			for (size_t q = 0; q < B; q++)
-				x[q] += drift[q] * h;
-		} else {
-			ITOX_INDEPENDENT
-			for (size_t q = 0; q < B; q++)
-				x[q] = (x[q] + drift[q] * h) + b0[q] * dw0[q];
-		}
-		for (size_t a = 1; a < nn; a++) {
-			const double *restrict b = s->cout + (np + i * nn + a) * B, *restrict dw = s->dw + a * B;
-			ITOX_INDEPENDENT
-			for (size_t q = 0; q < B; q++)
-				x[q] += b[q] * dw[q];
-		}
-		if (p->mil_noise[i] >= 0) {
-			const double *restrict c = s->cout + (np + np * nn + i) * B;
-			const double *restrict dw = s->dw + (size_t)p->mil_noise[i] * B;
-			ITOX_INDEPENDENT
-			for (size_t q = 0; q < B; q++)
-				x[q] += c[q] * (dw[q] * dw[q] - h);
-		}
-		if (p->truncate[i]) {
-			unsigned char *restrict below = s->below;
-			ITOX_INDEPENDENT
-			for (size_t q = 0; q < B; q++)
-				below[q] |= x[q] < 0;
-		}
-	}
-	s->t += h;
-	scheme_eval_f(p, s, B, s->fnext);
-	if (nn == 1)
-		step_stats_one_noise(p, s, B, h);
-	else
-		step_stats(p, s, B, h);
-	double *swap = s->fcur;
-	s->fcur = s->fnext;
-	s->fnext = swap;
-}
-
-/* Run B paths over nsteps fine steps of size dt for all schemes at once:
- * dW = sqrt(dt) L Z with Z independent standard normals. */
-ITOX_VECTOR static void block_paths(const plan *p, volatile sig_atomic_t *interrupt, sim_lanes *rng, size_t B, long nsteps,
-			double dt, size_t nschemes, scheme *schemes)
-{
-	size_t nn = p->nnoise;
-	double *z = xmalloc((nn + 1) * B * sizeof *z);
-	double root = sqrt(dt);
-	for (long k = 0; k < nsteps; k++) {
-		if (interrupt && k % 64 == 0 && *interrupt)
-			break; /* the result is dropped: run_blocks reports the interrupt */
-		sim_lanes_normals(rng, nn * B, z);
-		for (size_t si = 0; si < nschemes; si++) {
-			scheme *s = &schemes[si];
-			for (size_t a = 0; a < nn; a++) {
-				double *restrict dw = s->dw + a * B;
-				bool fresh = s->pending == 0; /* the first increment of a step is stored, not added */
-				for (size_t c = 0; c <= a; c++) {
-					double l = p->chol[a * nn + c] * root;
-					const double *restrict zc = z + c * B;
-					if (l == 0)
-						continue;
-					if (fresh) {
-						ITOX_INDEPENDENT
-						for (size_t q = 0; q < B; q++)
-							dw[q] = l * zc[q];
-					} else {
-						ITOX_INDEPENDENT
-						for (size_t q = 0; q < B; q++)
-							dw[q] += l * zc[q];
-					}
-					fresh = false;
-				}
-				if (fresh)
-					memset(dw, 0, B * sizeof *dw);
-			}
-			if (++s->pending == s->ratio || k == nsteps - 1) {
-				scheme_step(p, s, B, (double)s->pending * dt);
-				s->pending = 0;
-			}
-		}
-	}
-	free(z);
-}
-
-/* ------------------------------------------------------------------ the main statistics */
-
-enum { STAT_QV, STAT_RESID, STAT_TERMINAL, STAT_COV };
-
-typedef struct block_result {
-	long bad, below;
-	sim_stat *ext, *fine; /* nstat each: extrapolated and fine-grid */
-	sim_stat qv, integ, mag;
-} block_result;
-
-typedef struct job {
-	const plan *p;
-	volatile sig_atomic_t *interrupt; /* read (never written) by the threads */
-	long steps;
-	double dt;
-	size_t nstat;
-} job;
-
-static void block_result_init(block_result *r, size_t nstat)
-{
-	memset(r, 0, sizeof *r);
-	r->ext = xcalloc(nstat, sizeof *r->ext);
-	r->fine = xcalloc(nstat, sizeof *r->fine);
-}
-
-static void block_result_merge(block_result *into, const block_result *b, size_t nstat)
-{
-	into->bad += b->bad;
-	into->below += b->below;
-	for (size_t i = 0; i < nstat; i++) {
-		sim_stat_merge(&into->ext[i], &b->ext[i]);
-		sim_stat_merge(&into->fine[i], &b->fine[i]);
-	}
-	sim_stat_merge(&into->qv, &b->qv);
-	sim_stat_merge(&into->integ, &b->integ);
-	sim_stat_merge(&into->mag, &b->mag);
-}
-
-static void block_result_free(block_result *r)
-{
-	free(r->ext);
-	free(r->fine);
-}
-
-static void path_values(const plan *p, const scheme *s, size_t B, size_t q, double *v)
-{
-	v[STAT_QV] = s->qv[q] - s->integ[q];
-	v[STAT_RESID] = s->resid[q];
-	v[STAT_TERMINAL] = s->fcur[q];
-	for (size_t a = 0; a < p->nnoise; a++)
-		v[STAT_COV + a] = s->cov[a * B + q];
-}
-
-static void main_block(const job *jb, sim_lanes *rng, size_t B, block_result *r)
-{
-	const plan *p = jb->p;
-	size_t nschemes = jb->steps >= 2 ? 2 : 1;
-	scheme s[2];
-	for (size_t i = 0; i < nschemes; i++)
-		scheme_init(p, &s[i], B, (long)i + 1);
-	block_paths(p, jb->interrupt, rng, B, jb->steps, jb->dt, nschemes, s);
-	double *fine = xmalloc(jb->nstat * sizeof *fine), *coarse = xmalloc(jb->nstat * sizeof *coarse);
-	for (size_t q = 0; q < B; q++) {
-		path_values(p, &s[0], B, q, fine);
-		if (nschemes == 2)
-			path_values(p, &s[1], B, q, coarse);
-		bool good = isfinite(s[0].qv[q] + s[0].integ[q] + s[0].mag[q]);
-		for (size_t i = 0; i < jb->nstat; i++) {
-			if (nschemes == 2)
-				coarse[i] = 2 * fine[i] - coarse[i];
-			else
-				coarse[i] = fine[i];
-			good = good && isfinite(fine[i]) && isfinite(coarse[i]);
-		}
-		if (s[0].below[q] || (nschemes == 2 && s[1].below[q]))
-			r->below++;
-		if (!good) {
-			r->bad++;
-			continue;
-		}
-		for (size_t i = 0; i < jb->nstat; i++) {
-			sim_stat_add(&r->ext[i], coarse[i]);
-			sim_stat_add(&r->fine[i], fine[i]);
-		}
-		sim_stat_add(&r->qv, s[0].qv[q]);
-		sim_stat_add(&r->integ, s[0].integ[q]);
-		sim_stat_add(&r->mag, s[0].mag[q]);
-	}
-	free(fine);
-	free(coarse);
-	for (size_t i = 0; i < nschemes; i++)
-		scheme_free(&s[i]);
-}
-
-/* The convergence table: one set of paths on 10, 100, 1000, 10000 steps. */
-typedef struct conv_result {
-	long bad;
-	sim_stat qv[CHECK_NCONV], integ[CHECK_NCONV], gap[CHECK_NCONV], fv[CHECK_NCONV];
-} conv_result;
-
-static void conv_block(const job *jb, sim_lanes *rng, size_t B, conv_result *r)
-{
-	const plan *p = jb->p;
-	long finest = check_conv_steps[CHECK_NCONV - 1];
-	scheme s[CHECK_NCONV];
-	for (size_t i = 0; i < CHECK_NCONV; i++)
-		scheme_init(p, &s[i], B, finest / check_conv_steps[i]);
-	block_paths(p, jb->interrupt, rng, B, finest, p->in->horizon / (double)finest, CHECK_NCONV, s);
-	for (size_t q = 0; q < B; q++) {
-		bool good = true;
-		for (size_t i = 0; i < CHECK_NCONV; i++)
-			good = good && isfinite(s[i].qv[q] + s[i].integ[q] + s[i].fv[q]);
-		if (!good) {
-			r->bad++;
-			continue;
-		}
-		for (size_t i = 0; i < CHECK_NCONV; i++) {
-			sim_stat_add(&r->qv[i], s[i].qv[q]);
-			sim_stat_add(&r->integ[i], s[i].integ[q]);
-			sim_stat_add(&r->gap[i], s[i].qv[q] - s[i].integ[q]);
-			sim_stat_add(&r->fv[i], s[i].fv[q]);
-		}
-	}
-	for (size_t i = 0; i < CHECK_NCONV; i++)
-		scheme_free(&s[i]);
-}
-
-static void conv_merge(conv_result *into, const conv_result *b)
-{
-	into->bad += b->bad;
-	for (size_t i = 0; i < CHECK_NCONV; i++) {
-		sim_stat_merge(&into->qv[i], &b->qv[i]);
-		sim_stat_merge(&into->integ[i], &b->integ[i]);
-		sim_stat_merge(&into->gap[i], &b->gap[i]);
-		sim_stat_merge(&into->fv[i], &b->fv[i]);
-	}
-}
-
-/* Run npaths in blocks; block j uses the stream of the seed jumped j times.
- * Returns false when interrupted. */
-static bool run_blocks(expr_ctx *ctx, const job *jb, size_t npaths, bool conv, block_result *total,
-		       conv_result *conv_total)
-{
-	size_t nblocks = (npaths + CHECK_BLOCK - 1) / CHECK_BLOCK;
-	sim_rng stream;
-	sim_rng_seed(&stream, jb->p->in->seed);
-	sim_lanes rngs[CHECK_ROUND];
-	block_result results[CHECK_ROUND];
-	conv_result *convs = conv ? xcalloc(CHECK_ROUND, sizeof *convs) : NULL;
-	bool interrupted = false;
-	for (size_t first = 0; first < nblocks && !interrupted; first += CHECK_ROUND) {
-		size_t count = nblocks - first < CHECK_ROUND ? nblocks - first : CHECK_ROUND;
-		for (size_t i = 0; i < count; i++) {
-			sim_lanes_take(&rngs[i], &stream);
-			if (conv)
-				memset(&convs[i], 0, sizeof convs[i]);
-			else
-				block_result_init(&results[i], jb->nstat);
-		}
-#ifdef _OPENMP
-#pragma omp parallel for schedule(dynamic, 1)
-#endif
-		for (long i = 0; i < (long)count; i++) {
-			size_t block = first + (size_t)i;
-			size_t B = npaths - block * CHECK_BLOCK < CHECK_BLOCK ? npaths - block * CHECK_BLOCK : CHECK_BLOCK;
-			if (conv)
-				conv_block(jb, &rngs[i], B, &convs[i]);
-			else
-				main_block(jb, &rngs[i], B, &results[i]);
-		}
-		for (size_t i = 0; i < count; i++) {
-			if (conv) {
-				conv_merge(conv_total, &convs[i]);
-			} else {
-				block_result_merge(total, &results[i], jb->nstat);
-				block_result_free(&results[i]);
-			}
-		}
-		interrupted = expr_poll_interrupt(ctx);
-	}
-	free(convs);
-	return !interrupted;
-}
-
 /* ------------------------------------------------------------------ the report */
 
 typedef struct zstat {
@@ -1101,18 +651,18 @@ static void report_fd(const plan *p, const fd_row *rows, size_t n, xbuf *text, x
 	xbuf_put(json, "]");
 }
 
-static void report_conv(const conv_result *c, size_t npaths, xbuf *text, xbuf *json)
+static void report_conv(const sim_paths_conv *c, size_t npaths, xbuf *text, xbuf *json)
 {
 	xbuf_printf(text,
 		    "  convergence (%zu paths, one set of Brownian paths on every grid; QV -> I, first variation ~ sqrt(steps)):\n"
 		    "    %-7s %-12s %-12s %-12s %-14s %s\n",
 		    npaths, "steps", "mean QV", "mean I", "sd(QV - I)", "first var.", "first var./sqrt(steps)");
 	xbuf_printf(json, ",\"convergence_paths\":%zu,\"convergence\":[", npaths);
-	for (size_t i = 0; i < CHECK_NCONV; i++) {
-		double n = (double)check_conv_steps[i];
-		xbuf_printf(text, "    %-7ld %-12.6g %-12.6g %-12.4g %-14.6g %.4g\n", check_conv_steps[i], c->qv[i].mean,
+	for (size_t i = 0; i < SIM_PATHS_NCONV; i++) {
+		double n = (double)sim_paths_conv_steps[i];
+		xbuf_printf(text, "    %-7ld %-12.6g %-12.6g %-12.4g %-14.6g %.4g\n", sim_paths_conv_steps[i], c->qv[i].mean,
 			    c->integ[i].mean, sim_stat_sd(&c->gap[i]), c->fv[i].mean, c->fv[i].mean / sqrt(n));
-		xbuf_printf(json, "%s{\"steps\":%ld,\"qv\":", i ? "," : "", check_conv_steps[i]);
+		xbuf_printf(json, "%s{\"steps\":%ld,\"qv\":", i ? "," : "", sim_paths_conv_steps[i]);
 		put_num(json, c->qv[i].mean);
 		xbuf_put(json, ",\"qv_se\":");
 		put_num(json, sim_stat_se(&c->qv[i]));
@@ -1129,13 +679,13 @@ static void report_conv(const conv_result *c, size_t npaths, xbuf *text, xbuf *j
 		xbuf_printf(text, "    (%ld paths with NaN/Inf left out of the table)\n", c->bad);
 }
 
-static void report_sim(const plan *p, const block_result *r, xbuf *text, xbuf *json, xbuf *reasons)
+static void report_sim(const plan *p, const sim_paths_totals *r, xbuf *text, xbuf *json, xbuf *reasons)
 {
 	const check_input *in = p->in;
 	double mag = r->mag.mean;
-	zstat qv = zstat_of(&r->ext[STAT_QV], &r->fine[STAT_QV], mag);
-	zstat resid = zstat_of(&r->ext[STAT_RESID], &r->fine[STAT_RESID], mag);
-	zstat term = zstat_of(&r->ext[STAT_TERMINAL], &r->fine[STAT_TERMINAL], 0);
+	zstat qv = zstat_of(&r->ext[SIM_PATHS_QV], &r->fine[SIM_PATHS_QV], mag);
+	zstat resid = zstat_of(&r->ext[SIM_PATHS_RESID], &r->fine[SIM_PATHS_RESID], mag);
+	zstat term = zstat_of(&r->ext[SIM_PATHS_TERMINAL], &r->fine[SIM_PATHS_TERMINAL], 0);
 	xbuf_printf(text, "  quadratic variation: mean QV = %.6g, predicted I = %.6g; mean(QV - I) = ", r->qv.mean,
 		    r->integ.mean);
 	text_zstat(text, &qv);
@@ -1154,7 +704,7 @@ static void report_sim(const plan *p, const block_result *r, xbuf *text, xbuf *j
 	xbuf_put(json, ",\"covariation\":{");
 	for (size_t a = 0; a < p->nnoise; a++) {
 		const char *name = noise_name(p, a);
-		zstat cov = zstat_of(&r->ext[STAT_COV + a], &r->fine[STAT_COV + a], mag);
+		zstat cov = zstat_of(&r->ext[SIM_PATHS_COV + a], &r->fine[SIM_PATHS_COV + a], mag);
 		xbuf_printf(text, "  covariation with %s: mean(sum df*d%s - sum (rho b)*dt) = ", name, name);
 		text_zstat(text, &cov);
 		json_zstat(json, name, &cov, a == 0);
@@ -1218,17 +768,15 @@ void check_run(expr_ctx *ctx, const check_input *in, check_result *out)
 	report_fd(&p, rows, nrows, &text, &json, &reasons);
 	free(rows);
 
-	job jb = {.p = &p, .interrupt = expr_ctx_limits(ctx)->interrupt, .steps = in->steps, .dt = in->horizon / (double)in->steps, .nstat = STAT_COV + p.nnoise};
-	block_result total;
-	block_result_init(&total, jb.nstat);
-	bool finished = run_blocks(ctx, &jb, (size_t)in->paths, false, &total, NULL);
-	conv_result conv = {0};
+	sim_paths_totals total;
+	bool finished = sim_paths_run(ctx, &p.paths, in->steps, (size_t)in->paths, &total);
+	sim_paths_conv conv;
 	size_t conv_paths = 0;
 	if (finished && in->verbose) {
-		double finest = (double)check_conv_steps[CHECK_NCONV - 1];
+		double finest = (double)sim_paths_conv_steps[SIM_PATHS_NCONV - 1];
 		conv_paths = (size_t)fmin(fmin((double)in->paths, CHECK_CONV_PATHS), floor(max_work / finest));
 		if (conv_paths >= 2)
-			finished = run_blocks(ctx, &jb, conv_paths, true, NULL, &conv);
+			finished = sim_paths_convergence(ctx, &p.paths, conv_paths, &conv);
 	}
 	if (!finished) {
 		/* a stop from outside (Ctrl-C or the time limit): a limit, exit status 3;
@@ -1270,7 +818,7 @@ void check_run(expr_ctx *ctx, const check_input *in, check_result *out)
 	xbuf_free(&text);
 	xbuf_free(&json);
 	xbuf_free(&reasons);
-	block_result_free(&total);
+	sim_paths_totals_free(&total);
 	plan_free(&p);
 }
 
