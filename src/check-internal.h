@@ -7,17 +7,6 @@
 #include "eval.h"
 #include "sim-paths.h"
 
-/* One partial derivative of f against its central difference. */
-typedef struct check_fd_row {
-	const expr *first;  /* the variable of the derivative */
-	const expr *second; /* the second variable of a second derivative; NULL for a first one */
-	double engine;      /* the engine's partial at the point (NaN when it cannot be evaluated) */
-	double difference;  /* the central difference */
-	double error;       /* |engine - difference| / max(1, |engine|) */
-	double tolerance;   /* the bound on error: the relative tolerance plus the rounding */
-	bool ok;            /* error within tolerance */
-} check_fd_row;
-
 /* What a check runs on: the symbols of f and of the claim, the point, the
  * dynamics under the measure and the compiled programs. */
 typedef struct check_plan {

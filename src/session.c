@@ -2811,13 +2811,15 @@ static bool run_check(session *s, const ast_node *st)
 			ok = false;
 		} else if (s->format == FORMAT_JSON) {
 			xbuf buf = {0};
-			xbuf_printf(&buf, "{\"kind\":\"check\",\"consistent\":%s%s%s}", result.consistent ? "true" : "false",
-				    result.json && *result.json ? "," : "", result.json ? result.json : "");
+			check_report_json(s->ctx, &result, &buf);
 			put_line(s, buf.data);
 			xbuf_free(&buf);
 		} else {
-			fputs(result.text ? result.text : "", s->opt.out);
+			xbuf buf = {0};
+			check_report_text(s->ctx, &result, &buf);
+			fputs(buf.data, s->opt.out);
 			fflush(s->opt.out);
+			xbuf_free(&buf);
 		}
 		if (ok && !result.consistent)
 			raise_status(s, SESSION_FAILED);
