@@ -426,9 +426,12 @@ static bool c_write(writer *w, const stmt_result *r, char **error)
 		break;
 	}
 	case RESULT_CHECK: {
-		char *text = xasprintf("%s: check %s\n%s", place,
-		                       r->check->consistent ? "consistent" : "inconsistent",
-		                       r->check->text ? r->check->text : "");
+		char *verdict = writer_check_verdict(r->check);
+		xbuf table = {0};
+		writer_check_table(w->ctx, r->check, &table);
+		char *text = xasprintf("%s: check %s\n%s", place, verdict, table.data);
+		xbuf_free(&table);
+		free(verdict);
 		size_t length = strlen(text);
 		while (length && text[length - 1] == '\n')
 			text[--length] = '\0';

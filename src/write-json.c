@@ -4,6 +4,7 @@
  * the result abbreviates (the object then carries "let" with the definitions
  * it used).  Every object ends with "line" and "statement", its place.
  */
+#include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -94,6 +95,118 @@ static const char *kind_name(const stmt_result *r)
 	return "value";
 }
 
+/* ------------------------------------------------------------------ check */
+
+/* A number, or null for NaN and infinities (JSON has neither). */
+static void put_num(xbuf *out, double x)
+{
+	if (isfinite(x))
+		xbuf_printf(out, "%.10g", x);
+	else
+		xbuf_put(out, "null");
+}
+
+/* ,"key":number for each of the n keys and values. */
+static void put_fields(xbuf *out, size_t n, const char *const *keys, const double *values)
+{
+	for (size_t i = 0; i < n; i++) {
+		xbuf_printf(out, ",\"%s\":", keys[i]);
+		put_num(out, values[i]);
+	}
+}
+
+static void json_zstat(xbuf *out, const char *key, const check_zstat *z, bool first)
+{
+	xbuf_printf(out, "%s\"%s\":{\"mean\":", first ? "" : ",", key);
+	put_num(out, z->mean);
+	put_fields(out, 3, (const char *[]){"se", "z", "fine_grid_mean"}, (double[]){z->se, z->z, z->fine});
+	xbuf_put(out, "}");
+}
+
+static void json_setup(expr_ctx *ctx, const check_result *r, xbuf *out)
+{
+	const check_setup *s = &r->setup;
+	char *f = prn_expr(ctx, s->f, PRN_TEXT);
+	xbuf_put(out, ",\"expr\":");
+	prn_json_string(out, f);
+	free(f);
+	xbuf_printf(out, ",\"hand_derived\":%s,\"scheme\":\"%s\",\"T\":", s->hand_derived ? "true" : "false",
+	            s->milstein ? "milstein" : "euler");
+	put_num(out, s->horizon);
+	xbuf_printf(out, ",\"steps\":%ld,\"paths\":%ld,\"seed\":%lu", s->steps, s->paths, s->seed);
+}
+
+static void json_fd(const check_result *r, xbuf *out)
+{
+	if (r->setup.hand_derived)
+		return;
+	xbuf_put(out, ",\"fd\":[");
+	for (size_t i = 0; i < r->nfd; i++) {
+		const check_fd_row *row = &r->fd[i];
+		char *name = writer_check_fd_name(row);
+		xbuf_printf(out, "%s{\"partial\":", i ? "," : "");
+		prn_json_string(out, name);
+		free(name);
+		put_fields(out, 4, (const char *[]){"engine", "difference", "error", "tolerance"},
+		           (double[]){row->engine, row->difference, row->error, row->tolerance});
+		xbuf_printf(out, ",\"ok\":%s}", row->ok ? "true" : "false");
+	}
+	xbuf_put(out, "]");
+}
+
+static void json_sim(const check_result *r, xbuf *out)
+{
+	const check_simulation *sim = &r->sim;
+	json_zstat(out, "qv", &sim->qv, false);
+	put_fields(out, 2, (const char *[]){"qv_realised", "qv_predicted"},
+	           (double[]){sim->qv_realised, sim->qv_predicted});
+	json_zstat(out, "residual", &sim->residual, false);
+	xbuf_put(out, ",\"covariation\":{");
+	for (size_t a = 0; a < r->nnoise; a++)
+		json_zstat(out, expr_sym_name(r->noises[a].name), &r->noises[a].covariation, a == 0);
+	xbuf_put(out, "}");
+	xbuf_put(out, ",\"terminal\":{\"mean\":");
+	put_num(out, sim->terminal.mean);
+	put_fields(out, 1, (const char *[]){"se"}, &sim->terminal.se);
+	xbuf_put(out, "}");
+}
+
+static void json_conv(const check_result *r, xbuf *out)
+{
+	xbuf_printf(out, ",\"convergence_paths\":%zu,\"convergence\":[", r->conv_paths);
+	for (size_t i = 0; i < r->nconv; i++) {
+		const check_conv_row *row = &r->conv[i];
+		xbuf_printf(out, "%s{\"steps\":%ld,\"qv\":", i ? "," : "", row->steps);
+		put_num(out, row->qv);
+		put_fields(out, 4, (const char *[]){"qv_se", "predicted", "sd", "first_variation"},
+		           (double[]){row->qv_se, row->predicted, row->gap_sd, row->first_variation});
+		xbuf_put(out, "}");
+	}
+	xbuf_put(out, "]");
+}
+
+static void check_fields(xbuf *out, const stmt_result *result, expr_ctx *ctx)
+{
+	const check_result *r = result->check;
+	field(out, "verdict", r->consistent ? "consistent" : "inconsistent");
+	xbuf_printf(out, ",\"consistent\":%s", r->consistent ? "true" : "false");
+	json_setup(ctx, r, out);
+	json_fd(r, out);
+	json_sim(r, out);
+	if (r->nconv)
+		json_conv(r, out);
+	xbuf_printf(out,
+	            ",\"paths_used\":%ld,\"bad_paths\":%ld,\"truncated_paths\":%ld,\"tolerance\":%g,"
+	            "\"fd_tolerance\":%g",
+	            r->sim.paths_used, r->sim.bad_paths, r->sim.truncated_paths, r->setup.z_tolerance,
+	            r->setup.fd_tolerance);
+	if (!r->consistent) {
+		char *reasons = writer_check_reasons(r);
+		field(out, "reason", reasons);
+		free(reasons);
+	}
+}
+
 static void claim_fields(xbuf *buf, const stmt_result *r, expr_ctx *ctx)
 {
 	const verify_result *c = r->claim;
@@ -173,9 +286,7 @@ static void object(writer *w, const stmt_result *r, xbuf *buf)
 		claim_fields(buf, r, ctx);
 		break;
 	case RESULT_CHECK:
-		xbuf_printf(buf, ",\"consistent\":%s", r->check->consistent ? "true" : "false");
-		if (r->check->json && *r->check->json)
-			xbuf_printf(buf, ",%s", r->check->json);
+		check_fields(buf, r, ctx);
 		break;
 	case RESULT_MODEL:
 		break;

@@ -114,7 +114,7 @@ static char *verdict(writer *w, const stmt_result *r)
 		free(detail);
 		return text;
 	}
-	return xstrdup(r->check->consistent ? "consistent" : "inconsistent");
+	return writer_check_verdict(r->check);
 }
 
 /* Plain LaTeX output: the verdict as % comments (the check's table too). */
@@ -125,14 +125,17 @@ static void comment(writer *w, const stmt_result *r, xbuf *buf)
 	xbuf_printf(buf, "%% %s: %s %s", place, r->kind == RESULT_CLAIM ? "claim" : "check", text);
 	free(text);
 	free(place);
-	if (r->kind != RESULT_CHECK || !r->check->text)
+	if (r->kind != RESULT_CHECK)
 		return;
-	for (const char *line = r->check->text; *line;) {
+	xbuf table = {0};
+	writer_check_table(w->ctx, r->check, &table);
+	for (const char *line = table.data; line && *line;) {
 		const char *end = strchr(line, '\n');
 		size_t length = end ? (size_t)(end - line) : strlen(line);
 		xbuf_printf(buf, "\n%% %.*s", (int)length, line);
 		line += length + (end != NULL);
 	}
+	xbuf_free(&table);
 }
 
 /* A standalone document: "the claim \texttt{...} holds (exact)." */

@@ -24,15 +24,16 @@ static void labelled_value(writer *w, const stmt_result *r, const char *name, xb
 	free(value);
 }
 
+/* PLACE: check d(f) at ..., the table, PLACE: check VERDICT */
 static void check_lines(writer *w, const stmt_result *r, xbuf *buf)
 {
 	char *place = result_place(r);
-	const char *text = r->check->text ? r->check->text : "";
-	xbuf_printf(buf, "%s: %s", place, text);
-	if (buf->length && buf->data[buf->length - 1] == '\n')
-		buf->data[--buf->length] = '\0';
+	char *verdict = writer_check_verdict(r->check);
+	xbuf_printf(buf, "%s: ", place);
+	writer_check_table(w->ctx, r->check, buf);
+	xbuf_printf(buf, "%s: check %s", place, verdict);
+	free(verdict);
 	free(place);
-	(void)w;
 }
 
 static bool text_write(writer *w, const stmt_result *r, char **error)

@@ -57,4 +57,14 @@ char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx);
 /* The left side of a differential: "d(log(S))", "dS", "\\mathrm{d}\\log S_{t}". */
 char *writer_diff_label(expr_ctx *ctx, const expr *of, prn_format format);
 
+/* A check's report (write-check.c): its table for people, lines ending in
+ * '\n' (the text writer prints it, the LaTeX and C writers as comments); the
+ * verdict "consistent (tolerance ...)" or "inconsistent: REASONS (...)"; the
+ * reasons joined by "; "; the name of a finite-difference row (f_S, f_{S1}).
+ * Each returns or appends a new string. */
+void writer_check_table(expr_ctx *ctx, const check_result *r, xbuf *out);
+char *writer_check_verdict(const check_result *r);
+char *writer_check_reasons(const check_result *r);
+char *writer_check_fd_name(const check_fd_row *row);
+
 #endif
