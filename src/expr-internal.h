@@ -78,7 +78,7 @@ const expr *expr_map_get(const expr_map *map, const void *key);
 void expr_map_put(expr_map *map, const void *key, const expr *value);
 void expr_map_free(expr_map *map);
 
-/* Raw constructors that skip the simplification rules (used by simp.c). */
+/* Raw constructors that skip the rules (expr-fun.c, expr-product.c). */
 const expr *expr_fun_raw(expr_ctx *ctx, expr_builtin fn, const expr *arg);
 const expr *expr_pow_pair(expr_ctx *ctx, const expr *base, const expr *exponent);
 
@@ -134,7 +134,7 @@ static inline bool expr_is_positive_integer(const expr *e)
 	return expr_is_integer(e) && mpq_sgn(e->u.num) > 0;
 }
 
-/* simp.c: rules for built-in functions under assumptions. */
-const expr *simp_fun(expr_ctx *ctx, expr_builtin fn, const expr *arg);
+/* Is e written with a negative leading coefficient (so that -e reads better)? */
+bool expr_negative_form(const expr *e);
 
 #endif

@@ -8,7 +8,6 @@
 #include <stdlib.h>
 
 #include "rat.h"
-#include "simp.h"
 #include "xalloc.h"
 
 static bool exponent_too_large(expr_ctx *ctx, const expr *exponent)
@@ -162,7 +161,7 @@ static void sum_content(const expr *sum, bool flip_sign, mpq_t g)
 	mpq_set_num(g, num);
 	mpq_set_den(g, den);
 	mpq_canonicalize(g);
-	if (flip_sign && simp_negative_form(sum))
+	if (flip_sign && expr_negative_form(sum))
 		mpq_neg(g, g);
 	mpq_clear(c);
 	mpz_clear(num);

@@ -6,7 +6,8 @@
  *   expr-sum.c      sums;
  *   expr-product.c  products, quotients;
  *   expr-power.c    powers;
- *   expr-fun.c      built-in functions and generic function applications;
+ *   expr-fun.c      built-in functions (with their rules) and generic functions;
+ *   expr-sign.c     the sign oracle under the assumptions on symbols;
  *   expr-walk.c     pointer maps, expr_has, free symbols, size, rebuild, substitution.
  */
 #include "expr-internal.h"
