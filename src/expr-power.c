@@ -252,12 +252,9 @@ static const expr *pow_mul(expr_ctx *ctx, const expr *product, const expr *expon
 
 const expr *expr_pow(expr_ctx *ctx, const expr *base, const expr *exponent)
 {
-	if (!base || !exponent)
-		return NULL;
-	if (expr_is_zero(exponent))
-		return ctx->one;
-	if (expr_is_one(exponent))
-		return base;
+	/* x^0 = 1 and x^1 = x (and NULL in, NULL out): as for the raw power */
+	if (!base || !exponent || expr_is_zero(exponent) || expr_is_one(exponent))
+		return expr_pow_pair(ctx, base, exponent);
 	if (exponent_too_large(ctx, exponent))
 		return NULL;
 	if (exponent->kind == EXPR_NUM) {
