@@ -69,8 +69,8 @@ static const expr *exp_rules(expr_ctx *ctx, const expr *arg)
 		result = expr_fun_raw(ctx, EXPR_F_EXP, arg);
 	} else {
 		const expr *rest = expr_add_n(ctx, nremaining, remaining);
-		powers[npowers++] = rest && !expr_is_zero(rest) ? expr_fun_raw(ctx, EXPR_F_EXP, rest)
-							   : expr_int(ctx, 1);
+		powers[npowers++] =
+		        rest && !expr_is_zero(rest) ? expr_fun_raw(ctx, EXPR_F_EXP, rest) : expr_int(ctx, 1);
 		result = expr_mul_n(ctx, npowers, powers);
 	}
 	free(powers);
@@ -210,8 +210,7 @@ const expr *expr_fun(expr_ctx *ctx, expr_builtin fn, const expr *arg)
 	return fun_rules(ctx, fn, arg);
 }
 
-const expr *expr_fapp(expr_ctx *ctx, const expr *func, const unsigned char *counts,
-		      const expr *const *args)
+const expr *expr_fapp(expr_ctx *ctx, const expr *func, const unsigned char *counts, const expr *const *args)
 {
 	size_t nargs = expr_func_arity(func);
 	if (!func || nargs == 0)

@@ -33,8 +33,10 @@ static void *arena_alloc(expr_ctx *ctx, size_t bytes)
 	const size_t align = sizeof(max_align_t);
 	bytes = (bytes + align - 1) / align * align;
 	if (bytes > ctx->arena_left) {
-		size_t size = ctx->arena ? 2 * (size_t)(ctx->arena_next + ctx->arena_left - (char *)ctx->arena->data)
-					 : ARENA_MIN;
+		size_t size =
+		        ctx->arena
+		                ? 2 * (size_t)(ctx->arena_next + ctx->arena_left - (char *)ctx->arena->data)
+		                : ARENA_MIN;
 		size = size > ARENA_MAX ? ARENA_MAX : size;
 		size = size < bytes ? bytes : size;
 		arena_chunk *chunk = xmalloc(sizeof *chunk + size);
@@ -219,7 +221,8 @@ const expr *expr_intern(expr_ctx *ctx, expr *candidate)
 		return expr_fail(ctx, EXPR_ERR_TOO_LARGE, "expression too large (node limit reached)");
 	candidate->height = node_height(candidate);
 	if (ctx->limits.max_height && candidate->height > ctx->limits.max_height)
-		return expr_fail(ctx, EXPR_ERR_DEPTH, "expression nested too deeply (tree depth limit reached)");
+		return expr_fail(ctx, EXPR_ERR_DEPTH,
+		                 "expression nested too deeply (tree depth limit reached)");
 	/* one block in the arena: the node, its operand arrays, the limbs of
 	 * its number (read-only GMP numbers over them: nodes never change) */
 	size_t n = candidate->nops, extra = 0;
@@ -229,14 +232,15 @@ const expr *expr_intern(expr_ctx *ctx, expr *candidate)
 		extra = 2 * n * sizeof(expr *);
 	else if (candidate->kind == EXPR_FAPP)
 		extra = n * sizeof(expr *) + n;
-	mpq_srcptr number = candidate->kind == EXPR_NUM ? candidate->u.num
-			    : candidate->kind == EXPR_MUL ? candidate->u.mul.coef : NULL;
+	mpq_srcptr number = candidate->kind == EXPR_NUM   ? candidate->u.num
+	                    : candidate->kind == EXPR_MUL ? candidate->u.mul.coef
+	                                                  : NULL;
 	size_t limbs = number ? mpz_size(mpq_numref(number)) + mpz_size(mpq_denref(number)) : 0;
 	expr *node = arena_alloc(ctx, sizeof *node + limbs * sizeof(mp_limb_t) + extra);
 	*node = *candidate;
 	if (number)
 		read_only_copy(candidate->kind == EXPR_NUM ? node->u.num : node->u.mul.coef, number,
-			       (mp_limb_t *)(node + 1));
+		               (mp_limb_t *)(node + 1));
 	const expr **arrays = (const expr **)((mp_limb_t *)(node + 1) + limbs);
 	switch (node->kind) {
 	case EXPR_NUM:
@@ -365,15 +369,13 @@ bool expr_poll_interrupt(expr_ctx *ctx)
 
 /* ------------------------------------------------------------------ memo */
 
-static size_t memo_slot(const memo_entry *table, size_t capacity, int tag, const void *a,
-			const void *b)
+static size_t memo_slot(const memo_entry *table, size_t capacity, int tag, const void *a, const void *b)
 {
 	uintptr_t h = (uintptr_t)a * 0x9e3779b97f4a7c15u ^ (uintptr_t)b * 0xc2b2ae3d27d4eb4fu ^
-		      (uintptr_t)tag * 0x165667b1u;
+	              (uintptr_t)tag * 0x165667b1u;
 	h ^= h >> 29;
 	size_t slot = (size_t)h & (capacity - 1);
-	while (table[slot].tag &&
-	       !(table[slot].tag == tag && table[slot].a == a && table[slot].b == b))
+	while (table[slot].tag && !(table[slot].tag == tag && table[slot].a == a && table[slot].b == b))
 		slot = (slot + 1) & (capacity - 1);
 	return slot;
 }

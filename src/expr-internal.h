@@ -18,8 +18,8 @@ struct expr {
 		mpq_t num;
 		struct {
 			char *name;
-			int sign;  /* EXPR_SIGN_* flags that may hold (assumptions) */
-			int rank;  /* display class (parameters before states ...) */
+			int sign;     /* EXPR_SIGN_* flags that may hold (assumptions) */
+			int rank;     /* display class (parameters before states ...) */
 			size_t nargs; /* > 0 for a generic function */
 			char **arg_names;
 		} sym;

@@ -12,12 +12,18 @@
 static int kind_rank(expr_kind kind)
 {
 	switch (kind) {
-	case EXPR_NUM: return 0;
-	case EXPR_SYM: return 1;
-	case EXPR_FAPP: return 2;
-	case EXPR_FUN: return 3;
-	case EXPR_MUL: return 4;
-	case EXPR_ADD: return 5;
+	case EXPR_NUM:
+		return 0;
+	case EXPR_SYM:
+		return 1;
+	case EXPR_FAPP:
+		return 2;
+	case EXPR_FUN:
+		return 3;
+	case EXPR_MUL:
+		return 4;
+	case EXPR_ADD:
+		return 5;
 	}
 	return 6;
 }
@@ -101,7 +107,8 @@ void expr_run_sort(void *base, size_t n, size_t size, int (*compare)(const void 
 			size_t b_end = a_end;
 			if (b_end < n) {
 				b_end++;
-				while (b_end < n && compare(src + (b_end - 1) * size, src + b_end * size) <= 0)
+				while (b_end < n &&
+				       compare(src + (b_end - 1) * size, src + b_end * size) <= 0)
 					b_end++;
 			}
 			size_t x = i, y = a_end;

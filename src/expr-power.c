@@ -28,7 +28,7 @@ static const expr *num_pow(expr_ctx *ctx, const __mpq_struct *q, const __mpq_str
 /* For an integer n > 1 and e = a/r: n = k^r * m with k > 1 found by trial
  * division by small primes gives n^e = k^a * m^e.  Returns false if no k. */
 static bool extract_perfect_power(expr_ctx *ctx, const __mpq_struct *n, const __mpq_struct *e,
-				  const expr **result)
+                                  const expr **result)
 {
 	unsigned long root = mpz_get_ui(mpq_denref(e));
 	if (root >= mpz_sizeinbase(mpq_numref(n), 2))
@@ -178,8 +178,9 @@ static const expr *pow_sum(expr_ctx *ctx, const expr *sum, const expr *exponent)
 		for (unsigned long k = 1; k < sum->nops && count <= 1e12; k++)
 			count = count * (double)(power + k) / (double)k;
 		if (ctx->limits.max_terms && count > (double)ctx->limits.max_terms)
-			return expr_fail(ctx, EXPR_ERR_TOO_LARGE,
-					 "expression too large (expanding this power exceeds the term limit)");
+			return expr_fail(
+			        ctx, EXPR_ERR_TOO_LARGE,
+			        "expression too large (expanding this power exceeds the term limit)");
 		const expr *result = ctx->one, *square = sum;
 		while (power > 0 && result) {
 			if (power & 1)
@@ -225,8 +226,8 @@ static const expr *pow_mul(expr_ctx *ctx, const expr *product, const expr *expon
 		size_t unknown = 0;
 		for (size_t i = 0; i < product->nops; i++) {
 			const expr *inner = product->u.mul.exps[i];
-			if (inner->kind == EXPR_NUM && (!rat_is_integer(inner->u.num) ||
-							 mpz_even_p(mpq_numref(inner->u.num))))
+			if (inner->kind == EXPR_NUM &&
+			    (!rat_is_integer(inner->u.num) || mpz_even_p(mpq_numref(inner->u.num))))
 				continue; /* x^f with f fractional, or x^2k: >= 0 */
 			if (expr_sign(ctx, product->u.mul.bases[i]) & EXPR_SIGN_NEG)
 				unknown++;
@@ -286,8 +287,8 @@ const expr *expr_pow(expr_ctx *ctx, const expr *base, const expr *exponent)
 		bool positive = mpq_sgn(base->u.mul.coef) > 0;
 		for (size_t i = 0; i < base->nops && positive; i++)
 			positive = expr_sign(ctx, base->u.mul.bases[i]) == EXPR_SIGN_POS ||
-				   (base->u.mul.exps[i]->kind == EXPR_NUM &&
-				    !rat_is_integer(base->u.mul.exps[i]->u.num));
+			           (base->u.mul.exps[i]->kind == EXPR_NUM &&
+			            !rat_is_integer(base->u.mul.exps[i]->u.num));
 		if (positive) {
 			const expr **parts = xmalloc((base->nops + 1) * sizeof *parts);
 			parts[0] = expr_pow_pair(ctx, expr_num(ctx, base->u.mul.coef), exponent);
@@ -295,7 +296,7 @@ const expr *expr_pow(expr_ctx *ctx, const expr *base, const expr *exponent)
 				parts[0] = ctx->one;
 			for (size_t i = 0; i < base->nops; i++)
 				parts[i + 1] = expr_pow(ctx, base->u.mul.bases[i],
-							expr_mul(ctx, base->u.mul.exps[i], exponent));
+				                        expr_mul(ctx, base->u.mul.exps[i], exponent));
 			const expr *result = expr_mul_n(ctx, base->nops + 1, parts);
 			free(parts);
 			return result;

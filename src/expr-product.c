@@ -32,7 +32,8 @@ static void factor_list_init(factor_list *list)
 
 static void factor_push(factor_list *list, const expr *base, const expr *exponent)
 {
-	list->items = expr_grow_items(list->items, list->inline_items, list->n, &list->cap, sizeof *list->items);
+	list->items =
+	        expr_grow_items(list->items, list->inline_items, list->n, &list->cap, sizeof *list->items);
 	list->items[list->n++] = (factor){base, exponent};
 }
 
@@ -111,7 +112,7 @@ static const expr *expand_product(expr_ctx *ctx, const expr *rest, const expr **
 		if (ctx->limits.max_terms && nterms * width > ctx->limits.max_terms) {
 			free(terms);
 			return expr_fail(ctx, EXPR_ERR_TOO_LARGE,
-					 "expression too large (expansion exceeds the term limit)");
+			                 "expression too large (expansion exceeds the term limit)");
 		}
 		const expr **next = xmalloc(nterms * width * sizeof *next);
 		size_t k = 0;
@@ -128,7 +129,7 @@ static const expr *expand_product(expr_ctx *ctx, const expr *rest, const expr **
 			}
 			for (size_t j = 0; j < width; j++)
 				next[k++] = expr_mul(ctx, terms[i],
-						     sum->kind == EXPR_ADD ? sum->u.add.terms[j] : sum);
+				                     sum->kind == EXPR_ADD ? sum->u.add.terms[j] : sum);
 		}
 		free(terms);
 		terms = next;
@@ -222,8 +223,8 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 			const expr **plain = xmalloc((factors.n + 1) * sizeof *plain);
 			plain[0] = expr_num(ctx, coef);
 			for (size_t i = 0; i < factors.n; i++)
-				plain[i + 1] = expr_pow_pair(ctx, factors.items[i].base,
-							     factors.items[i].exponent);
+				plain[i + 1] =
+				        expr_pow_pair(ctx, factors.items[i].base, factors.items[i].exponent);
 			rest = expr_mul_n(ctx, factors.n + 1, plain);
 			free(plain);
 		}
@@ -234,12 +235,13 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 	/* surds with one exponent share a base: sqrt(2)*sqrt(3) = sqrt(6) */
 	for (size_t i = 0; i < factors.n; i++) {
 		factor *f = &factors.items[i];
-		if (f->base->kind != EXPR_NUM || mpq_sgn(f->base->u.num) <= 0 || f->exponent->kind != EXPR_NUM)
+		if (f->base->kind != EXPR_NUM || mpq_sgn(f->base->u.num) <= 0 ||
+		    f->exponent->kind != EXPR_NUM)
 			continue;
 		for (size_t j = i + 1; j < factors.n; j++) {
 			factor *g = &factors.items[j];
-			if (g->base->kind != EXPR_NUM || mpq_sgn(g->base->u.num) <= 0 || g->exponent != f->exponent ||
-			    g->base == f->base)
+			if (g->base->kind != EXPR_NUM || mpq_sgn(g->base->u.num) <= 0 ||
+			    g->exponent != f->exponent || g->base == f->base)
 				continue;
 			mpq_t product;
 			mpq_init(product);
@@ -306,15 +308,16 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 		}
 		/* a surd q^f with q > 0, 0 < f < 1 is already in final form */
 		bool stable_surd = base->kind == EXPR_NUM && !was_merged && mpq_sgn(base->u.num) > 0 &&
-				   exponent->kind == EXPR_NUM && mpq_sgn(exponent->u.num) > 0 &&
-				   mpq_cmp_ui(exponent->u.num, 1, 1) < 0;
+		                   exponent->kind == EXPR_NUM && mpq_sgn(exponent->u.num) > 0 &&
+		                   mpq_cmp_ui(exponent->u.num, 1, 1) < 0;
 		bool negative_surd = base->kind == EXPR_NUM && !was_merged && mpq_sgn(base->u.num) < 0 &&
-				     !expr_is_integer(exponent);
+		                     !expr_is_integer(exponent);
 		/* q^x with a symbolic x stays a factor: only numeric powers of numbers fold */
-		bool rewrite = (base->kind == EXPR_NUM && exponent->kind == EXPR_NUM && !stable_surd && !negative_surd) ||
-			       (base->kind == EXPR_ADD && expr_is_positive_integer(exponent)) ||
-			       (expr_is_fun(base, EXPR_F_ABS) && expr_is_even_integer(exponent)) ||
-			       (base->kind == EXPR_MUL && was_merged);
+		bool rewrite = (base->kind == EXPR_NUM && exponent->kind == EXPR_NUM && !stable_surd &&
+		                !negative_surd) ||
+		               (base->kind == EXPR_ADD && expr_is_positive_integer(exponent)) ||
+		               (expr_is_fun(base, EXPR_F_ABS) && expr_is_even_integer(exponent)) ||
+		               (base->kind == EXPR_MUL && was_merged);
 		if (rewrite) {
 			extras = xreallocarray(extras, nextras + 1, sizeof *extras);
 			extras[nextras++] = expr_pow(ctx, base, exponent);
@@ -382,8 +385,8 @@ static const expr *divide_exactly(expr_ctx *ctx, const expr *term, const expr *m
 			if (expr_is_zero(exponent))
 				continue;
 			/* a power left over on these bases may need the full rules */
-			if (tb[i]->kind == EXPR_NUM || tb[i]->kind == EXPR_ADD || expr_is_fun(tb[i], EXPR_F_EXP) ||
-			    expr_is_fun(tb[i], EXPR_F_ABS))
+			if (tb[i]->kind == EXPR_NUM || tb[i]->kind == EXPR_ADD ||
+			    expr_is_fun(tb[i], EXPR_F_EXP) || expr_is_fun(tb[i], EXPR_F_ABS))
 				goto out;
 		}
 		factor_push(&kept, tb[i], exponent);
@@ -407,8 +410,8 @@ out:
 
 const expr *expr_div_terms(expr_ctx *ctx, const expr *sum, const expr *m)
 {
-	if (!sum || !m || sum->kind != EXPR_ADD || (m->kind != EXPR_MUL && m->kind != EXPR_SYM &&
-						    m->kind != EXPR_FUN && m->kind != EXPR_FAPP))
+	if (!sum || !m || sum->kind != EXPR_ADD ||
+	    (m->kind != EXPR_MUL && m->kind != EXPR_SYM && m->kind != EXPR_FUN && m->kind != EXPR_FAPP))
 		return expr_div(ctx, sum, m);
 	const expr **terms = xmalloc(sum->nops * sizeof *terms);
 	for (size_t i = 0; i < sum->nops; i++) {

@@ -28,8 +28,8 @@ static int sign_of_power(expr_ctx *ctx, const expr *base, const expr *exponent)
 	if (rat_is_integer(e)) {
 		bool even = mpz_even_p(mpq_numref(e));
 		bool negative = mpq_sgn(e) < 0;
-		int result = even ? ((b & EXPR_SIGN_ZERO) && !negative ? EXPR_SIGN_NONNEG : EXPR_SIGN_POS)
-				  : b;
+		int result =
+		        even ? ((b & EXPR_SIGN_ZERO) && !negative ? EXPR_SIGN_NONNEG : EXPR_SIGN_POS) : b;
 		if (negative)
 			result &= ~EXPR_SIGN_ZERO;
 		return result ? result : EXPR_SIGN_POS;

@@ -89,7 +89,8 @@ static void collect_terms(expr_ctx *ctx, const expr *e, term_list *list)
 			collect_terms(ctx, e->u.add.terms[i], list);
 		return;
 	}
-	list->items = expr_grow_items(list->items, list->inline_items, list->n, &list->cap, sizeof *list->items);
+	list->items =
+	        expr_grow_items(list->items, list->inline_items, list->n, &list->cap, sizeof *list->items);
 	term_pair *pair = &list->items[list->n++];
 	pair->coef = expr_scratch_take(ctx);
 	pair->rest = expr_split_coef(ctx, e, pair->coef);

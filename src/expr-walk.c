@@ -215,7 +215,7 @@ static const expr *rebuild_rec(expr_ctx *ctx, const expr *e, rebuild_job *job)
 		parts[0] = expr_num(ctx, e->u.mul.coef);
 		for (size_t i = 0; i < e->nops; i++)
 			parts[i + 1] = expr_pow(ctx, rebuild_rec(ctx, e->u.mul.bases[i], job),
-						rebuild_rec(ctx, e->u.mul.exps[i], job));
+			                        rebuild_rec(ctx, e->u.mul.exps[i], job));
 		result = expr_mul_n(ctx, e->nops + 1, parts);
 		free(parts);
 		break;
@@ -264,7 +264,7 @@ static const expr *substitute_leaf(const expr *sym, void *data)
 }
 
 const expr *expr_subst(expr_ctx *ctx, const expr *e, size_t n, const expr *const *olds,
-		       const expr *const *news)
+                       const expr *const *news)
 {
 	for (size_t i = 0; i < n; i++)
 		if (!olds[i] || !news[i])

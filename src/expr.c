@@ -129,10 +129,22 @@ int expr_sym_rank(const expr *sym)
 
 /* ------------------------------------------------------------------ inspection */
 
-expr_kind expr_kind_of(const expr *e) { return e->kind; }
-unsigned expr_hash(const expr *e) { return e->hash; }
-bool expr_is_num(const expr *e) { return e->kind == EXPR_NUM; }
-bool expr_is_zero(const expr *e) { return e->kind == EXPR_NUM && mpq_sgn(e->u.num) == 0; }
+expr_kind expr_kind_of(const expr *e)
+{
+	return e->kind;
+}
+unsigned expr_hash(const expr *e)
+{
+	return e->hash;
+}
+bool expr_is_num(const expr *e)
+{
+	return e->kind == EXPR_NUM;
+}
+bool expr_is_zero(const expr *e)
+{
+	return e->kind == EXPR_NUM && mpq_sgn(e->u.num) == 0;
+}
 
 bool expr_is_one(const expr *e)
 {
@@ -144,9 +156,18 @@ bool expr_is_integer(const expr *e)
 	return e->kind == EXPR_NUM && rat_is_integer(e->u.num);
 }
 
-const __mpq_struct *expr_num_value(const expr *e) { return e->u.num; }
-const char *expr_sym_name(const expr *e) { return e->u.sym.name; }
-size_t expr_nops(const expr *e) { return e->kind == EXPR_FUN ? 1 : e->nops; }
+const __mpq_struct *expr_num_value(const expr *e)
+{
+	return e->u.num;
+}
+const char *expr_sym_name(const expr *e)
+{
+	return e->u.sym.name;
+}
+size_t expr_nops(const expr *e)
+{
+	return e->kind == EXPR_FUN ? 1 : e->nops;
+}
 
 const expr *expr_op(const expr *e, size_t i)
 {
@@ -162,24 +183,51 @@ const expr *expr_op(const expr *e, size_t i)
 	}
 }
 
-const expr *expr_mul_base(const expr *e, size_t i) { return e->u.mul.bases[i]; }
-const expr *expr_mul_exponent(const expr *e, size_t i) { return e->u.mul.exps[i]; }
-const __mpq_struct *expr_mul_coef(const expr *e) { return e->u.mul.coef; }
-expr_builtin expr_fun_id(const expr *e) { return e->u.fun.fn; }
-const expr *expr_fapp_func(const expr *e) { return e->u.fapp.func; }
-const unsigned char *expr_fapp_counts(const expr *e) { return e->u.fapp.counts; }
+const expr *expr_mul_base(const expr *e, size_t i)
+{
+	return e->u.mul.bases[i];
+}
+const expr *expr_mul_exponent(const expr *e, size_t i)
+{
+	return e->u.mul.exps[i];
+}
+const __mpq_struct *expr_mul_coef(const expr *e)
+{
+	return e->u.mul.coef;
+}
+expr_builtin expr_fun_id(const expr *e)
+{
+	return e->u.fun.fn;
+}
+const expr *expr_fapp_func(const expr *e)
+{
+	return e->u.fapp.func;
+}
+const unsigned char *expr_fapp_counts(const expr *e)
+{
+	return e->u.fapp.counts;
+}
 
 static const struct {
 	const char *name, *c_name, *latex;
 } builtin_table[EXPR_F_COUNT] = {
 #define EXPR_BUILTIN_ROW(id, name, c_name, latex) {name, c_name, latex},
-	EXPR_BUILTINS(EXPR_BUILTIN_ROW)
+        EXPR_BUILTINS(EXPR_BUILTIN_ROW)
 #undef EXPR_BUILTIN_ROW
 };
 
-const char *expr_builtin_name(expr_builtin fn) { return builtin_table[fn].name; }
-const char *expr_builtin_c_name(expr_builtin fn) { return builtin_table[fn].c_name; }
-const char *expr_builtin_latex(expr_builtin fn) { return builtin_table[fn].latex; }
+const char *expr_builtin_name(expr_builtin fn)
+{
+	return builtin_table[fn].name;
+}
+const char *expr_builtin_c_name(expr_builtin fn)
+{
+	return builtin_table[fn].c_name;
+}
+const char *expr_builtin_latex(expr_builtin fn)
+{
+	return builtin_table[fn].latex;
+}
 
 bool expr_builtin_lookup(const char *name, expr_builtin *fn)
 {
