@@ -78,7 +78,7 @@ const expr *expr_map_get(const expr_map *map, const void *key);
 void expr_map_put(expr_map *map, const void *key, const expr *value);
 void expr_map_free(expr_map *map);
 
-/* Raw constructors that skip the rules (expr-fun.c, expr-product.c). */
+/* Raw constructors that skip the rules: fn(arg) (expr-fun.c), base^exponent (expr-product.c). */
 const expr *expr_fun_raw(expr_ctx *ctx, expr_builtin fn, const expr *arg);
 const expr *expr_pow_pair(expr_ctx *ctx, const expr *base, const expr *exponent);
 
@@ -96,6 +96,7 @@ static inline mpq_ptr expr_scratch_take(expr_ctx *ctx)
 		expr_scratch_grow(ctx);
 	return ctx->scratch[ctx->scratch_top++];
 }
+
 /* A stable natural merge sort with qsort's interface (expr-order.c). */
 void expr_run_sort(void *base, size_t n, size_t size, int (*compare)(const void *, const void *));
 
@@ -134,7 +135,7 @@ static inline bool expr_is_positive_integer(const expr *e)
 	return expr_is_integer(e) && mpq_sgn(e->u.num) > 0;
 }
 
-/* Is e written with a negative leading coefficient (so that -e reads better)? */
+/* Is e written with a negative leading coefficient, so -e reads better (expr-sign.c)? */
 bool expr_negative_form(const expr *e);
 
 #endif
