@@ -65,7 +65,12 @@
 	X("show", "show [NAME]\n  The model (or one name) as a script.  example:  show\n")           \
 	X("save", "save FILE\n  Write the model as a script that load reproduces.  example:  save note-model.itox\n") \
 	X("load", "load FILE\n  Run a script in this session.  example:  load note-model.itox\n")          \
-	X("format", "format text|latex|c|json\n  The output format.  example:  format latex\n")       \
+	X("format", "format text|latex|c|json\n"                                                     \
+		    "  The output format.  text: each result with its left side (drift(X) = ...),\n" \
+		    "  claims and checks with their place (model.itox:12: claim holds (exact)).\n"   \
+		    "  latex: display math (itox --format=latex --standalone FILE: a document).\n"  \
+		    "  c: one C99 unit, a function per result (d log(S) -> d_log_S).\n"             \
+		    "  json: one object per result.  example:  format latex\n")                     \
 	X("help", "help [TOPIC]\n  This text.  example:  help claim\n")                               \
 	X("quit", "quit\n  Leave (Ctrl-D too).  example:  quit\n")
 
