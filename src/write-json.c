@@ -235,6 +235,8 @@ static void claim_fields(xbuf *buf, const stmt_result *r, expr_ctx *ctx)
 	}
 	if (c->point_text)
 		field(buf, "at", c->point_text);
+	if (c->reason)
+		field(buf, "reason", c->reason);
 }
 
 static void place_fields(xbuf *buf, const stmt_result *r)

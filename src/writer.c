@@ -62,7 +62,14 @@ char *result_place(const stmt_result *r)
 
 const char *result_claim_verdict(const stmt_result *r)
 {
-	return r->claim->holds ? "holds" : "fails";
+	switch (r->claim->verdict) {
+	case VERIFY_HOLDS:
+		return "holds";
+	case VERIFY_FAILS:
+		return "fails";
+	default:
+		return "undecided";
+	}
 }
 
 char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx)
@@ -86,9 +93,12 @@ char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx)
 		part = "the two sides differ";
 	}
 	char *difference = c->difference ? prn_expr(ctx, c->difference, PRN_TEXT) : xstrdup("?");
-	xbuf_printf(&buf, ": %s by %s", part, difference);
+	if (c->verdict == VERIFY_UNDECIDED)
+		xbuf_printf(&buf, ": %s (%s in form by %s)", c->reason, part, difference);
+	else
+		xbuf_printf(&buf, ": %s by %s", part, difference);
 	if (c->point_text)
-		xbuf_printf(&buf, c->point_text[0] == '(' ? " %s" : "; at %s", c->point_text);
+		xbuf_printf(&buf, "; at %s", c->point_text);
 	free(difference);
 	free(named);
 	return xbuf_take(&buf);
