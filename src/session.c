@@ -2580,9 +2580,8 @@ static void run_statements(session *s, const char *source, size_t length)
 	if (s->status >= SESSION_INPUT)
 		s->corr_block = false; /* the run stopped: its corr statements are not judged */
 	if (list.error.present && s->status < SESSION_INPUT && !s->quit)
-		report(s, strstr(list.error.message, "too deep") || strstr(list.error.message, "too long")
-				  ? SESSION_LIMIT : SESSION_INPUT,
-		       &list.error.loc, "%s", list.error.message);
+		report(s, list.error.kind == AST_ERROR_NESTING ? SESSION_LIMIT : SESSION_INPUT, &list.error.loc, "%s",
+		       list.error.message);
 	ast_list_free(&list);
 }
 
