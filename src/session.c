@@ -22,6 +22,7 @@
 #include "expr.h"
 #include "help.h"
 #include "ito.h"
+#include "measure.h"
 #include "model.h"
 #include "print.h"
 #include "rat.h"
@@ -1497,60 +1498,9 @@ static bool run_measure(session *s, const ast_node *st)
 		names[k] = expr_sym(s->ctx, zname);
 		expr_sym_set_rank(s->ctx, names[k], PRN_RANK_NOISE);
 	}
-	if (ok) {
-		/* unlisted noises: the minimal change, shift_U = rho_UL rho_LL^-1 shift_L */
-		size_t nl = 0;
-		size_t *L = xcalloc(n ? n : 1, sizeof *L);
-		for (size_t k = 0; k < n; k++)
-			if (listed[k])
-				L[nl++] = k;
-		/* solve rho_LL x = shift_L by Gaussian elimination on expressions */
-		const expr **a = xcalloc(nl * (nl + 1) + 1, sizeof *a);
-		for (size_t i = 0; i < nl; i++) {
-			for (size_t j = 0; j < nl; j++)
-				a[i * (nl + 1) + j] = model_corr(m, L[i], L[j]);
-			a[i * (nl + 1) + nl] = shift[L[i]];
-		}
-		for (size_t col = 0; col < nl && ok; col++) {
-			size_t pivot = col;
-			while (pivot < nl && expr_is_zero(a[pivot * (nl + 1) + col]))
-				pivot++;
-			if (pivot == nl) {
-				report(s, SESSION_INPUT, &st->loc, "the listed noises are perfectly correlated; list fewer");
-				ok = false;
-				break;
-			}
-			for (size_t j = 0; j <= nl; j++) {
-				const expr *t = a[col * (nl + 1) + j];
-				a[col * (nl + 1) + j] = a[pivot * (nl + 1) + j];
-				a[pivot * (nl + 1) + j] = t;
-			}
-			const expr *p = a[col * (nl + 1) + col];
-			for (size_t j = 0; j <= nl; j++)
-				a[col * (nl + 1) + j] = expr_div(s->ctx, a[col * (nl + 1) + j], p);
-			for (size_t i = 0; i < nl; i++) {
-				if (i == col)
-					continue;
-				const expr *factor = a[i * (nl + 1) + col];
-				if (expr_is_zero(factor))
-					continue;
-				for (size_t j = 0; j <= nl; j++)
-					a[i * (nl + 1) + j] = expr_sub(s->ctx, a[i * (nl + 1) + j],
-								       expr_mul(s->ctx, factor, a[col * (nl + 1) + j]));
-			}
-		}
-		for (size_t k = 0; k < n && ok; k++) {
-			if (listed[k])
-				continue;
-			names[k] = m->noises[k];
-			expr_vec parts = {0};
-			for (size_t i = 0; i < nl; i++)
-				expr_vec_push(&parts, expr_mul(s->ctx, model_corr(m, k, L[i]), a[i * (nl + 1) + nl]));
-			shift[k] = expr_add_n(s->ctx, parts.n, parts.items);
-			expr_vec_free(&parts);
-		}
-		free(a);
-		free(L);
+	if (ok && measure_complete(m, listed, shift, names) == MEASURE_SINGULAR) {
+		report(s, SESSION_INPUT, &st->loc, "the listed noises are perfectly correlated; list fewer");
+		ok = false;
 	}
 	if (ok && engine_failed(s, &st->loc))
 		ok = false;
