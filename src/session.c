@@ -16,6 +16,7 @@
 #include <time.h>
 
 #include "ast.h"
+#include "chstate.h"
 #include "crosscheck.h"
 #include "diff.h"
 #include "eval.h"
@@ -1546,10 +1547,7 @@ static bool run_state(session *s, const ast_node *st)
 	/* the new name is visible in the inverse; its sign follows from the
 	 * forward map when that is known (sqrt(v) >= 0, exp(x) > 0) */
 	const expr *new_sym = expr_sym(ctx, st->text);
-	int keep_sign = expr_sym_sign(new_sym);
-	int forward_sign = expr_sign(ctx, forward);
-	if (forward_sign != EXPR_SIGN_UNKNOWN)
-		expr_sym_set_sign(ctx, new_sym, keep_sign & forward_sign ? keep_sign & forward_sign : forward_sign);
+	int keep_sign = chstate_infer_sign(ctx, new_sym, forward);
 	model_entry *tmp = model_add(m, st->text, MODEL_PARAM, new_sym);
 	tmp->pending_state = false;
 	const expr *inverse = NULL;
@@ -1565,11 +1563,14 @@ static bool run_state(session *s, const ast_node *st)
 		expr_sym_set_sign(ctx, new_sym, keep_sign);
 		return false;
 	}
-	/* the inverse must undo the forward map: forward(inverse(x)) = x */
-	const expr *round = expr_subst(ctx, forward, 1, &old_sym, &inverse);
-	if (engine_failed(s, &st->loc))
+	chstate_change change = {.old_sym = old_sym, .new_sym = new_sym, .forward = forward, .inverse = inverse};
+	const expr *round;
+	chstate_error error = chstate_check_inverse(ctx, &change, &round);
+	if (error == CHSTATE_ENGINE) {
+		engine_failed(s, &st->loc);
 		return false;
-	if (round != new_sym) {
+	}
+	if (error == CHSTATE_NOT_INVERSE) {
 		char *text = text_expr(s, round);
 		report(s, SESSION_INPUT, &where->a->loc,
 		       "the inverse does not undo the new state: substituting it gives %s, not %s%s", text, st->text,
@@ -1578,43 +1579,10 @@ static bool run_state(session *s, const ast_node *st)
 		expr_sym_set_sign(ctx, new_sym, keep_sign);
 		return false;
 	}
-	ito_diff d;
-	ito_d(m, NULL, forward, &d);
-	if (ito_diff_failed(&d)) {
-		ito_diff_free(&d);
+	if (chstate_apply(m, &change) != CHSTATE_OK) {
 		engine_failed(s, &st->loc);
 		return false;
 	}
-	/* the new state's SDE in its own variable */
-	model_sde *old_sde = model_sde_of(m, old_sym);
-	size_t position = (size_t)(old_sde - m->sdes);
-	const expr *drift = expr_subst(ctx, d.dt, 1, &old_sym, &inverse);
-	const expr **dw = xcalloc(m->nnoises ? m->nnoises : 1, sizeof *dw);
-	for (size_t k = 0; k < m->nnoises; k++)
-		dw[k] = expr_subst(ctx, d.dw[k], 1, &old_sym, &inverse);
-	ito_diff_free(&d);
-	/* every other coefficient and definition in the new variable */
-	for (size_t i = 0; i < m->nsdes; i++) {
-		if (i == position)
-			continue;
-		model_sde *sde = &m->sdes[i];
-		sde->drift = expr_subst(ctx, sde->drift, 1, &old_sym, &inverse);
-		for (size_t k = 0; k < sde->ndiffusion; k++)
-			sde->diffusion[k] = expr_subst(ctx, sde->diffusion[k], 1, &old_sym, &inverse);
-	}
-	for (size_t i = 0; i < m->nentries; i++)
-		if (m->entries[i].kind == MODEL_LET)
-			m->entries[i].value = expr_subst(ctx, m->entries[i].value, 1, &old_sym, &inverse);
-	for (size_t i = 0; i < m->nmeasures; i++)
-		for (size_t k = 0; k < m->measures[i].nnoises; k++)
-			m->measures[i].shift[k] = expr_subst(ctx, m->measures[i].shift[k], 1, &old_sym, &inverse);
-	model_sde *sde = &m->sdes[position];
-	sde->state = new_sym;
-	sde->stratonovich = false;
-	sde->drift = drift;
-	for (size_t k = 0; k < m->nnoises; k++)
-		sde->diffusion[k] = dw[k];
-	free(dw);
 	model_entry *x = model_add(m, st->text, MODEL_STATE, new_sym);
 	x->pending_state = false;
 	int sign = expr_sym_sign(new_sym);
