@@ -1175,50 +1175,59 @@ int session_finish(session *s)
 	return s->status;
 }
 
-static bool same_function(const model_entry *entry, const ast_node *st)
+static bool same_function(const model_entry *entry, size_t nargs, ast_node *const *args)
 {
-	if (!entry || entry->kind != MODEL_FUNC || expr_func_arity(entry->sym) != st->nitems)
+	if (!entry || entry->kind != MODEL_FUNC || expr_func_arity(entry->sym) != nargs)
 		return false;
-	for (size_t i = 0; i < st->nitems; i++)
-		if (strcmp(expr_func_arg_name(entry->sym, i), st->items[i]->text) != 0)
+	for (size_t i = 0; i < nargs; i++)
+		if (strcmp(expr_func_arg_name(entry->sym, i), args[i]->text) != 0)
 			return false;
 	return true;
 }
 
-static bool run_func(session *s, const ast_node *st)
+/* Declare the generic function name(args) written at loc; args are NAME
+ * nodes (each argument's name and place).  The same declaration again is
+ * accepted. */
+static bool declare_function(session *s, const ast_loc *loc, const char *name, size_t nargs,
+			     ast_node *const *args)
 {
-	if (same_function(model_lookup(&s->model, st->text), st))
+	if (same_function(model_lookup(&s->model, name), nargs, args))
 		return true; /* the same declaration again */
-	if (!check_new_name(s, &st->loc, st->text, false))
+	if (!check_new_name(s, loc, name, false))
 		return false;
-	if (st->nitems > EXPR_MAX_FUNC_ARGS) {
-		report(s, SESSION_INPUT, &st->loc, "a function may have at most %d arguments", EXPR_MAX_FUNC_ARGS);
+	if (nargs > EXPR_MAX_FUNC_ARGS) {
+		report(s, SESSION_INPUT, loc, "a function may have at most %d arguments", EXPR_MAX_FUNC_ARGS);
 		return false;
 	}
 	const char *names[EXPR_MAX_FUNC_ARGS];
-	for (size_t i = 0; i < st->nitems; i++) {
-		names[i] = st->items[i]->text;
+	for (size_t i = 0; i < nargs; i++) {
+		names[i] = args[i]->text;
 		for (size_t j = 0; j < i; j++)
 			if (strcmp(names[i], names[j]) == 0) {
-				report(s, SESSION_INPUT, &st->items[i]->loc, "argument '%s' is repeated", names[i]);
+				report(s, SESSION_INPUT, &args[i]->loc, "argument '%s' is repeated", names[i]);
 				return false;
 			}
 		model_entry *entry = model_lookup(&s->model, names[i]);
 		if (entry && (entry->kind == MODEL_FUNC || entry->kind == MODEL_LET || entry->kind == MODEL_MEASURE)) {
-			report(s, SESSION_INPUT, &st->items[i]->loc, "argument '%s' is already a %s", names[i],
+			report(s, SESSION_INPUT, &args[i]->loc, "argument '%s' is already a %s", names[i],
 			       model_kind_name(entry->kind));
 			return false;
 		}
 	}
-	const expr *sym = expr_sym(s->ctx, st->text);
-	expr_func_declare(s->ctx, sym, st->nitems, names);
-	model_add(&s->model, st->text, MODEL_FUNC, sym);
-	for (size_t i = 0; i < st->nitems; i++)
+	const expr *sym = expr_sym(s->ctx, name);
+	expr_func_declare(s->ctx, sym, nargs, names);
+	model_add(&s->model, name, MODEL_FUNC, sym);
+	for (size_t i = 0; i < nargs; i++)
 		if (strcmp(names[i], "t") != 0 && !model_lookup(&s->model, names[i])) {
 			const expr *arg = expr_sym(s->ctx, names[i]);
 			model_add(&s->model, names[i], MODEL_ARG, arg);
 		}
 	return true;
+}
+
+static bool run_func(session *s, const ast_node *st)
+{
+	return declare_function(s, &st->loc, st->text, st->nitems, st->items);
 }
 
 static bool run_let(session *s, const ast_node *st)
@@ -1832,9 +1841,7 @@ static bool run_pde(session *s, const ast_node *st)
 		}
 	}
 	if (!entry) {
-		ast_node fake = *st;
-		fake.kind = AST_S_FUNC;
-		if (!run_func(s, &fake))
+		if (!declare_function(s, &st->loc, st->text, st->nitems, st->items))
 			return false;
 		entry = model_lookup(m, st->text);
 	} else if (expr_func_arity(entry->sym) != st->nitems) {
