@@ -247,6 +247,21 @@ static void unknown_name(session *s, const ast_loc *loc, const char *name)
 		report(s, SESSION_INPUT, loc, "unknown name '%s'", name);
 }
 
+/* The entry of a name that must be of one kind; NULL after a message (an
+ * unknown name with a suggestion, or "'x' is a parameter, not a state"). */
+static model_entry *lookup_kind(session *s, const ast_loc *loc, const char *name, model_kind kind)
+{
+	model_entry *entry = model_lookup(&s->model, name);
+	if (entry && entry->kind == kind)
+		return entry;
+	if (entry)
+		report(s, SESSION_INPUT, loc, "'%s' is a %s, not a %s", name, model_kind_name(entry->kind),
+		       model_kind_name(kind));
+	else
+		unknown_name(s, loc, name);
+	return NULL;
+}
+
 /* ------------------------------------------------------------------ names */
 
 static bool is_identifier(const char *text)
@@ -499,8 +514,10 @@ static bool eval_call(session *s, const ast_node *n, value *out)
 	return make_scalar(s, n, expr_fapp(ctx, entry->sym, counts, args), out);
 }
 
-/* The symbol a name denotes for differentiation (a parameter, state, noise, t, argument). */
-static const expr *variable_symbol(session *s, const ast_node *n)
+/* The symbol a name denotes as a variable (t, a parameter, state, noise or
+ * function argument); otherwise NULL after a message: an unknown name, or
+ * "VERB the KIND 'NAME'TAIL" ("cannot set the function 'f' at a point"). */
+static const expr *variable_symbol(session *s, const ast_node *n, const char *verb, const char *tail)
 {
 	if (strcmp(n->text, "t") == 0)
 		return s->model.time;
@@ -509,8 +526,8 @@ static const expr *variable_symbol(session *s, const ast_node *n)
 		      entry->kind == MODEL_NOISE || entry->kind == MODEL_ARG))
 		return entry->sym;
 	if (entry)
-		report(s, SESSION_INPUT, &n->loc, "cannot differentiate with respect to the %s '%s'",
-		       model_kind_name(entry->kind), n->text);
+		report(s, SESSION_INPUT, &n->loc, "%s the %s '%s'%s", verb, model_kind_name(entry->kind), n->text,
+		       tail);
 	else
 		unknown_name(s, &n->loc, n->text);
 	return NULL;
@@ -759,7 +776,7 @@ static bool eval_node(session *s, const ast_node *n, value *out)
 		if (!eval_scalar(s, n->a, &e))
 			return false;
 		for (size_t i = 0; i < n->nitems; i++) {
-			const expr *x = variable_symbol(s, n->items[i]);
+			const expr *x = variable_symbol(s, n->items[i], "cannot differentiate with respect to", "");
 			if (!x)
 				return false;
 			e = diff(ctx, e, x);
@@ -1101,15 +1118,9 @@ static bool run_corr(session *s, const ast_node *st)
 	long idx[2];
 	const ast_node *names[2] = {st->a, st->b};
 	for (int i = 0; i < 2; i++) {
-		model_entry *entry = model_lookup(m, names[i]->text);
-		if (!entry || entry->kind != MODEL_NOISE) {
-			if (entry)
-				report(s, SESSION_INPUT, &names[i]->loc, "'%s' is a %s, not a noise", names[i]->text,
-				       model_kind_name(entry->kind));
-			else
-				unknown_name(s, &names[i]->loc, names[i]->text);
+		model_entry *entry = lookup_kind(s, &names[i]->loc, names[i]->text, MODEL_NOISE);
+		if (!entry)
 			return false;
-		}
 		idx[i] = model_noise_index(m, entry->sym);
 	}
 	if (idx[0] == idx[1]) {
@@ -1534,15 +1545,9 @@ static bool run_state(session *s, const ast_node *st)
 	model *m = &s->model;
 	expr_ctx *ctx = s->ctx;
 	const ast_node *where = st->b;
-	model_entry *old = model_lookup(m, where->text);
-	if (!old || old->kind != MODEL_STATE) {
-		if (old)
-			report(s, SESSION_INPUT, &where->loc, "'%s' is a %s, not a state", where->text,
-			       model_kind_name(old->kind));
-		else
-			unknown_name(s, &where->loc, where->text);
+	model_entry *old = lookup_kind(s, &where->loc, where->text, MODEL_STATE);
+	if (!old)
 		return false;
-	}
 	/* the new name may have been announced by assume (state sigma = ... after assume sigma > 0) */
 	model_entry *announced = model_lookup(m, st->text);
 	bool was_announced = announced && announced->kind == MODEL_ARG && announced->pending_state;
@@ -1892,14 +1897,9 @@ static bool state_sde(session *s, const ast_node *st, model_entry *entry, bool s
 
 static bool run_sde_display(session *s, const ast_node *st, bool stratonovich)
 {
-	model_entry *entry = model_lookup(&s->model, st->text);
-	if (!entry || entry->kind != MODEL_STATE) {
-		if (entry)
-			report(s, SESSION_INPUT, &st->loc, "'%s' is a %s, not a state", st->text, model_kind_name(entry->kind));
-		else
-			unknown_name(s, &st->loc, st->text);
+	model_entry *entry = lookup_kind(s, &st->loc, st->text, MODEL_STATE);
+	if (!entry)
 		return false;
-	}
 	ito_diff d;
 	if (!state_sde(s, st, entry, stratonovich, &d))
 		return false;
@@ -2314,18 +2314,8 @@ static bool run_check(session *s, const ast_node *st)
 	double *values = xcalloc(st->nitems + 1, sizeof *values);
 	for (size_t i = 0; i < st->nitems && ok; i++) {
 		const ast_node *as = st->items[i];
-		const expr *sym = NULL;
-		model_entry *entry = model_lookup(m, as->text);
-		if (strcmp(as->text, "t") == 0)
-			sym = m->time;
-		else if (entry && (entry->kind == MODEL_PARAM || entry->kind == MODEL_STATE ||
-				   entry->kind == MODEL_NOISE || entry->kind == MODEL_ARG))
-			sym = entry->sym;
+		const expr *sym = variable_symbol(s, as, "cannot set", " at a point");
 		if (!sym) {
-			if (entry)
-				report(s, SESSION_INPUT, &as->loc, "cannot set the %s '%s' at a point", model_kind_name(entry->kind), as->text);
-			else
-				unknown_name(s, &as->loc, as->text);
 			ok = false;
 			break;
 		}
