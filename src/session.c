@@ -1354,8 +1354,10 @@ static bool check_sde_terms(session *s, const ast_node *n)
 	return check_sde_term(s, n);
 }
 
-static bool run_sde(session *s, const ast_node *st, bool stratonovich)
+/* dX = ... or stratonovich dX = ...: a new state and its SDE. */
+static bool run_sde(session *s, const ast_node *st)
 {
+	bool stratonovich = st->kind == AST_S_STRAT_SDE;
 	model *m = &s->model;
 	const char *dname = st->text;
 	if (dname[0] != 'd' || !dname[1] || !is_identifier(dname + 1)) {
@@ -1895,8 +1897,10 @@ static bool state_sde(session *s, const ast_node *st, model_entry *entry, bool s
 	return true;
 }
 
-static bool run_sde_display(session *s, const ast_node *st, bool stratonovich)
+/* sde X [stratonovich]: a state's SDE under the current measure. */
+static bool run_sde_display(session *s, const ast_node *st)
 {
+	bool stratonovich = st->kind == AST_S_SDE_STRAT;
 	model_entry *entry = lookup_kind(s, &st->loc, st->text, MODEL_STATE);
 	if (!entry)
 		return false;
@@ -2085,100 +2089,85 @@ static bool model_complete(session *s, const ast_node *st)
 	return true;
 }
 
-static bool close_corr_block(session *s);
+static bool run_load(session *s, const ast_node *st)
+{
+	if (s->opt.no_files) {
+		report(s, SESSION_INPUT, &st->loc, "load is disabled in this session");
+		return false;
+	}
+	if (s->load_depth > 16) {
+		report(s, SESSION_LIMIT, &st->loc, "load nested too deeply");
+		return false;
+	}
+	s->load_depth++;
+	int before = s->status;
+	s->status = SESSION_OK;
+	int status = session_run_file(s, st->text);
+	s->load_depth--;
+	if (status == SESSION_INPUT && !s->status)
+		report(s, SESSION_INPUT, &st->loc, "cannot read '%s'", st->text);
+	raise_status(s, before);
+	return status < SESSION_INPUT;
+}
+
+static bool run_quit(session *s, const ast_node *st)
+{
+	(void)st;
+	s->quit = true;
+	return true;
+}
+
+/* The statement table: one row per statement kind, its handler and whether
+ * it needs a complete model (model_complete) before it runs. */
+typedef struct statement_row {
+	bool (*run)(session *s, const ast_node *st);
+	bool needs_complete_model;
+} statement_row;
+
+static const statement_row statements[AST_KIND_COUNT] = {
+	[AST_S_EXPR] = {run_expr_statement, true},
+	[AST_S_D] = {run_d, true},
+	[AST_S_DRIFT] = {run_part, true},
+	[AST_S_DIFFUSION] = {run_part, true},
+	[AST_S_GENERATOR] = {run_part, true},
+	[AST_S_QV] = {run_qv, true},
+	[AST_S_PDE] = {run_pde, true},
+	[AST_S_SDE_ITO] = {run_sde_display, true},
+	[AST_S_SDE_STRAT] = {run_sde_display, true},
+	[AST_S_PARAM] = {run_param, false},
+	[AST_S_ASSUME] = {run_assume, false},
+	[AST_S_NOISE] = {run_noise, false},
+	[AST_S_CORR] = {run_corr, false},
+	[AST_S_FUNC] = {run_func, false},
+	[AST_S_SDE] = {run_sde, false},
+	[AST_S_STRAT_SDE] = {run_sde, false},
+	[AST_S_LET] = {run_let, false},
+	[AST_S_MEASURE] = {run_measure, true},
+	[AST_S_UNDER] = {run_under, false}, /* the statement it runs is checked */
+	[AST_S_STATE] = {run_state, true},
+	[AST_S_CLAIM] = {run_claim, true},
+	[AST_S_CHECK] = {run_check, true},
+	[AST_S_SHOW] = {run_show, false},
+	[AST_S_SAVE] = {run_save, false},
+	[AST_S_LOAD] = {run_load, false},
+	[AST_S_FORMAT] = {run_format, false},
+	[AST_S_HELP] = {run_help, false},
+	[AST_S_QUIT] = {run_quit, false},
+};
 
 static bool run_statement(session *s, const ast_node *st)
 {
 	expr_clear_error(s->ctx);
 	if (st->kind != AST_S_CORR && !close_corr_block(s))
 		return false;
-	switch (st->kind) {
-	case AST_S_EXPR: case AST_S_D: case AST_S_DRIFT: case AST_S_DIFFUSION: case AST_S_GENERATOR:
-	case AST_S_QV: case AST_S_PDE: case AST_S_SDE_ITO: case AST_S_SDE_STRAT: case AST_S_CLAIM: case AST_S_CHECK:
-	case AST_S_STATE: case AST_S_MEASURE:
-		if (!model_complete(s, st))
-			return false;
-		break;
-	default:
-		break;
-	}
-	switch (st->kind) {
-	case AST_S_EXPR:
-		return run_expr_statement(s, st);
-	case AST_S_D:
-		return run_d(s, st);
-	case AST_S_DRIFT:
-	case AST_S_DIFFUSION:
-	case AST_S_GENERATOR:
-		return run_part(s, st);
-	case AST_S_QV:
-		return run_qv(s, st);
-	case AST_S_PDE:
-		return run_pde(s, st);
-	case AST_S_SDE_ITO:
-		return run_sde_display(s, st, false);
-	case AST_S_SDE_STRAT:
-		return run_sde_display(s, st, true);
-	case AST_S_PARAM:
-		return run_param(s, st);
-	case AST_S_ASSUME:
-		return run_assume(s, st);
-	case AST_S_NOISE:
-		return run_noise(s, st);
-	case AST_S_CORR:
-		return run_corr(s, st);
-	case AST_S_FUNC:
-		return run_func(s, st);
-	case AST_S_SDE:
-		return run_sde(s, st, false);
-	case AST_S_STRAT_SDE:
-		return run_sde(s, st, true);
-	case AST_S_LET:
-		return run_let(s, st);
-	case AST_S_MEASURE:
-		return run_measure(s, st);
-	case AST_S_UNDER:
-		return run_under(s, st);
-	case AST_S_STATE:
-		return run_state(s, st);
-	case AST_S_CLAIM:
-		return run_claim(s, st);
-	case AST_S_CHECK:
-		return run_check(s, st);
-	case AST_S_SHOW:
-		return run_show(s, st);
-	case AST_S_SAVE:
-		return run_save(s, st);
-	case AST_S_LOAD: {
-		if (s->opt.no_files) {
-			report(s, SESSION_INPUT, &st->loc, "load is disabled in this session");
-			return false;
-		}
-		if (s->load_depth > 16) {
-			report(s, SESSION_LIMIT, &st->loc, "load nested too deeply");
-			return false;
-		}
-		s->load_depth++;
-		int before = s->status;
-		s->status = SESSION_OK;
-		int status = session_run_file(s, st->text);
-		s->load_depth--;
-		if (status == SESSION_INPUT && !s->status)
-			report(s, SESSION_INPUT, &st->loc, "cannot read '%s'", st->text);
-		raise_status(s, before);
-		return status < SESSION_INPUT;
-	}
-	case AST_S_FORMAT:
-		return run_format(s, st);
-	case AST_S_HELP:
-		return run_help(s, st);
-	case AST_S_QUIT:
-		s->quit = true;
-		return true;
-	default:
+	const statement_row *row = &statements[st->kind];
+	if (!row->run) {
 		report(s, SESSION_INPUT, &st->loc, "not a statement");
 		return false;
 	}
+	if (row->needs_complete_model && !model_complete(s, st))
+		return false;
+	return row->run(s, st);
 }
 
 /* ------------------------------------------------------------------ claim and check */
