@@ -26,15 +26,17 @@ bool check_new_name(session *s, const ast_loc *loc, const char *name, bool allow
 	}
 	model_entry *entry = model_lookup(&s->model, name);
 	if (entry && !(allow_arg && entry->kind == MODEL_ARG)) {
-		report(s, SESSION_INPUT, loc, "'%s' is already declared as a %s", name, model_kind_name(entry->kind));
+		report(s, SESSION_INPUT, loc, "'%s' is already declared as a %s", name,
+		       model_kind_name(entry->kind));
 		return false;
 	}
 	/* dW beside a noise W (or a state W) would be ambiguous */
 	if (name[0] == 'd' && name[1]) {
 		model_entry *base = model_lookup(&s->model, name + 1);
 		if (base && (base->kind == MODEL_NOISE || base->kind == MODEL_STATE)) {
-			report(s, SESSION_INPUT, loc, "'%s' would be ambiguous: it is the differential of the %s '%s'",
-			       name, model_kind_name(base->kind), name + 1);
+			report(s, SESSION_INPUT, loc,
+			       "'%s' would be ambiguous: it is the differential of the %s '%s'", name,
+			       model_kind_name(base->kind), name + 1);
 			return false;
 		}
 	}
@@ -78,8 +80,10 @@ static bool apply_condition(session *s, model_entry *entry, const ast_node *cond
 	if (cond->op == REL_IN) {
 		if (!eval_scalar(s, cond->a->a, &lo) || !eval_scalar(s, cond->a->b, &hi))
 			return false;
-		if (expr_is_num(lo) && expr_is_num(hi) && mpq_cmp(expr_num_value(lo), expr_num_value(hi)) > 0) {
-			report(s, SESSION_INPUT, &cond->a->loc, "empty range: the lower bound is above the upper bound");
+		if (expr_is_num(lo) && expr_is_num(hi) &&
+		    mpq_cmp(expr_num_value(lo), expr_num_value(hi)) > 0) {
+			report(s, SESSION_INPUT, &cond->a->loc,
+			       "empty range: the lower bound is above the upper bound");
 			return false;
 		}
 		if (expr_is_num(lo) && mpq_sgn(expr_num_value(lo)) > 0)
@@ -212,13 +216,15 @@ bool run_corr(session *s, const ast_node *st)
 		idx[i] = model_noise_index(m, entry->sym);
 	}
 	if (idx[0] == idx[1]) {
-		report(s, SESSION_INPUT, &st->loc, "a noise is perfectly correlated with itself; name two different noises");
+		report(s, SESSION_INPUT, &st->loc,
+		       "a noise is perfectly correlated with itself; name two different noises");
 		return false;
 	}
 	const expr *rho;
 	if (!eval_scalar(s, st->c, &rho))
 		return false;
-	if (expr_is_num(rho) && mpz_cmpabs(mpq_numref(expr_num_value(rho)), mpq_denref(expr_num_value(rho))) > 0) {
+	if (expr_is_num(rho) &&
+	    mpz_cmpabs(mpq_numref(expr_num_value(rho)), mpq_denref(expr_num_value(rho))) > 0) {
 		report(s, SESSION_INPUT, &st->c->loc, "a correlation must lie in [-1, 1]");
 		return false;
 	}
@@ -260,7 +266,8 @@ bool close_corr_block(session *s)
 		return true;
 	if (s->corr_before_n == m->nnoises)
 		memcpy(m->corr, s->corr_before, m->nnoises * m->nnoises * sizeof *m->corr);
-	source_frame outer = enter_source(s, s->corr_text, strlen(s->corr_text), s->corr_origin, s->corr_fixed_line);
+	source_frame outer =
+	        enter_source(s, s->corr_text, strlen(s->corr_text), s->corr_origin, s->corr_fixed_line);
 	report(s, SESSION_INPUT, &s->corr_last, "the correlation matrix would not be positive semi-definite");
 	leave_source(s, outer);
 	return false;
@@ -281,8 +288,7 @@ static bool same_function(const model_entry *entry, size_t nargs, ast_node *cons
 /* Declare the generic function name(args) written at loc; args are NAME
  * nodes (each argument's name and place).  The same declaration again is
  * accepted. */
-bool declare_function(session *s, const ast_loc *loc, const char *name, size_t nargs,
-			     ast_node *const *args)
+bool declare_function(session *s, const ast_loc *loc, const char *name, size_t nargs, ast_node *const *args)
 {
 	if (same_function(model_lookup(&s->model, name), nargs, args))
 		return true; /* the same declaration again */
@@ -297,11 +303,13 @@ bool declare_function(session *s, const ast_loc *loc, const char *name, size_t n
 		names[i] = args[i]->text;
 		for (size_t j = 0; j < i; j++)
 			if (strcmp(names[i], names[j]) == 0) {
-				report(s, SESSION_INPUT, &args[i]->loc, "argument '%s' is repeated", names[i]);
+				report(s, SESSION_INPUT, &args[i]->loc, "argument '%s' is repeated",
+				       names[i]);
 				return false;
 			}
 		model_entry *entry = model_lookup(&s->model, names[i]);
-		if (entry && (entry->kind == MODEL_FUNC || entry->kind == MODEL_LET || entry->kind == MODEL_MEASURE)) {
+		if (entry &&
+		    (entry->kind == MODEL_FUNC || entry->kind == MODEL_LET || entry->kind == MODEL_MEASURE)) {
 			report(s, SESSION_INPUT, &args[i]->loc, "argument '%s' is already a %s", names[i],
 			       model_kind_name(entry->kind));
 			return false;
@@ -384,7 +392,8 @@ static bool check_sde_term(session *s, const ast_node *term)
 			break;
 		case AST_DIV:
 			stack[top++] = n->a;
-			if (n->b->kind == AST_NAME && (strcmp(n->b->text, "dt") == 0 || differential_of(s, n->b->text)))
+			if (n->b->kind == AST_NAME &&
+			    (strcmp(n->b->text, "dt") == 0 || differential_of(s, n->b->text)))
 				bad = true, why = "a differential cannot be a divisor";
 			break;
 		case AST_NEG:
@@ -397,14 +406,17 @@ static bool check_sde_term(session *s, const ast_node *term)
 				const expr *p = differential_of(s, n->text);
 				if (p) {
 					if (model_noise_index(&s->model, p) < 0)
-						bad = true, why = "a state differential cannot drive an SDE; use the noises";
+						bad = true, why = "a state differential cannot drive an SDE; "
+						                  "use the noises";
 					found++;
 				}
 			}
 			break;
 		case AST_POW:
-			if (n->a->kind == AST_NAME && (strcmp(n->a->text, "dt") == 0 || differential_of(s, n->a->text)))
-				bad = true, why = "powers of differentials vanish or are dt; write the dt term";
+			if (n->a->kind == AST_NAME &&
+			    (strcmp(n->a->text, "dt") == 0 || differential_of(s, n->a->text)))
+				bad = true,
+				why = "powers of differentials vanish or are dt; write the dt term";
 			break;
 		case AST_DIFF:
 			bad = true, why = "d(...) cannot appear in an SDE; use dt and the noises";
@@ -415,9 +427,12 @@ static bool check_sde_term(session *s, const ast_node *term)
 	}
 	if (!bad && found != 1)
 		why = found == 0 ? "this term has no dt or noise differential"
-				 : "this term multiplies two differentials";
+		                 : "this term multiplies two differentials";
 	if (why) {
-		report(s, SESSION_INPUT, &term->loc, "the right side of an SDE must be a sum of coefficient*dt and coefficient*dNOISE terms: %s", why);
+		report(s, SESSION_INPUT, &term->loc,
+		       "the right side of an SDE must be a sum of coefficient*dt and coefficient*dNOISE "
+		       "terms: %s",
+		       why);
 		return false;
 	}
 	return true;
@@ -426,7 +441,8 @@ static bool check_sde_term(session *s, const ast_node *term)
 static bool check_sde_terms(session *s, const ast_node *n)
 {
 	/* walk the left spine in a loop: an SDE may have many terms */
-	while (n->kind == AST_ADD || n->kind == AST_SUB || (n->kind == AST_NEG && (n->a->kind == AST_ADD || n->a->kind == AST_SUB))) {
+	while (n->kind == AST_ADD || n->kind == AST_SUB ||
+	       (n->kind == AST_NEG && (n->a->kind == AST_ADD || n->a->kind == AST_SUB))) {
 		if (n->kind == AST_NEG) {
 			n = n->a;
 			continue;
@@ -446,7 +462,8 @@ bool run_sde(session *s, const ast_node *st)
 	const char *dname = st->text;
 	if (dname[0] != 'd' || !dname[1] || !is_identifier(dname + 1)) {
 		report(s, SESSION_INPUT, &st->loc,
-		       "'%s = ...' is not a statement: an SDE is written dX = ...*dt + ...*dW, a definition let %s = ...",
+		       "'%s = ...' is not a statement: an SDE is written dX = ...*dt + ...*dW, a definition "
+		       "let %s = ...",
 		       dname, dname);
 		return false;
 	}
@@ -465,7 +482,7 @@ bool run_sde(session *s, const ast_node *st)
 		bool evaluated = existing && eval_node(s, st->a, &again);
 		s->in_sde = false;
 		bool same = evaluated && again.is_diff && existing->stratonovich == stratonovich &&
-			    again.d.dt == existing->drift;
+		            again.d.dt == existing->drift;
 		for (size_t k = 0; same && k < m->nnoises; k++)
 			same = again.d.dw[k] == (k < existing->ndiffusion ? existing->diffusion[k] : NULL);
 		if (evaluated)
@@ -494,7 +511,8 @@ bool run_sde(session *s, const ast_node *st)
 	s->in_sde = false;
 	if (!evaluated || !v.is_diff) {
 		if (!v.is_diff && v.e)
-			report(s, SESSION_INPUT, &st->a->loc, "the right side of an SDE must contain dt or a noise differential");
+			report(s, SESSION_INPUT, &st->a->loc,
+			       "the right side of an SDE must contain dt or a noise differential");
 		model_remove_sde(m, sym);
 		entry = model_lookup(m, name);
 		if (existed) {
@@ -543,7 +561,8 @@ bool run_measure(session *s, const ast_node *st)
 		const expr *w = differential_of(s, as->text);
 		long k = w ? model_noise_index(m, w) : -1;
 		if (k < 0) {
-			report(s, SESSION_INPUT, &as->loc, "'%s' is not the differential of a declared noise", as->text);
+			report(s, SESSION_INPUT, &as->loc, "'%s' is not the differential of a declared noise",
+			       as->text);
 			ok = false;
 			break;
 		}
@@ -559,27 +578,29 @@ bool run_measure(session *s, const ast_node *st)
 		if (rhs->kind == AST_NAME)
 			newname = rhs;
 		else if ((rhs->kind == AST_ADD || rhs->kind == AST_SUB) && rhs->a->kind == AST_NAME &&
-			 rhs->a->text[0] == 'd' && strcmp(rhs->a->text, "dt") != 0) {
+		         rhs->a->text[0] == 'd' && strcmp(rhs->a->text, "dt") != 0) {
 			newname = rhs->a;
 			rest = rhs->b;
 			rest_negated = rhs->kind == AST_SUB;
 		} else if (rhs->kind == AST_ADD && rhs->b->kind == AST_NAME && rhs->b->text[0] == 'd' &&
-			   strcmp(rhs->b->text, "dt") != 0) {
+		           strcmp(rhs->b->text, "dt") != 0) {
 			newname = rhs->b;
 			rest = rhs->a;
 		}
 		if (!newname || newname->text[0] != 'd' || !is_identifier(newname->text + 1) ||
 		    strcmp(newname->text, "dt") == 0) {
 			report(s, SESSION_INPUT, &rhs->loc,
-			       "expected dNEW + (shift)*dt, the differential of the new noise plus a drift term");
+			       "expected dNEW + (shift)*dt, the differential of the new noise plus a drift "
+			       "term");
 			ok = false;
 			break;
 		}
 		const char *zname = newname->text + 1;
 		model_entry *clash = model_lookup(m, zname);
 		if (clash && !(clash->kind == MODEL_NOISE && clash->sym == w)) {
-			report(s, SESSION_INPUT, &newname->loc, "'%s' is already declared as a %s; name the new noise differently",
-			       zname, model_kind_name(clash->kind));
+			report(s, SESSION_INPUT, &newname->loc,
+			       "'%s' is already declared as a %s; name the new noise differently", zname,
+			       model_kind_name(clash->kind));
 			ok = false;
 			break;
 		}
@@ -595,7 +616,8 @@ bool run_measure(session *s, const ast_node *st)
 				pure_dt = expr_is_zero(v.d.dw[j]);
 			if (!pure_dt) {
 				value_free(&v);
-				report(s, SESSION_INPUT, &rest->loc, "the shift of a noise must be a coefficient times dt");
+				report(s, SESSION_INPUT, &rest->loc,
+				       "the shift of a noise must be a coefficient times dt");
 				ok = false;
 				break;
 			}
@@ -665,7 +687,8 @@ bool run_state(session *s, const ast_node *st)
 		expr_sym_set_sign(ctx, new_sym, keep_sign);
 		return false;
 	}
-	chstate_change change = {.old_sym = old_sym, .new_sym = new_sym, .forward = forward, .inverse = inverse};
+	chstate_change change = {
+	        .old_sym = old_sym, .new_sym = new_sym, .forward = forward, .inverse = inverse};
 	const expr *round;
 	chstate_error error = chstate_check_inverse(ctx, &change, &round);
 	if (error == CHSTATE_ENGINE) {
@@ -675,8 +698,10 @@ bool run_state(session *s, const ast_node *st)
 	if (error == CHSTATE_NOT_INVERSE) {
 		char *text = text_expr(s, round);
 		report(s, SESSION_INPUT, &where->a->loc,
-		       "the inverse does not undo the new state: substituting it gives %s, not %s%s", text, st->text,
-		       expr_sym_sign(new_sym) == EXPR_SIGN_UNKNOWN ? " (an assume on the new state may help)" : "");
+		       "the inverse does not undo the new state: substituting it gives %s, not %s%s", text,
+		       st->text,
+		       expr_sym_sign(new_sym) == EXPR_SIGN_UNKNOWN ? " (an assume on the new state may help)"
+		                                                   : "");
 		free(text);
 		expr_sym_set_sign(ctx, new_sym, keep_sign);
 		return false;

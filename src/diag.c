@@ -14,8 +14,7 @@
 #include "print.h"
 #include "xalloc.h"
 
-source_frame enter_source(session *s, const char *source, size_t length, const char *origin,
-				 int fixed_line)
+source_frame enter_source(session *s, const char *source, size_t length, const char *origin, int fixed_line)
 {
 	source_frame outer = {s->source, s->length, s->origin, s->fixed_line};
 	s->source = source;
@@ -86,7 +85,7 @@ void report(session *s, int status, const ast_loc *loc, const char *format, ...)
 	if (s->format == FORMAT_JSON) {
 		xbuf buf = {0};
 		xbuf_printf(&buf, "{\"kind\":\"error\",\"line\":%d,\"column\":%d,\"status\":%d,\"message\":",
-			    s->fixed_line ? s->fixed_line : line, column, status);
+		            s->fixed_line ? s->fixed_line : line, column, status);
 		prn_json_string(&buf, message);
 		xbuf_put(&buf, "}\n");
 		fputs(buf.data, s->opt.out);

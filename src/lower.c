@@ -38,8 +38,7 @@ bool is_identifier(const char *text)
 }
 
 /* A partial-derivative name f_x, f_tx, f_{x1,x2}: the function and counts. */
-static bool parse_partial_name(session *s, const char *name, model_entry **func,
-			       unsigned char *counts)
+static bool parse_partial_name(session *s, const char *name, model_entry **func, unsigned char *counts)
 {
 	for (const char *u = strchr(name, '_'); u; u = strchr(u + 1, '_')) {
 		char *stem = xstrndup(name, (size_t)(u - name));
@@ -60,8 +59,9 @@ static bool parse_partial_name(session *s, const char *name, model_entry **func,
 				const char *comma = memchr(p, ',', (size_t)(close - p));
 				const char *end = comma ? comma : close;
 				size_t k = 0;
-				while (k < nargs && !(strlen(expr_func_arg_name(f, k)) == (size_t)(end - p) &&
-						      strncmp(expr_func_arg_name(f, k), p, (size_t)(end - p)) == 0))
+				while (k < nargs &&
+				       !(strlen(expr_func_arg_name(f, k)) == (size_t)(end - p) &&
+				         strncmp(expr_func_arg_name(f, k), p, (size_t)(end - p)) == 0))
 					k++;
 				ok = k < nargs && counts[k] < 255;
 				if (ok)
@@ -72,7 +72,7 @@ static bool parse_partial_name(session *s, const char *name, model_entry **func,
 			for (const char *c = rest; *c && ok; c++) {
 				size_t k = 0;
 				while (k < nargs && !(expr_func_arg_name(f, k)[0] == *c &&
-						      expr_func_arg_name(f, k)[1] == '\0'))
+				                      expr_func_arg_name(f, k)[1] == '\0'))
 					k++;
 				ok = k < nargs && counts[k] < 255;
 				if (ok)
@@ -116,7 +116,8 @@ bool eval_scalar(session *s, const ast_node *n, const expr **out)
 		return false;
 	if (v.is_diff) {
 		value_free(&v);
-		report(s, SESSION_INPUT, &n->loc, "a differential is not allowed here; expected an expression");
+		report(s, SESSION_INPUT, &n->loc,
+		       "a differential is not allowed here; expected an expression");
 		return false;
 	}
 	*out = v.e;
@@ -166,7 +167,8 @@ static bool eval_name(session *s, const ast_node *n, value *out)
 		case MODEL_ARG:
 			if (entry->pending_state && !s->in_sde) {
 				report(s, SESSION_INPUT, &n->loc,
-				       "'%s' is used before its SDE (declare d%s = ... first, or param %s)", name, name, name);
+				       "'%s' is used before its SDE (declare d%s = ... first, or param %s)",
+				       name, name, name);
 				return false;
 			}
 			return make_scalar(s, n, entry->sym, out);
@@ -211,12 +213,14 @@ static bool eval_name(session *s, const ast_node *n, value *out)
 		model_entry *target = model_lookup(&s->model, name + 1);
 		if (target && target->kind == MODEL_LET) {
 			report(s, SESSION_INPUT, &n->loc,
-			       "'%s' is not a differential name; write d(%s) for the differential of a derived process",
+			       "'%s' is not a differential name; write d(%s) for the differential of a "
+			       "derived process",
 			       name, name + 1);
 			return false;
 		}
 	}
-	if (s->in_sde && is_identifier(name) && !suggest(s, name) && check_new_name(s, &n->loc, name, false)) {
+	if (s->in_sde && is_identifier(name) && !suggest(s, name) &&
+	    check_new_name(s, &n->loc, name, false)) {
 		/* a state whose SDE comes later (dS uses v before dv): announced now,
 		 * and every query refuses the model until it gets its SDE */
 		model_entry *ahead = model_add(&s->model, name, MODEL_ARG, expr_sym(s->ctx, name));
@@ -241,7 +245,8 @@ static bool eval_call(session *s, const ast_node *n, value *out)
 		const expr *arg;
 		if (!eval_scalar(s, n->items[0], &arg))
 			return false;
-		return make_scalar(s, n, is_sqrt ? expr_pow_rat(ctx, arg, 1, 2) : expr_fun(ctx, fn, arg), out);
+		return make_scalar(s, n, is_sqrt ? expr_pow_rat(ctx, arg, 1, 2) : expr_fun(ctx, fn, arg),
+		                   out);
 	}
 	model_entry *entry = model_lookup(&s->model, name);
 	unsigned char counts[EXPR_MAX_FUNC_ARGS] = {0};
@@ -254,7 +259,8 @@ static bool eval_call(session *s, const ast_node *n, value *out)
 			}
 			const char *hint = suggest(s, name);
 			if (hint)
-				report(s, SESSION_INPUT, &n->loc, "unknown function '%s'; did you mean '%s'?", name, hint);
+				report(s, SESSION_INPUT, &n->loc, "unknown function '%s'; did you mean '%s'?",
+				       name, hint);
 			else
 				report(s, SESSION_INPUT, &n->loc,
 				       "unknown function '%s' (declare it with: func %s(t, x))", name, name);
@@ -283,11 +289,11 @@ const expr *variable_symbol(session *s, const ast_node *n, const char *verb, con
 		return s->model.time;
 	model_entry *entry = model_lookup(&s->model, n->text);
 	if (entry && (entry->kind == MODEL_PARAM || entry->kind == MODEL_STATE ||
-		      entry->kind == MODEL_NOISE || entry->kind == MODEL_ARG))
+	              entry->kind == MODEL_NOISE || entry->kind == MODEL_ARG))
 		return entry->sym;
 	if (entry)
-		report(s, SESSION_INPUT, &n->loc, "%s the %s '%s'%s", verb, model_kind_name(entry->kind), n->text,
-		       tail);
+		report(s, SESSION_INPUT, &n->loc, "%s the %s '%s'%s", verb, model_kind_name(entry->kind),
+		       n->text, tail);
 	else
 		unknown_name(s, &n->loc, n->text);
 	return NULL;
@@ -332,7 +338,8 @@ static bool eval_sum_chain(session *s, const ast_node *n, value *out)
 				break;
 			}
 		report(s, SESSION_INPUT, &culprit->loc,
-		       "cannot add an expression and a differential (each term needs a dt or a noise differential)");
+		       "cannot add an expression and a differential (each term needs a dt or a noise "
+		       "differential)");
 		ok = false;
 	}
 	if (ok && !any_diff) {
@@ -374,7 +381,8 @@ static bool combine(session *s, const ast_node *n, value a, value b, value *out)
 	case AST_SUB:
 		if (a.is_diff != b.is_diff) {
 			report(s, SESSION_INPUT, &n->loc,
-			       "cannot add an expression and a differential (each term needs a dt or a noise differential)");
+			       "cannot add an expression and a differential (each term needs a dt or a noise "
+			       "differential)");
 			ok = false;
 		} else if (a.is_diff) {
 			if (n->kind == AST_SUB) {
@@ -387,7 +395,9 @@ static bool combine(session *s, const ast_node *n, value a, value b, value *out)
 			}
 			ok = make_diff(s, n, &d, out);
 		} else {
-			ok = make_scalar(s, n, n->kind == AST_ADD ? expr_add(ctx, a.e, b.e) : expr_sub(ctx, a.e, b.e), out);
+			ok = make_scalar(
+			        s, n, n->kind == AST_ADD ? expr_add(ctx, a.e, b.e) : expr_sub(ctx, a.e, b.e),
+			        out);
 		}
 		break;
 	case AST_MUL:
@@ -422,7 +432,8 @@ static bool combine(session *s, const ast_node *n, value a, value b, value *out)
 		} else if (a.is_diff) {
 			/* (dX)^1 = dX, (dX)^2 by the table, higher powers vanish */
 			if (!expr_is_integer(b.e) || mpq_sgn(expr_num_value(b.e)) <= 0) {
-				report(s, SESSION_INPUT, &n->b->loc, "a differential can only be raised to a positive integer power");
+				report(s, SESSION_INPUT, &n->b->loc,
+				       "a differential can only be raised to a positive integer power");
 				ok = false;
 			} else if (expr_is_one(b.e)) {
 				ito_diff_scale(m, &a.d, expr_int(ctx, 1), &d);
@@ -502,8 +513,9 @@ bool eval_node(session *s, const ast_node *n, value *out)
 	case AST_NUM: {
 		const expr *e = expr_decimal(ctx, n->text);
 		if (!e) {
-			report(s, SESSION_LIMIT, &n->loc, "number '%s' is too large (decimal exponents are limited to %d)",
-			       n->text, RAT_MAX_DECIMAL_EXPONENT);
+			report(s, SESSION_LIMIT, &n->loc,
+			       "number '%s' is too large (decimal exponents are limited to %d)", n->text,
+			       RAT_MAX_DECIMAL_EXPONENT);
 			return false;
 		}
 		return make_scalar(s, n, e, out);
@@ -536,7 +548,8 @@ bool eval_node(session *s, const ast_node *n, value *out)
 		if (!eval_scalar(s, n->a, &e))
 			return false;
 		for (size_t i = 0; i < n->nitems; i++) {
-			const expr *x = variable_symbol(s, n->items[i], "cannot differentiate with respect to", "");
+			const expr *x =
+			        variable_symbol(s, n->items[i], "cannot differentiate with respect to", "");
 			if (!x)
 				return false;
 			e = diff(ctx, e, x);

@@ -61,8 +61,9 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 				free(text);
 			} else if (e->lo && e->hi) {
 				char *lo = text_expr(s, e->lo), *hi = text_expr(s, e->hi);
-				xbuf_printf(out, "\nassume %s %s %s, %s %s %s", e->name, e->lo_strict ? ">" : ">=", lo, e->name,
-					    e->hi_strict ? "<" : "<=", hi);
+				xbuf_printf(out, "\nassume %s %s %s, %s %s %s", e->name,
+				            e->lo_strict ? ">" : ">=", lo, e->name,
+				            e->hi_strict ? "<" : "<=", hi);
 				free(lo);
 				free(hi);
 			}
@@ -90,7 +91,7 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 					continue;
 				text = text_expr(s, rho);
 				xbuf_printf(out, "corr(%s, %s) = %s\n", expr_sym_name(m->noises[i]),
-					    expr_sym_name(m->noises[j]), text);
+				            expr_sym_name(m->noises[j]), text);
 				free(text);
 			}
 	/* assumptions: on states in the order of their SDEs (so the text does not
@@ -112,9 +113,11 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 		model_sde *sde = &m->sdes[i];
 		if (only && strcmp(expr_sym_name(sde->state), only) != 0)
 			continue;
-		prn_diff d = {.dt = sde->drift, .dw = sde->diffusion, .noises = m->noises, .n = sde->ndiffusion};
+		prn_diff d = {
+		        .dt = sde->drift, .dw = sde->diffusion, .noises = m->noises, .n = sde->ndiffusion};
 		char *body = prn_differential(s->ctx, &d, PRN_TEXT, NULL);
-		xbuf_printf(out, "%sd%s = %s\n", sde->stratonovich ? "stratonovich " : "", expr_sym_name(sde->state), body);
+		xbuf_printf(out, "%sd%s = %s\n", sde->stratonovich ? "stratonovich " : "",
+		            expr_sym_name(sde->state), body);
 		free(body);
 	}
 	s->measure = keep_measure;
@@ -136,8 +139,8 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 			if (q->names[k] == m->noises[k])
 				continue; /* implied by the correlations */
 			text = text_expr(s, q->shift[k]);
-			xbuf_printf(out, "%s d%s = d%s + (%s)*dt", first ? "" : ",", expr_sym_name(m->noises[k]),
-				    expr_sym_name(q->names[k]), text);
+			xbuf_printf(out, "%s d%s = d%s + (%s)*dt", first ? "" : ",",
+			            expr_sym_name(m->noises[k]), expr_sym_name(q->names[k]), text);
 			free(text);
 			first = false;
 		}
@@ -181,9 +184,11 @@ bool run_show(session *s, const ast_node *st)
 		r->origin = s->origin;
 		r->line = s->fixed_line ? s->fixed_line : st->loc.first_line;
 		r->name = entry->name;
-		r->diff = (prn_diff){.dt = diffs[n].dt, .dw = diffs[n].dw, .n = diffs[n].n,
-				     .noises = s->measure ? s->measure->names : m->noises,
-				     .stratonovich = sde->stratonovich};
+		r->diff = (prn_diff){.dt = diffs[n].dt,
+		                     .dw = diffs[n].dw,
+		                     .n = diffs[n].n,
+		                     .noises = s->measure ? s->measure->names : m->noises,
+		                     .stratonovich = sde->stratonovich};
 		r->measure = s->measure ? s->measure->name : NULL;
 		n++;
 	}

@@ -25,7 +25,7 @@ static writer *current_writer(session *s)
 	static const writer_class *const classes[] = {&writer_text, &writer_latex, &writer_c, &writer_json};
 	if (!s->writers[s->format])
 		s->writers[s->format] = writer_new(classes[s->format], s->opt.out, s->ctx, &s->model,
-						   s->opt.standalone && s->format == FORMAT_LATEX);
+		                                   s->opt.standalone && s->format == FORMAT_LATEX);
 	return s->writers[s->format];
 }
 
@@ -113,7 +113,8 @@ bool result_emit(session *s, pending *p, const ast_node *st)
 }
 
 /* A differential result: d EXPR (of), a differential written out or a product. */
-static bool output_differential(session *s, const ast_node *st, result_kind kind, const expr *of, const ito_diff *d)
+static bool output_differential(session *s, const ast_node *st, result_kind kind, const expr *of,
+                                const ito_diff *d)
 {
 	pending p;
 	result_start(s, &p, kind, st);
@@ -125,7 +126,7 @@ static bool output_differential(session *s, const ast_node *st, result_kind kind
 
 /* A single expression result: value, drift, generator, qv. */
 static bool output_scalar(session *s, const ast_node *st, result_kind kind, const expr *of, const expr *of2,
-			  const expr *e)
+                          const expr *e)
 {
 	pending p;
 	result_start(s, &p, kind, st);
@@ -170,7 +171,8 @@ bool run_part(session *s, const ast_node *st)
 		only.dt = expr_int(s->ctx, 0);
 		ok = output_differential(s, st, RESULT_DIFFUSION, e, &only);
 	} else {
-		ok = output_scalar(s, st, st->kind == AST_S_DRIFT ? RESULT_DRIFT : RESULT_GENERATOR, e, NULL, d.dt);
+		ok = output_scalar(s, st, st->kind == AST_S_DRIFT ? RESULT_DRIFT : RESULT_GENERATOR, e, NULL,
+		                   d.dt);
 	}
 	ito_diff_free(&d);
 	return ok;
@@ -360,8 +362,9 @@ bool run_claim(session *s, const ast_node *st)
 		return false;
 	}
 	if (left.is_diff != right.is_diff) {
-		report(s, SESSION_INPUT, &st->b->loc, left.is_diff ? "the left side is a differential, the right side is not"
-								   : "the right side is a differential, the left side is not");
+		report(s, SESSION_INPUT, &st->b->loc,
+		       left.is_diff ? "the left side is a differential, the right side is not"
+		                    : "the right side is a differential, the left side is not");
 		ok = false;
 	}
 	if (ok && engine_failed(s, &st->loc))
@@ -412,9 +415,15 @@ bool run_check(session *s, const ast_node *st)
 	const expr *f;
 	if (!eval_scalar(s, st->a, &f))
 		return false;
-	check_input in = {.m = m, .q = s->measure, .f = f, .horizon = 1, .steps = 1000,
-			  .paths = 20000, .seed = s->opt.seed, .verbose = st->verbose,
-			  .max_work = s->opt.max_simulation};
+	check_input in = {.m = m,
+	                  .q = s->measure,
+	                  .f = f,
+	                  .horizon = 1,
+	                  .steps = 1000,
+	                  .paths = 20000,
+	                  .seed = s->opt.seed,
+	                  .verbose = st->verbose,
+	                  .max_work = s->opt.max_simulation};
 	ito_diff engine;
 	ito_d(m, s->measure, f, &engine);
 	value hand = {0};
@@ -422,7 +431,8 @@ bool run_check(session *s, const ast_node *st)
 	if (ok && st->b) {
 		ok = eval_node(s, st->b, &hand);
 		if (ok && !hand.is_diff) {
-			report(s, SESSION_INPUT, &st->b->loc, "expected a differential (terms in dt and the noises)");
+			report(s, SESSION_INPUT, &st->b->loc,
+			       "expected a differential (terms in dt and the noises)");
 			ok = false;
 		}
 		in.hand_derived = true;
@@ -469,7 +479,8 @@ bool run_check(session *s, const ast_node *st)
 			in.seed = (unsigned long)v;
 		else {
 			report(s, SESSION_INPUT, &as->loc,
-			       "over takes T > 0, steps >= 1, paths >= 2 (integers), seed and scheme=euler|milstein");
+			       "over takes T > 0, steps >= 1, paths >= 2 (integers), seed and "
+			       "scheme=euler|milstein");
 			ok = false;
 		}
 	}
@@ -482,7 +493,8 @@ bool run_check(session *s, const ast_node *st)
 			engine_failed(s, &st->loc); /* says whether it was Ctrl-C or the time limit */
 			ok = false;
 		} else if (result.error) {
-			report(s, result.limit_hit ? SESSION_LIMIT : SESSION_INPUT, &st->loc, "%s", result.error);
+			report(s, result.limit_hit ? SESSION_LIMIT : SESSION_INPUT, &st->loc, "%s",
+			       result.error);
 			ok = false;
 		} else {
 			pending p;

@@ -40,16 +40,16 @@ struct session {
 	const model_measure *measure; /* the measure of the current query */
 	int load_depth;
 	unsigned long claim_count;
-	int fixed_line;			/* for -e statements: messages say -e:N:COLUMN */
-	bool in_sde;			/* evaluating an SDE's right side: assumed states may appear */
-	bool abbreviate;		/* print let names for their definitions in results */
-	bool corr_block;		/* inside a run of corr statements */
-	const expr **corr_before;	/* the matrix before the run */
+	int fixed_line;           /* for -e statements: messages say -e:N:COLUMN */
+	bool in_sde;              /* evaluating an SDE's right side: assumed states may appear */
+	bool abbreviate;          /* print let names for their definitions in results */
+	bool corr_block;          /* inside a run of corr statements */
+	const expr **corr_before; /* the matrix before the run */
 	size_t corr_before_n;
-	ast_loc corr_last;		/* the last corr of the run, for the message */
-	char *corr_text, *corr_origin;	/* its line and origin */
+	ast_loc corr_last;             /* the last corr of the run, for the message */
+	char *corr_text, *corr_origin; /* its line and origin */
 	int corr_fixed_line;
-	writer *writers[4];		/* one per format, made on first use */
+	writer *writers[4]; /* one per format, made on first use */
 };
 
 /* The source text being run, for the line and caret of messages; a nested
@@ -91,7 +91,7 @@ void raise_status(session *s, int status);
 void source_line(const session *s, int line, const char **start, size_t *length);
 /* An error at loc (NULL: none): file:line:column, the line and a caret; raises the status. */
 void report(session *s, int status, const ast_loc *loc, const char *format, ...)
-	__attribute__((format(printf, 4, 5)));
+        __attribute__((format(printf, 4, 5)));
 /* Report the engine's error (limit, interrupt, division by zero) if one is set. */
 bool engine_failed(session *s, const ast_loc *loc);
 /* The declared or built-in name closest to name, or NULL when none is close. */

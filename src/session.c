@@ -24,7 +24,8 @@ static bool run_help(session *s, const ast_node *st)
 {
 	const char *text = help_text(st->text);
 	if (!text) {
-		report(s, SESSION_INPUT, &st->loc, "no help on '%s'; try 'help' for the list of topics", st->text);
+		report(s, SESSION_INPUT, &st->loc, "no help on '%s'; try 'help' for the list of topics",
+		       st->text);
 		return false;
 	}
 	fputs(text, s->opt.out);
@@ -40,11 +41,13 @@ static bool run_under(session *s, const ast_node *st)
 	if (!q) {
 		model_entry *entry = model_lookup(&s->model, st->text);
 		if (entry)
-			report(s, SESSION_INPUT, &st->loc, "'%s' is a %s, not a measure", st->text, model_kind_name(entry->kind));
+			report(s, SESSION_INPUT, &st->loc, "'%s' is a %s, not a measure", st->text,
+			       model_kind_name(entry->kind));
 		else if (strcmp(st->text, "P") == 0)
 			return run_statement(s, st->a);
 		else
-			report(s, SESSION_INPUT, &st->loc, "unknown measure '%s' (declare it with: measure %s: dW = dZ - lambda*dt)",
+			report(s, SESSION_INPUT, &st->loc,
+			       "unknown measure '%s' (declare it with: measure %s: dW = dZ - lambda*dt)",
 			       st->text, st->text);
 		return false;
 	}
@@ -70,7 +73,8 @@ static bool model_complete(session *s, const ast_node *st)
 				uses = expr_has(s->ctx, sde->diffusion[k], e->sym);
 			if (uses) {
 				report(s, SESSION_INPUT, &st->loc,
-				       "the SDE of '%s' uses '%s', which has no SDE yet (declare d%s = ... or param %s)",
+				       "the SDE of '%s' uses '%s', which has no SDE yet (declare d%s = ... "
+				       "or param %s)",
 				       expr_sym_name(sde->state), e->name, e->name, e->name);
 				return false;
 			}
@@ -94,34 +98,34 @@ typedef struct statement_row {
 } statement_row;
 
 static const statement_row statements[AST_KIND_COUNT] = {
-	[AST_S_EXPR] = {run_expr_statement, true},
-	[AST_S_D] = {run_d, true},
-	[AST_S_DRIFT] = {run_part, true},
-	[AST_S_DIFFUSION] = {run_part, true},
-	[AST_S_GENERATOR] = {run_part, true},
-	[AST_S_QV] = {run_qv, true},
-	[AST_S_PDE] = {run_pde, true},
-	[AST_S_SDE_ITO] = {run_sde_display, true},
-	[AST_S_SDE_STRAT] = {run_sde_display, true},
-	[AST_S_PARAM] = {run_param, false},
-	[AST_S_ASSUME] = {run_assume, false},
-	[AST_S_NOISE] = {run_noise, false},
-	[AST_S_CORR] = {run_corr, false},
-	[AST_S_FUNC] = {run_func, false},
-	[AST_S_SDE] = {run_sde, false},
-	[AST_S_STRAT_SDE] = {run_sde, false},
-	[AST_S_LET] = {run_let, false},
-	[AST_S_MEASURE] = {run_measure, true},
-	[AST_S_UNDER] = {run_under, false}, /* the statement it runs is checked */
-	[AST_S_STATE] = {run_state, true},
-	[AST_S_CLAIM] = {run_claim, true},
-	[AST_S_CHECK] = {run_check, true},
-	[AST_S_SHOW] = {run_show, false},
-	[AST_S_SAVE] = {run_save, false},
-	[AST_S_LOAD] = {run_load, false},
-	[AST_S_FORMAT] = {run_format, false},
-	[AST_S_HELP] = {run_help, false},
-	[AST_S_QUIT] = {run_quit, false},
+        [AST_S_EXPR] = {run_expr_statement, true},
+        [AST_S_D] = {run_d, true},
+        [AST_S_DRIFT] = {run_part, true},
+        [AST_S_DIFFUSION] = {run_part, true},
+        [AST_S_GENERATOR] = {run_part, true},
+        [AST_S_QV] = {run_qv, true},
+        [AST_S_PDE] = {run_pde, true},
+        [AST_S_SDE_ITO] = {run_sde_display, true},
+        [AST_S_SDE_STRAT] = {run_sde_display, true},
+        [AST_S_PARAM] = {run_param, false},
+        [AST_S_ASSUME] = {run_assume, false},
+        [AST_S_NOISE] = {run_noise, false},
+        [AST_S_CORR] = {run_corr, false},
+        [AST_S_FUNC] = {run_func, false},
+        [AST_S_SDE] = {run_sde, false},
+        [AST_S_STRAT_SDE] = {run_sde, false},
+        [AST_S_LET] = {run_let, false},
+        [AST_S_MEASURE] = {run_measure, true},
+        [AST_S_UNDER] = {run_under, false}, /* the statement it runs is checked */
+        [AST_S_STATE] = {run_state, true},
+        [AST_S_CLAIM] = {run_claim, true},
+        [AST_S_CHECK] = {run_check, true},
+        [AST_S_SHOW] = {run_show, false},
+        [AST_S_SAVE] = {run_save, false},
+        [AST_S_LOAD] = {run_load, false},
+        [AST_S_FORMAT] = {run_format, false},
+        [AST_S_HELP] = {run_help, false},
+        [AST_S_QUIT] = {run_quit, false},
 };
 
 static bool run_statement(session *s, const ast_node *st)
@@ -259,8 +263,8 @@ static void run_statements(session *s, const char *source, size_t length)
 	if (s->status >= SESSION_INPUT)
 		s->corr_block = false; /* the run stopped: its corr statements are not judged */
 	if (list.error.present && s->status < SESSION_INPUT && !s->quit)
-		report(s, list.error.kind == AST_ERROR_NESTING ? SESSION_LIMIT : SESSION_INPUT, &list.error.loc, "%s",
-		       list.error.message);
+		report(s, list.error.kind == AST_ERROR_NESTING ? SESSION_LIMIT : SESSION_INPUT,
+		       &list.error.loc, "%s", list.error.message);
 	ast_list_free(&list);
 }
 
