@@ -12,6 +12,9 @@
 #include "print.h"
 #include "xalloc.h"
 
+/* The names of the output formats, indexed by session_format. */
+static const char *const format_names[] = {"text", "latex", "c", "json"};
+
 /* "assume x > 0", "assume x in [a, b]" for an entry that has a range. */
 static void dump_assumption(session *s, xbuf *out, const model_entry *e)
 {
@@ -35,6 +38,7 @@ static void dump_assumption(session *s, xbuf *out, const model_entry *e)
 	}
 }
 
+/* The declarations of the model (only: those of one name) as statements. */
 static void dump_model_body(session *s, xbuf *out, const char *only)
 {
 	model *m = &s->model;
@@ -148,6 +152,7 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 	}
 }
 
+/* The same, every let spelled out: the script must not depend on the lets. */
 static void dump_model(session *s, xbuf *out, const char *only)
 {
 	bool keep_abbreviate = s->abbreviate;
@@ -223,7 +228,6 @@ bool run_save(session *s, const ast_node *st)
 	}
 	xbuf buf = {0};
 	dump_model(s, &buf, NULL);
-	static const char *const format_names[] = {"text", "latex", "c", "json"};
 	fprintf(file, "# itox session saved as a script\n%s", buf.data ? buf.data : "");
 	if (s->format != FORMAT_TEXT)
 		fprintf(file, "format %s\n", format_names[s->format]);
@@ -257,9 +261,8 @@ bool run_load(session *s, const ast_node *st)
 
 bool run_format(session *s, const ast_node *st)
 {
-	static const char *const names[] = {"text", "latex", "c", "json"};
 	for (int i = 0; i < 4; i++)
-		if (strcmp(st->text, names[i]) == 0) {
+		if (strcmp(st->text, format_names[i]) == 0) {
 			s->format = (session_format)i;
 			return true;
 		}

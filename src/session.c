@@ -20,21 +20,9 @@ enum { MAX_NESTING = 1000, MAX_LINE = 1 << 20 };
 
 /* ------------------------------------------------------------------ statements */
 
-static bool run_help(session *s, const ast_node *st)
-{
-	const char *text = help_text(st->text);
-	if (!text) {
-		report(s, SESSION_INPUT, &st->loc, "no help on '%s'; try 'help' for the list of topics",
-		       st->text);
-		return false;
-	}
-	fputs(text, s->opt.out);
-	fflush(s->opt.out);
-	return true;
-}
-
 static bool run_statement(session *s, const ast_node *st);
 
+/* under Q: STATEMENT, a query under the measure Q (P: the model's own) */
 static bool run_under(session *s, const ast_node *st)
 {
 	model_measure *q = model_measure_find(&s->model, st->text);
@@ -56,6 +44,28 @@ static bool run_under(session *s, const ast_node *st)
 	bool ok = run_statement(s, st->a);
 	s->measure = keep;
 	return ok;
+}
+
+/* help [TOPIC] */
+static bool run_help(session *s, const ast_node *st)
+{
+	const char *text = help_text(st->text);
+	if (!text) {
+		report(s, SESSION_INPUT, &st->loc, "no help on '%s'; try 'help' for the list of topics",
+		       st->text);
+		return false;
+	}
+	fputs(text, s->opt.out);
+	fflush(s->opt.out);
+	return true;
+}
+
+/* quit */
+static bool run_quit(session *s, const ast_node *st)
+{
+	(void)st;
+	s->quit = true;
+	return true;
 }
 
 /* Queries need every state that an SDE uses to have its own SDE. */
@@ -80,13 +90,6 @@ static bool model_complete(session *s, const ast_node *st)
 			}
 		}
 	}
-	return true;
-}
-
-static bool run_quit(session *s, const ast_node *st)
-{
-	(void)st;
-	s->quit = true;
 	return true;
 }
 
