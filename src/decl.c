@@ -51,6 +51,20 @@ bool check_new_name(session *s, const ast_loc *loc, const char *name, bool allow
 	return true;
 }
 
+/* May name be declared as a kind (a let or a measure)?  A new name may; so
+ * may one of that kind (declared again: a let redefined, load after save),
+ * and a function's argument name may become a let. */
+static bool may_declare(session *s, const ast_loc *loc, const char *name, model_kind kind)
+{
+	model_entry *entry = model_lookup(&s->model, name);
+	if (!entry)
+		return check_new_name(s, loc, name, false);
+	if (entry->kind == kind || (kind == MODEL_LET && entry->kind == MODEL_ARG && !entry->pending_state))
+		return true;
+	report(s, SESSION_INPUT, loc, "'%s' is already declared as a %s", name, model_kind_name(entry->kind));
+	return false;
+}
+
 static int sign_from_bound(const expr *bound, ast_rel op)
 {
 	if (!expr_is_num(bound))
@@ -333,13 +347,7 @@ bool run_func(session *s, const ast_node *st)
 
 bool run_let(session *s, const ast_node *st)
 {
-	model_entry *entry = model_lookup(&s->model, st->text);
-	if (entry && entry->kind != MODEL_LET && !(entry->kind == MODEL_ARG && !entry->pending_state)) {
-		report(s, SESSION_INPUT, &st->loc, "'%s' is already declared as a %s", st->text,
-		       model_kind_name(entry->kind));
-		return false;
-	}
-	if (!entry && !check_new_name(s, &st->loc, st->text, false))
+	if (!may_declare(s, &st->loc, st->text, MODEL_LET))
 		return false;
 	/* a let may not refer to itself */
 	const char *name = st->text;
@@ -365,7 +373,7 @@ bool run_let(session *s, const ast_node *st)
 	const expr *value_expr;
 	if (!eval_scalar(s, st->a, &value_expr))
 		return false;
-	entry = model_add(&s->model, st->text, MODEL_LET, NULL);
+	model_entry *entry = model_add(&s->model, st->text, MODEL_LET, NULL);
 	entry->value = value_expr;
 	return true;
 }
@@ -539,13 +547,7 @@ bool run_sde(session *s, const ast_node *st)
 bool run_measure(session *s, const ast_node *st)
 {
 	model *m = &s->model;
-	model_entry *existing = model_lookup(m, st->text);
-	if (existing && existing->kind != MODEL_MEASURE) {
-		report(s, SESSION_INPUT, &st->loc, "'%s' is already declared as a %s", st->text,
-		       model_kind_name(existing->kind));
-		return false;
-	}
-	if (!existing && !check_new_name(s, &st->loc, st->text, false))
+	if (!may_declare(s, &st->loc, st->text, MODEL_MEASURE))
 		return false;
 	if (strcmp(st->text, "P") == 0) {
 		report(s, SESSION_INPUT, &st->loc, "'P' names the model's own measure; choose another name");

@@ -138,17 +138,26 @@ static bool output_scalar(session *s, const ast_node *st, result_kind kind, cons
 
 /* ------------------------------------------------------------------ queries */
 
+/* The expression of a query (st->a) and its differential under the current
+ * measure; false after reporting. */
+static bool query_differential(session *s, const ast_node *st, const expr **e, ito_diff *d)
+{
+	if (!eval_scalar(s, st->a, e))
+		return false;
+	ito_d(&s->model, s->measure, *e, d);
+	if (ito_diff_failed(d) || engine_failed(s, &st->loc)) {
+		ito_diff_free(d);
+		return false;
+	}
+	return true;
+}
+
 bool run_d(session *s, const ast_node *st)
 {
 	const expr *e;
-	if (!eval_scalar(s, st->a, &e))
-		return false;
 	ito_diff d;
-	ito_d(&s->model, s->measure, e, &d);
-	if (ito_diff_failed(&d) || engine_failed(s, &st->loc)) {
-		ito_diff_free(&d);
+	if (!query_differential(s, st, &e, &d))
 		return false;
-	}
 	bool ok = output_differential(s, st, RESULT_DIFFERENTIAL, e, &d);
 	ito_diff_free(&d);
 	return ok;
@@ -157,14 +166,9 @@ bool run_d(session *s, const ast_node *st)
 bool run_part(session *s, const ast_node *st)
 {
 	const expr *e;
-	if (!eval_scalar(s, st->a, &e))
-		return false;
 	ito_diff d;
-	ito_d(&s->model, s->measure, e, &d);
-	if (ito_diff_failed(&d) || engine_failed(s, &st->loc)) {
-		ito_diff_free(&d);
+	if (!query_differential(s, st, &e, &d))
 		return false;
-	}
 	bool ok;
 	if (st->kind == AST_S_DIFFUSION) {
 		ito_diff only = d;
