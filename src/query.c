@@ -152,17 +152,6 @@ static bool query_differential(session *s, const ast_node *st, const expr **e, i
 	return true;
 }
 
-bool run_d(session *s, const ast_node *st)
-{
-	const expr *e;
-	ito_diff d;
-	if (!query_differential(s, st, &e, &d))
-		return false;
-	bool ok = output_differential(s, st, RESULT_DIFFERENTIAL, e, &d);
-	ito_diff_free(&d);
-	return ok;
-}
-
 bool run_part(session *s, const ast_node *st)
 {
 	const expr *e;
@@ -170,7 +159,9 @@ bool run_part(session *s, const ast_node *st)
 	if (!query_differential(s, st, &e, &d))
 		return false;
 	bool ok;
-	if (st->kind == AST_S_DIFFUSION) {
+	if (st->kind == AST_S_D) {
+		ok = output_differential(s, st, RESULT_DIFFERENTIAL, e, &d);
+	} else if (st->kind == AST_S_DIFFUSION) {
 		ito_diff only = d;
 		only.dt = expr_int(s->ctx, 0);
 		ok = output_differential(s, st, RESULT_DIFFUSION, e, &only);

@@ -157,9 +157,7 @@ bool result_emit(session *s, pending *p, const ast_node *st);
 bool state_sde(session *s, const ast_node *st, model_entry *entry, bool stratonovich, ito_diff *d);
 /* a bare expression or differential */
 bool run_expr_statement(session *s, const ast_node *st);
-/* d EXPR */
-bool run_d(session *s, const ast_node *st);
-/* drift, diffusion and generator EXPR */
+/* d, drift, diffusion and generator EXPR: d EXPR, its dt part or its dW part */
 bool run_part(session *s, const ast_node *st);
 /* qv A [, B] */
 bool run_qv(session *s, const ast_node *st);

@@ -102,7 +102,7 @@ typedef struct statement_row {
 
 static const statement_row statements[AST_KIND_COUNT] = {
         [AST_S_EXPR] = {run_expr_statement, true},
-        [AST_S_D] = {run_d, true},
+        [AST_S_D] = {run_part, true},
         [AST_S_DRIFT] = {run_part, true},
         [AST_S_DIFFUSION] = {run_part, true},
         [AST_S_GENERATOR] = {run_part, true},
