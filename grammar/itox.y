@@ -327,14 +327,15 @@ args:
 
 %%
 
-static void set_error(struct itox_parse_state *ps, const ast_loc *loc, bool incomplete,
-		      const char *message)
+static void set_error(struct itox_parse_state *ps, const ast_loc *loc, ast_error_kind kind,
+		      bool incomplete, const char *message)
 {
 	ast_error *error = &ps->list->error;
 
 	if (error->present)
 		return;
 	error->present = true;
+	error->kind = kind;
 	error->incomplete = incomplete;
 	error->loc = *loc;
 	snprintf(error->message, sizeof error->message, "%s", message);
@@ -345,7 +346,7 @@ static void set_depth_error(struct itox_parse_state *ps, const ast_loc *loc)
 	char text[128];
 
 	snprintf(text, sizeof text, "expression nested too deeply (limit %d)", ps->max_depth);
-	set_error(ps, loc, false, text);
+	set_error(ps, loc, AST_ERROR_NESTING, false, text);
 }
 
 /* Bison calls this only when its own stack is exhausted. */
@@ -568,22 +569,23 @@ static int yyreport_syntax_error(const yypcontext_t *ctx, yyscan_t scanner,
 	case YYSYMBOL_BADCHAR:
 		msg_add(&m, "unexpected character ");
 		msg_add(&m, ps->last_text);
-		set_error(ps, &loc, false, m.text);
+		set_error(ps, &loc, AST_ERROR_SYNTAX, false, m.text);
 		return 0;
 	case YYSYMBOL_BADSTRING:
-		set_error(ps, &loc, false, "unterminated string (a closing '\"' is missing)");
+		set_error(ps, &loc, AST_ERROR_SYNTAX, false,
+			  "unterminated string (a closing '\"' is missing)");
 		return 0;
 	case YYSYMBOL_YYEOF:
 		if (ps->depth > 0) {
 			const struct itox_open_bracket *open = &ps->open[ps->depth - 1];
 
 			msg_add(&m, open->bracket == '(' ? "unclosed '('" : "unclosed '['");
-			set_error(ps, &open->loc, true, m.text);
+			set_error(ps, &open->loc, AST_ERROR_SYNTAX, true, m.text);
 			return 0;
 		}
 		msg_add(&m, "unexpected end of input");
 		describe_expected(&m, ctx);
-		set_error(ps, &loc, true, m.text);
+		set_error(ps, &loc, AST_ERROR_SYNTAX, true, m.text);
 		return 0;
 	default:
 		msg_add(&m, "unexpected ");
@@ -591,7 +593,7 @@ static int yyreport_syntax_error(const yypcontext_t *ctx, yyscan_t scanner,
 		if (is_keyword(kind) && name_expected(ctx))
 			msg_add(&m, " (a reserved word)");
 		describe_expected(&m, ctx);
-		set_error(ps, &loc, false, m.text);
+		set_error(ps, &loc, AST_ERROR_SYNTAX, false, m.text);
 		return 0;
 	}
 }

@@ -286,6 +286,7 @@ void ast_parse(const char *source, size_t length, int max_depth, ast_list *list)
 		length = 0;
 	if (length > INT_MAX / 2) {
 		list->error.present = true;
+		list->error.kind = AST_ERROR_SIZE;
 		list->error.loc = (ast_loc){1, 1, 1, 1};
 		snprintf(list->error.message, sizeof list->error.message,
 			 "input too large (%zu bytes)", length);

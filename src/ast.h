@@ -90,9 +90,17 @@ struct ast_node {
 	bool verbose;	/* S_CHECK: "verbose" was given */
 };
 
+/* What a parse error is: a mistake in the text, or a limit of the parser. */
+typedef enum ast_error_kind {
+	AST_ERROR_SYNTAX,  /* the text does not follow the grammar */
+	AST_ERROR_NESTING, /* nesting deeper than max_depth (a limit) */
+	AST_ERROR_SIZE,	   /* the whole input is larger than the parser takes */
+} ast_error_kind;
+
 /* One parsed source: the statements in order, and the first syntax error if any. */
 typedef struct ast_error {
 	bool present;
+	ast_error_kind kind;
 	bool incomplete; /* the input ended inside an open statement (REPL: read more) */
 	ast_loc loc;	 /* where to put the caret */
 	char message[512];

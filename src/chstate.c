@@ -1,0 +1,70 @@
+/* chstate.c - change of state variable (chstate.h). */
+#include "chstate.h"
+
+#include <stdlib.h>
+
+#include "ito.h"
+#include "xalloc.h"
+
+int chstate_infer_sign(expr_ctx *ctx, const expr *new_sym, const expr *forward)
+{
+	int keep_sign = expr_sym_sign(new_sym);
+	int forward_sign = expr_sign(ctx, forward);
+	if (forward_sign != EXPR_SIGN_UNKNOWN)
+		expr_sym_set_sign(ctx, new_sym,
+		                  keep_sign & forward_sign ? keep_sign & forward_sign : forward_sign);
+	return keep_sign;
+}
+
+chstate_error chstate_check_inverse(expr_ctx *ctx, const chstate_change *change, const expr **round)
+{
+	/* the inverse must undo the forward map: forward(inverse(x)) = x */
+	*round = expr_subst(ctx, change->forward, 1, &change->old_sym, &change->inverse);
+	if (expr_error(ctx))
+		return CHSTATE_ENGINE;
+	return *round == change->new_sym ? CHSTATE_OK : CHSTATE_NOT_INVERSE;
+}
+
+chstate_error chstate_apply(model *m, const chstate_change *change)
+{
+	expr_ctx *ctx = m->ctx;
+	const expr *old_sym = change->old_sym, *inverse = change->inverse;
+	ito_diff d;
+	ito_d(m, NULL, change->forward, &d);
+	if (ito_diff_failed(&d)) {
+		ito_diff_free(&d);
+		return CHSTATE_ENGINE;
+	}
+	/* the new state's SDE in its own variable */
+	model_sde *old_sde = model_sde_of(m, old_sym);
+	size_t position = (size_t)(old_sde - m->sdes);
+	const expr *drift = expr_subst(ctx, d.dt, 1, &old_sym, &inverse);
+	const expr **dw = xcalloc(m->nnoises ? m->nnoises : 1, sizeof *dw);
+	for (size_t k = 0; k < m->nnoises; k++)
+		dw[k] = expr_subst(ctx, d.dw[k], 1, &old_sym, &inverse);
+	ito_diff_free(&d);
+	/* every other coefficient and definition in the new variable */
+	for (size_t i = 0; i < m->nsdes; i++) {
+		if (i == position)
+			continue;
+		model_sde *sde = &m->sdes[i];
+		sde->drift = expr_subst(ctx, sde->drift, 1, &old_sym, &inverse);
+		for (size_t k = 0; k < sde->ndiffusion; k++)
+			sde->diffusion[k] = expr_subst(ctx, sde->diffusion[k], 1, &old_sym, &inverse);
+	}
+	for (size_t i = 0; i < m->nentries; i++)
+		if (m->entries[i].kind == MODEL_LET)
+			m->entries[i].value = expr_subst(ctx, m->entries[i].value, 1, &old_sym, &inverse);
+	for (size_t i = 0; i < m->nmeasures; i++)
+		for (size_t k = 0; k < m->measures[i].nnoises; k++)
+			m->measures[i].shift[k] =
+			        expr_subst(ctx, m->measures[i].shift[k], 1, &old_sym, &inverse);
+	model_sde *sde = &m->sdes[position];
+	sde->state = change->new_sym;
+	sde->stratonovich = false;
+	sde->drift = drift;
+	for (size_t k = 0; k < m->nnoises; k++)
+		sde->diffusion[k] = dw[k];
+	free(dw);
+	return CHSTATE_OK;
+}

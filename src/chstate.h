@@ -1,0 +1,39 @@
+/* chstate.h - a change of state variable: the model rewritten in x = forward(X).
+ *
+ * For a state X with an SDE, a new variable x = forward(X) and its inverse
+ * X = inverse(x), Itô's formula gives the SDE of x; every other coefficient,
+ * definition and measure shift is rewritten by substituting the inverse for X.
+ */
+#ifndef ITOX_CHSTATE_H
+#define ITOX_CHSTATE_H
+
+#include "model.h"
+
+typedef struct chstate_change {
+	const expr *old_sym; /* the state X that is replaced */
+	const expr *new_sym; /* the new state x */
+	const expr *forward; /* x = forward(X), an expression in X */
+	const expr *inverse; /* X = inverse(x), an expression in x */
+} chstate_change;
+
+typedef enum chstate_error {
+	CHSTATE_OK,
+	CHSTATE_ENGINE,      /* the engine failed (a limit): its error is in the context */
+	CHSTATE_NOT_INVERSE, /* forward(inverse(x)) is not x */
+} chstate_error;
+
+/* Give the new variable the sign of the forward map where that is known
+ * (sqrt(v) >= 0, exp(x) > 0), within the sign it had; returns the sign it had. */
+int chstate_infer_sign(expr_ctx *ctx, const expr *new_sym, const expr *forward);
+
+/* Does the inverse undo the forward map, forward(inverse(x)) = x?  *round
+ * gets forward(inverse(x)), for the message when it does not. */
+chstate_error chstate_check_inverse(expr_ctx *ctx, const chstate_change *change, const expr **round);
+
+/* Rewrite the model in the new state: the old state's SDE becomes the Itô
+ * SDE of x, everything else is substituted.  CHSTATE_ENGINE when Itô's
+ * formula fails (the model unchanged); an engine error in the substitutions
+ * stays in the context for the caller to check. */
+chstate_error chstate_apply(model *m, const chstate_change *change);
+
+#endif

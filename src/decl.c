@@ -1,0 +1,730 @@
+/* decl.c - declarations: param, assume, noise, corr, func, let, SDEs,
+ * measure and state.
+ *
+ * Each declaration checks its names, evaluates its expressions and then
+ * changes the model; one that fails leaves the model as it was.  The
+ * mathematics of a change of measure and of a change of state is in
+ * measure.c and chstate.c.
+ */
+#include "session-internal.h"
+
+#include <stdlib.h>
+#include <string.h>
+
+#include "chstate.h"
+#include "measure.h"
+#include "print.h"
+#include "rat.h"
+#include "sim.h"
+#include "xalloc.h"
+
+bool check_new_name(session *s, const ast_loc *loc, const char *name, bool allow_arg)
+{
+	if (strcmp(name, "t") == 0 || strcmp(name, "dt") == 0) {
+		report(s, SESSION_INPUT, loc, "'%s' is reserved (time and its differential)", name);
+		return false;
+	}
+	model_entry *entry = model_lookup(&s->model, name);
+	if (entry && !(allow_arg && entry->kind == MODEL_ARG)) {
+		report(s, SESSION_INPUT, loc, "'%s' is already declared as a %s", name,
+		       model_kind_name(entry->kind));
+		return false;
+	}
+	/* dW beside a noise W (or a state W) would be ambiguous */
+	if (name[0] == 'd' && name[1]) {
+		model_entry *base = model_lookup(&s->model, name + 1);
+		if (base && (base->kind == MODEL_NOISE || base->kind == MODEL_STATE)) {
+			report(s, SESSION_INPUT, loc,
+			       "'%s' would be ambiguous: it is the differential of the %s '%s'", name,
+			       model_kind_name(base->kind), name + 1);
+			return false;
+		}
+	}
+	char *dname = xasprintf("d%s", name);
+	model_entry *clash = model_lookup(&s->model, dname);
+	free(dname);
+	if (clash) {
+		report(s, SESSION_INPUT, loc, "'%s' would make the name 'd%s' (a %s) ambiguous", name, name,
+		       model_kind_name(clash->kind));
+		return false;
+	}
+	return true;
+}
+
+/* May name be declared as a kind (a let or a measure)?  A new name may; so
+ * may one of that kind (declared again: a let redefined, load after save),
+ * and a function's argument name may become a let. */
+static bool may_declare(session *s, const ast_loc *loc, const char *name, model_kind kind)
+{
+	model_entry *entry = model_lookup(&s->model, name);
+	if (!entry)
+		return check_new_name(s, loc, name, false);
+	if (entry->kind == kind || (kind == MODEL_LET && entry->kind == MODEL_ARG && !entry->pending_state))
+		return true;
+	report(s, SESSION_INPUT, loc, "'%s' is already declared as a %s", name, model_kind_name(entry->kind));
+	return false;
+}
+
+static int sign_from_bound(const expr *bound, ast_rel op)
+{
+	if (!expr_is_num(bound))
+		return EXPR_SIGN_UNKNOWN;
+	int sgn = mpq_sgn(expr_num_value(bound));
+	switch (op) {
+	case REL_GT:
+		return sgn >= 0 ? EXPR_SIGN_POS : EXPR_SIGN_UNKNOWN;
+	case REL_GE:
+		return sgn > 0 ? EXPR_SIGN_POS : sgn == 0 ? EXPR_SIGN_NONNEG : EXPR_SIGN_UNKNOWN;
+	case REL_LT:
+		return sgn <= 0 ? EXPR_SIGN_NEG : EXPR_SIGN_UNKNOWN;
+	case REL_LE:
+		return sgn < 0 ? EXPR_SIGN_NEG : sgn == 0 ? EXPR_SIGN_NONPOS : EXPR_SIGN_UNKNOWN;
+	default:
+		return EXPR_SIGN_UNKNOWN;
+	}
+}
+
+/* Apply a COND (x > 0, x in [a, b]) to the entry's range and the symbol's sign. */
+static bool apply_condition(session *s, model_entry *entry, const ast_node *cond)
+{
+	if (cond->op == REL_NONE)
+		return true;
+	const expr *lo = NULL, *hi = NULL;
+	int sign = EXPR_SIGN_UNKNOWN;
+	if (cond->op == REL_IN) {
+		if (!eval_scalar(s, cond->a->a, &lo) || !eval_scalar(s, cond->a->b, &hi))
+			return false;
+		if (expr_is_num(lo) && expr_is_num(hi) &&
+		    mpq_cmp(expr_num_value(lo), expr_num_value(hi)) > 0) {
+			report(s, SESSION_INPUT, &cond->a->loc,
+			       "empty range: the lower bound is above the upper bound");
+			return false;
+		}
+		if (expr_is_num(lo) && mpq_sgn(expr_num_value(lo)) > 0)
+			sign = EXPR_SIGN_POS;
+		else if (expr_is_num(lo) && mpq_sgn(expr_num_value(lo)) == 0)
+			sign = EXPR_SIGN_NONNEG;
+		else if (expr_is_num(hi) && mpq_sgn(expr_num_value(hi)) < 0)
+			sign = EXPR_SIGN_NEG;
+		else if (expr_is_num(hi) && mpq_sgn(expr_num_value(hi)) == 0)
+			sign = EXPR_SIGN_NONPOS;
+		entry->lo = lo;
+		entry->hi = hi;
+		entry->lo_strict = entry->hi_strict = false;
+	} else {
+		const expr *bound;
+		if (!eval_scalar(s, cond->a, &bound))
+			return false;
+		sign = sign_from_bound(bound, cond->op);
+		if (cond->op == REL_GT || cond->op == REL_GE) {
+			entry->lo = bound;
+			entry->lo_strict = cond->op == REL_GT;
+		} else {
+			entry->hi = bound;
+			entry->hi_strict = cond->op == REL_LT;
+		}
+	}
+	if (sign != EXPR_SIGN_UNKNOWN) {
+		int old = expr_sym_sign(entry->sym);
+		int combined = old & sign;
+		expr_sym_set_sign(s->ctx, entry->sym, combined ? combined : sign);
+	}
+	return true;
+}
+
+bool run_param(session *s, const ast_node *st)
+{
+	for (size_t i = 0; i < st->nitems; i++) {
+		model_entry *entry = model_lookup(&s->model, st->items[i]->text);
+		if (entry && entry->kind == MODEL_PARAM)
+			continue; /* declaring a parameter again (load after save) only updates its range */
+		if (!check_new_name(s, &st->items[i]->loc, st->items[i]->text, true))
+			return false;
+	}
+	for (size_t i = 0; i < st->nitems; i++) {
+		const ast_node *cond = st->items[i];
+		const expr *sym = expr_sym(s->ctx, cond->text);
+		model_entry *entry = model_add(&s->model, cond->text, MODEL_PARAM, sym);
+		entry->pending_state = false;
+		expr_sym_set_rank(s->ctx, sym, PRN_RANK_PARAM);
+		if (!apply_condition(s, entry, cond))
+			return false;
+	}
+	return true;
+}
+
+bool run_assume(session *s, const ast_node *st)
+{
+	for (size_t i = 0; i < st->nitems; i++) {
+		const ast_node *cond = st->items[i];
+		model_entry *entry = model_lookup(&s->model, cond->text);
+		if (entry && entry->kind != MODEL_PARAM && entry->kind != MODEL_STATE &&
+		    entry->kind != MODEL_ARG) {
+			report(s, SESSION_INPUT, &cond->loc, "cannot assume anything about the %s '%s'",
+			       model_kind_name(entry->kind), cond->text);
+			return false;
+		}
+		if (!entry) {
+			/* an assumption about a state declared later: keep it as an argument-like name */
+			if (!check_new_name(s, &cond->loc, cond->text, false))
+				return false;
+			entry = model_add(&s->model, cond->text, MODEL_ARG, expr_sym(s->ctx, cond->text));
+			entry->pending_state = true;
+		}
+		if (!apply_condition(s, entry, cond))
+			return false;
+	}
+	return true;
+}
+
+bool run_noise(session *s, const ast_node *st)
+{
+	for (size_t i = 0; i < st->nitems; i++) {
+		model_entry *entry = model_lookup(&s->model, st->items[i]->text);
+		if (entry && entry->kind == MODEL_NOISE)
+			continue; /* the same noise again: nothing to do */
+		if (!check_new_name(s, &st->items[i]->loc, st->items[i]->text, false))
+			return false;
+	}
+	for (size_t i = 0; i < st->nitems; i++) {
+		model_entry *entry = model_lookup(&s->model, st->items[i]->text);
+		if (entry && entry->kind == MODEL_NOISE)
+			continue;
+		const expr *sym = expr_sym(s->ctx, st->items[i]->text);
+		model_add(&s->model, st->items[i]->text, MODEL_NOISE, sym);
+		expr_sym_set_rank(s->ctx, sym, PRN_RANK_NOISE);
+		model_add_noise(&s->model, sym);
+	}
+	return true;
+}
+
+/* ------------------------------------------------------------------ correlations */
+
+/* Is the numeric correlation matrix positive semi-definite (a Cholesky factor exists)? */
+static bool numeric_psd(const model *m)
+{
+	size_t n = m->nnoises;
+	for (size_t i = 0; i < n * n; i++)
+		if (m->corr[i] && !expr_is_num(m->corr[i]))
+			return true; /* symbolic entries: decided later, at sampled points */
+	double *c = xcalloc(n * n + 1, sizeof *c);
+	double *l = xcalloc(n * n + 1, sizeof *l);
+	for (size_t i = 0; i < n; i++)
+		for (size_t j = 0; j < n; j++)
+			c[i * n + j] = rat_to_double(expr_num_value(model_corr(m, i, j)));
+	bool ok = sim_cholesky(n, c, l);
+	free(c);
+	free(l);
+	return ok;
+}
+
+bool run_corr(session *s, const ast_node *st)
+{
+	model *m = &s->model;
+	long idx[2];
+	const ast_node *names[2] = {st->a, st->b};
+	for (int i = 0; i < 2; i++) {
+		model_entry *entry = lookup_kind(s, &names[i]->loc, names[i]->text, MODEL_NOISE);
+		if (!entry)
+			return false;
+		idx[i] = model_noise_index(m, entry->sym);
+	}
+	if (idx[0] == idx[1]) {
+		report(s, SESSION_INPUT, &st->loc,
+		       "a noise is perfectly correlated with itself; name two different noises");
+		return false;
+	}
+	const expr *rho;
+	if (!eval_scalar(s, st->c, &rho))
+		return false;
+	if (expr_is_num(rho) &&
+	    mpz_cmpabs(mpq_numref(expr_num_value(rho)), mpq_denref(expr_num_value(rho))) > 0) {
+		report(s, SESSION_INPUT, &st->c->loc, "a correlation must lie in [-1, 1]");
+		return false;
+	}
+	/* a run of corr statements is judged as a whole, at its end: with three
+	 * noises correlated 0.9 pairwise, the matrix after the second line (the
+	 * third pair still 0) is not positive semi-definite, the final one is */
+	if (!s->corr_block) {
+		s->corr_block = true;
+		size_t cells = m->nnoises * m->nnoises;
+		free(s->corr_before);
+		s->corr_before = xmalloc((cells ? cells : 1) * sizeof *s->corr_before);
+		memcpy(s->corr_before, m->corr, cells * sizeof *s->corr_before);
+		s->corr_before_n = m->nnoises;
+	}
+	/* keep the line, for a message given after this source is gone (REPL) */
+	const char *line;
+	size_t length;
+	source_line(s, st->loc.first_line, &line, &length);
+	free(s->corr_text);
+	free(s->corr_origin);
+	s->corr_text = xstrndup(line, length);
+	s->corr_origin = xstrdup(s->origin);
+	s->corr_fixed_line = s->fixed_line ? s->fixed_line : st->loc.first_line;
+	s->corr_last = st->loc;
+	s->corr_last.first_line = s->corr_last.last_line = 1;
+	model_set_corr(m, (size_t)idx[0], (size_t)idx[1], rho);
+	return true;
+}
+
+/* The end of a run of corr statements: the whole matrix must be positive
+ * semi-definite (numeric entries); otherwise the run is undone. */
+bool close_corr_block(session *s)
+{
+	if (!s->corr_block)
+		return true;
+	s->corr_block = false;
+	model *m = &s->model;
+	if (numeric_psd(m))
+		return true;
+	if (s->corr_before_n == m->nnoises)
+		memcpy(m->corr, s->corr_before, m->nnoises * m->nnoises * sizeof *m->corr);
+	source_frame outer =
+	        enter_source(s, s->corr_text, strlen(s->corr_text), s->corr_origin, s->corr_fixed_line);
+	report(s, SESSION_INPUT, &s->corr_last, "the correlation matrix would not be positive semi-definite");
+	leave_source(s, outer);
+	return false;
+}
+
+/* ------------------------------------------------------------------ functions and definitions */
+
+static bool same_function(const model_entry *entry, size_t nargs, ast_node *const *args)
+{
+	if (!entry || entry->kind != MODEL_FUNC || expr_func_arity(entry->sym) != nargs)
+		return false;
+	for (size_t i = 0; i < nargs; i++)
+		if (strcmp(expr_func_arg_name(entry->sym, i), args[i]->text) != 0)
+			return false;
+	return true;
+}
+
+/* Declare the generic function name(args) written at loc; args are NAME
+ * nodes (each argument's name and place).  The same declaration again is
+ * accepted. */
+bool declare_function(session *s, const ast_loc *loc, const char *name, size_t nargs, ast_node *const *args)
+{
+	if (same_function(model_lookup(&s->model, name), nargs, args))
+		return true; /* the same declaration again */
+	if (!check_new_name(s, loc, name, false))
+		return false;
+	if (nargs > EXPR_MAX_FUNC_ARGS) {
+		report(s, SESSION_INPUT, loc, "a function may have at most %d arguments", EXPR_MAX_FUNC_ARGS);
+		return false;
+	}
+	const char *names[EXPR_MAX_FUNC_ARGS];
+	for (size_t i = 0; i < nargs; i++) {
+		names[i] = args[i]->text;
+		for (size_t j = 0; j < i; j++)
+			if (strcmp(names[i], names[j]) == 0) {
+				report(s, SESSION_INPUT, &args[i]->loc, "argument '%s' is repeated",
+				       names[i]);
+				return false;
+			}
+		model_entry *entry = model_lookup(&s->model, names[i]);
+		if (entry &&
+		    (entry->kind == MODEL_FUNC || entry->kind == MODEL_LET || entry->kind == MODEL_MEASURE)) {
+			report(s, SESSION_INPUT, &args[i]->loc, "argument '%s' is already a %s", names[i],
+			       model_kind_name(entry->kind));
+			return false;
+		}
+	}
+	const expr *sym = expr_sym(s->ctx, name);
+	expr_func_declare(s->ctx, sym, nargs, names);
+	model_add(&s->model, name, MODEL_FUNC, sym);
+	for (size_t i = 0; i < nargs; i++)
+		if (strcmp(names[i], "t") != 0 && !model_lookup(&s->model, names[i])) {
+			const expr *arg = expr_sym(s->ctx, names[i]);
+			model_add(&s->model, names[i], MODEL_ARG, arg);
+		}
+	return true;
+}
+
+bool run_func(session *s, const ast_node *st)
+{
+	return declare_function(s, &st->loc, st->text, st->nitems, st->items);
+}
+
+bool run_let(session *s, const ast_node *st)
+{
+	if (!may_declare(s, &st->loc, st->text, MODEL_LET))
+		return false;
+	/* a let may not refer to itself */
+	const char *name = st->text;
+	const ast_node *stack[256];
+	size_t top = 0;
+	stack[top++] = st->a;
+	while (top) {
+		const ast_node *n = stack[--top];
+		if (!n)
+			continue;
+		if ((n->kind == AST_NAME || n->kind == AST_CALL) && strcmp(n->text, name) == 0) {
+			report(s, SESSION_INPUT, &n->loc, "circular definition: '%s' refers to itself", name);
+			return false;
+		}
+		if (top + 3 + n->nitems < 256) {
+			stack[top++] = n->a;
+			stack[top++] = n->b;
+			stack[top++] = n->c;
+			for (size_t i = 0; i < n->nitems; i++)
+				stack[top++] = n->items[i];
+		}
+	}
+	const expr *value_expr;
+	if (!eval_scalar(s, st->a, &value_expr))
+		return false;
+	model_entry *entry = model_add(&s->model, st->text, MODEL_LET, NULL);
+	entry->value = value_expr;
+	return true;
+}
+
+/* ------------------------------------------------------------------ SDEs */
+
+/* An SDE's right side must be a sum of coefficient*dt and coefficient*dNOISE. */
+static bool check_sde_term(session *s, const ast_node *term)
+{
+	/* count the differential factors in a product */
+	const ast_node *stack[512];
+	size_t top = 0, found = 0;
+	bool bad = false;
+	const char *why = NULL;
+	stack[top++] = term;
+	while (top && !bad) {
+		const ast_node *n = stack[--top];
+		switch (n->kind) {
+		case AST_MUL:
+			if (top + 2 < 512) {
+				stack[top++] = n->a;
+				stack[top++] = n->b;
+			}
+			break;
+		case AST_DIV:
+			stack[top++] = n->a;
+			if (n->b->kind == AST_NAME &&
+			    (strcmp(n->b->text, "dt") == 0 || differential_of(s, n->b->text)))
+				bad = true, why = "a differential cannot be a divisor";
+			break;
+		case AST_NEG:
+			stack[top++] = n->a;
+			break;
+		case AST_NAME:
+			if (strcmp(n->text, "dt") == 0) {
+				found++;
+			} else {
+				const expr *p = differential_of(s, n->text);
+				if (p) {
+					if (model_noise_index(&s->model, p) < 0)
+						bad = true, why = "a state differential cannot drive an SDE; "
+						                  "use the noises";
+					found++;
+				}
+			}
+			break;
+		case AST_POW:
+			if (n->a->kind == AST_NAME &&
+			    (strcmp(n->a->text, "dt") == 0 || differential_of(s, n->a->text)))
+				bad = true,
+				why = "powers of differentials vanish or are dt; write the dt term";
+			break;
+		case AST_DIFF:
+			bad = true, why = "d(...) cannot appear in an SDE; use dt and the noises";
+			break;
+		default:
+			break;
+		}
+	}
+	if (!bad && found != 1)
+		why = found == 0 ? "this term has no dt or noise differential"
+		                 : "this term multiplies two differentials";
+	if (why) {
+		report(s, SESSION_INPUT, &term->loc,
+		       "the right side of an SDE must be a sum of coefficient*dt and coefficient*dNOISE "
+		       "terms: %s",
+		       why);
+		return false;
+	}
+	return true;
+}
+
+static bool check_sde_terms(session *s, const ast_node *n)
+{
+	/* walk the left spine in a loop: an SDE may have many terms */
+	while (n->kind == AST_ADD || n->kind == AST_SUB ||
+	       (n->kind == AST_NEG && (n->a->kind == AST_ADD || n->a->kind == AST_SUB))) {
+		if (n->kind == AST_NEG) {
+			n = n->a;
+			continue;
+		}
+		if (!check_sde_terms(s, n->b))
+			return false;
+		n = n->a;
+	}
+	return check_sde_term(s, n);
+}
+
+/* dX = ... or stratonovich dX = ...: a new state and its SDE. */
+bool run_sde(session *s, const ast_node *st)
+{
+	bool stratonovich = st->kind == AST_S_STRAT_SDE;
+	model *m = &s->model;
+	const char *dname = st->text;
+	if (dname[0] != 'd' || !dname[1] || !is_identifier(dname + 1)) {
+		report(s, SESSION_INPUT, &st->loc,
+		       "'%s = ...' is not a statement: an SDE is written dX = ...*dt + ...*dW, a definition "
+		       "let %s = ...",
+		       dname, dname);
+		return false;
+	}
+	const char *name = dname + 1;
+	model_entry *entry = model_lookup(m, name);
+	if (entry && entry->kind != MODEL_ARG && entry->kind != MODEL_STATE) {
+		report(s, SESSION_INPUT, &st->loc, "'%s' is a %s; an SDE declares a new state", name,
+		       model_kind_name(entry->kind));
+		return false;
+	}
+	if (entry && entry->kind == MODEL_STATE) {
+		/* the same SDE again (load after save) is allowed; another one is not */
+		model_sde *existing = model_sde_of(m, entry->sym);
+		value again;
+		s->in_sde = true;
+		bool evaluated = existing && eval_node(s, st->a, &again);
+		s->in_sde = false;
+		bool same = evaluated && again.is_diff && existing->stratonovich == stratonovich &&
+		            again.d.dt == existing->drift;
+		for (size_t k = 0; same && k < m->nnoises; k++)
+			same = again.d.dw[k] == (k < existing->ndiffusion ? existing->diffusion[k] : NULL);
+		if (evaluated)
+			value_free(&again);
+		if (same)
+			return true;
+		report(s, SESSION_INPUT, &st->loc, "the state '%s' already has an SDE", name);
+		return false;
+	}
+	if (!entry && !check_new_name(s, &st->loc, name, false))
+		return false;
+	if (!check_sde_terms(s, st->a))
+		return false;
+	/* declare the state first so its own SDE may use it */
+	const expr *sym = expr_sym(s->ctx, name);
+	model_entry saved = entry ? *entry : (model_entry){0};
+	bool existed = entry != NULL;
+	entry = model_add(m, name, MODEL_STATE, sym);
+	entry->pending_state = false;
+	expr_sym_set_rank(s->ctx, sym, PRN_RANK_STATE);
+	value v;
+	model_sde *sde = model_add_sde(m, sym);
+	sde->stratonovich = stratonovich;
+	s->in_sde = true;
+	bool evaluated = eval_node(s, st->a, &v);
+	s->in_sde = false;
+	if (!evaluated || !v.is_diff) {
+		if (!v.is_diff && v.e)
+			report(s, SESSION_INPUT, &st->a->loc,
+			       "the right side of an SDE must contain dt or a noise differential");
+		model_remove_sde(m, sym);
+		entry = model_lookup(m, name);
+		if (existed) {
+			entry->kind = saved.kind;
+		} else {
+			/* forget the name again */
+			entry->kind = MODEL_ARG;
+			model_forget(m, entry);
+		}
+		expr_sym_set_rank(s->ctx, sym, PRN_RANK_PARAM);
+		return false;
+	}
+	sde = model_sde_of(m, sym);
+	sde->drift = v.d.dt;
+	for (size_t k = 0; k < m->nnoises; k++)
+		sde->diffusion[k] = v.d.dw[k];
+	value_free(&v);
+	return true;
+}
+
+/* ------------------------------------------------------------------ measures and states */
+
+/* dW = dZ - lambda*dt: find the new noise name and the dt coefficient. */
+bool run_measure(session *s, const ast_node *st)
+{
+	model *m = &s->model;
+	if (!may_declare(s, &st->loc, st->text, MODEL_MEASURE))
+		return false;
+	if (strcmp(st->text, "P") == 0) {
+		report(s, SESSION_INPUT, &st->loc, "'P' names the model's own measure; choose another name");
+		return false;
+	}
+	size_t n = m->nnoises;
+	const expr **shift = xcalloc(n ? n : 1, sizeof *shift);
+	const expr **names = xcalloc(n ? n : 1, sizeof *names);
+	bool *listed = xcalloc(n ? n : 1, sizeof *listed);
+	bool ok = true;
+	for (size_t i = 0; i < st->nitems && ok; i++) {
+		const ast_node *as = st->items[i];
+		const expr *w = differential_of(s, as->text);
+		long k = w ? model_noise_index(m, w) : -1;
+		if (k < 0) {
+			report(s, SESSION_INPUT, &as->loc, "'%s' is not the differential of a declared noise",
+			       as->text);
+			ok = false;
+			break;
+		}
+		if (listed[k]) {
+			report(s, SESSION_INPUT, &as->loc, "the noise '%s' is listed twice", as->text + 1);
+			ok = false;
+			break;
+		}
+		/* split the right side into the new noise's differential and the rest */
+		const ast_node *rhs = as->a;
+		const ast_node *newname = NULL, *rest = NULL;
+		bool rest_negated = false;
+		if (rhs->kind == AST_NAME)
+			newname = rhs;
+		else if ((rhs->kind == AST_ADD || rhs->kind == AST_SUB) && rhs->a->kind == AST_NAME &&
+		         rhs->a->text[0] == 'd' && strcmp(rhs->a->text, "dt") != 0) {
+			newname = rhs->a;
+			rest = rhs->b;
+			rest_negated = rhs->kind == AST_SUB;
+		} else if (rhs->kind == AST_ADD && rhs->b->kind == AST_NAME && rhs->b->text[0] == 'd' &&
+		           strcmp(rhs->b->text, "dt") != 0) {
+			newname = rhs->b;
+			rest = rhs->a;
+		}
+		if (!newname || newname->text[0] != 'd' || !is_identifier(newname->text + 1) ||
+		    strcmp(newname->text, "dt") == 0) {
+			report(s, SESSION_INPUT, &rhs->loc,
+			       "expected dNEW + (shift)*dt, the differential of the new noise plus a drift "
+			       "term");
+			ok = false;
+			break;
+		}
+		const char *zname = newname->text + 1;
+		model_entry *clash = model_lookup(m, zname);
+		if (clash && !(clash->kind == MODEL_NOISE && clash->sym == w)) {
+			report(s, SESSION_INPUT, &newname->loc,
+			       "'%s' is already declared as a %s; name the new noise differently", zname,
+			       model_kind_name(clash->kind));
+			ok = false;
+			break;
+		}
+		const expr *theta = expr_int(s->ctx, 0);
+		if (rest) {
+			value v;
+			if (!eval_node(s, rest, &v)) {
+				ok = false;
+				break;
+			}
+			bool pure_dt = v.is_diff;
+			for (size_t j = 0; pure_dt && j < v.d.n; j++)
+				pure_dt = expr_is_zero(v.d.dw[j]);
+			if (!pure_dt) {
+				value_free(&v);
+				report(s, SESSION_INPUT, &rest->loc,
+				       "the shift of a noise must be a coefficient times dt");
+				ok = false;
+				break;
+			}
+			theta = rest_negated ? expr_neg(s->ctx, v.d.dt) : v.d.dt;
+			value_free(&v);
+		}
+		listed[k] = true;
+		shift[k] = theta;
+		names[k] = expr_sym(s->ctx, zname);
+		expr_sym_set_rank(s->ctx, names[k], PRN_RANK_NOISE);
+	}
+	if (ok && measure_complete(m, listed, shift, names) == MEASURE_SINGULAR) {
+		report(s, SESSION_INPUT, &st->loc, "the listed noises are perfectly correlated; list fewer");
+		ok = false;
+	}
+	if (ok && engine_failed(s, &st->loc))
+		ok = false;
+	if (ok) {
+		model_measure *q = model_add_measure(m, st->text);
+		for (size_t k = 0; k < n; k++) {
+			q->shift[k] = shift[k];
+			q->names[k] = names[k];
+		}
+		model_add(m, st->text, MODEL_MEASURE, NULL);
+	}
+	free(shift);
+	free(names);
+	free(listed);
+	return ok;
+}
+
+/* state x = log(S) where S = exp(x): rewrite the model in x. */
+bool run_state(session *s, const ast_node *st)
+{
+	model *m = &s->model;
+	expr_ctx *ctx = s->ctx;
+	const ast_node *where = st->b;
+	model_entry *old = lookup_kind(s, &where->loc, where->text, MODEL_STATE);
+	if (!old)
+		return false;
+	/* the new name may have been announced by assume (state sigma = ... after assume sigma > 0) */
+	model_entry *announced = model_lookup(m, st->text);
+	bool was_announced = announced && announced->kind == MODEL_ARG && announced->pending_state;
+	model_entry saved = was_announced ? *announced : (model_entry){0};
+	if (!was_announced && !check_new_name(s, &st->loc, st->text, false))
+		return false;
+	const expr *old_sym = old->sym;
+	const expr *forward;
+	if (!eval_scalar(s, st->a, &forward))
+		return false;
+	/* the new name is visible in the inverse; its sign follows from the
+	 * forward map when that is known (sqrt(v) >= 0, exp(x) > 0) */
+	const expr *new_sym = expr_sym(ctx, st->text);
+	int keep_sign = chstate_infer_sign(ctx, new_sym, forward);
+	model_entry *tmp = model_add(m, st->text, MODEL_PARAM, new_sym);
+	tmp->pending_state = false;
+	const expr *inverse = NULL;
+	bool ok = eval_scalar(s, where->a, &inverse);
+	model_entry *e = model_lookup(m, st->text);
+	if (was_announced) {
+		*e = saved;
+		e->name = saved.name;
+	} else {
+		model_forget(m, e);
+	}
+	if (!ok) {
+		expr_sym_set_sign(ctx, new_sym, keep_sign);
+		return false;
+	}
+	chstate_change change = {
+	        .old_sym = old_sym, .new_sym = new_sym, .forward = forward, .inverse = inverse};
+	const expr *round;
+	chstate_error error = chstate_check_inverse(ctx, &change, &round);
+	if (error == CHSTATE_ENGINE) {
+		engine_failed(s, &st->loc);
+		return false;
+	}
+	if (error == CHSTATE_NOT_INVERSE) {
+		char *text = text_expr(s, round);
+		report(s, SESSION_INPUT, &where->a->loc,
+		       "the inverse does not undo the new state: substituting it gives %s, not %s%s", text,
+		       st->text,
+		       expr_sym_sign(new_sym) == EXPR_SIGN_UNKNOWN ? " (an assume on the new state may help)"
+		                                                   : "");
+		free(text);
+		expr_sym_set_sign(ctx, new_sym, keep_sign);
+		return false;
+	}
+	if (chstate_apply(m, &change) != CHSTATE_OK) {
+		engine_failed(s, &st->loc);
+		return false;
+	}
+	model_entry *x = model_add(m, st->text, MODEL_STATE, new_sym);
+	x->pending_state = false;
+	int sign = expr_sym_sign(new_sym);
+	if (!x->lo && (sign == EXPR_SIGN_POS || sign == EXPR_SIGN_NONNEG)) {
+		/* keep the inferred sign as an assumption, so show and save record it */
+		x->lo = expr_int(ctx, 0);
+		x->lo_strict = sign == EXPR_SIGN_POS;
+	}
+	expr_sym_set_rank(ctx, new_sym, PRN_RANK_STATE);
+	/* the old name stays usable as a derived process */
+	old = model_lookup(m, where->text);
+	old->kind = MODEL_LET;
+	old->value = inverse;
+	expr_sym_set_rank(ctx, old_sym, PRN_RANK_PARAM);
+	return !engine_failed(s, &st->loc);
+}

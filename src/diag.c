@@ -1,0 +1,189 @@
+/* diag.c - the session's messages.
+ *
+ * Every error of a statement is reported here: file:line:column, the line of
+ * the source and a caret under the span, a suggestion for a misspelt name,
+ * and in JSON also an error record on the output.  The status of the run is
+ * raised with each report.
+ */
+#include "session-internal.h"
+
+#include <stdarg.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "print.h"
+#include "xalloc.h"
+
+source_frame enter_source(session *s, const char *source, size_t length, const char *origin, int fixed_line)
+{
+	source_frame outer = {s->source, s->length, s->origin, s->fixed_line};
+	s->source = source;
+	s->length = length;
+	s->origin = origin;
+	s->fixed_line = fixed_line;
+	return outer;
+}
+
+void leave_source(session *s, source_frame outer)
+{
+	s->source = outer.source;
+	s->length = outer.length;
+	s->origin = outer.origin;
+	s->fixed_line = outer.fixed_line;
+}
+
+/* ------------------------------------------------------------------ errors */
+
+void raise_status(session *s, int status)
+{
+	static const int rank[] = {0, 1, 2, 3};
+	if (rank[status] > rank[s->status])
+		s->status = status;
+}
+
+void source_line(const session *s, int line, const char **start, size_t *length)
+{
+	const char *p = s->source, *end = s->source + s->length;
+	for (int l = 1; l < line && p < end; l++) {
+		const char *nl = memchr(p, '\n', (size_t)(end - p));
+		p = nl ? nl + 1 : end;
+	}
+	const char *nl = memchr(p, '\n', (size_t)(end - p));
+	*start = p;
+	*length = (size_t)((nl ? nl : end) - p);
+}
+
+void report(session *s, int status, const ast_loc *loc, const char *format, ...)
+{
+	va_list args;
+	va_start(args, format);
+	char message[1024];
+	vsnprintf(message, sizeof message, format, args);
+	va_end(args);
+	raise_status(s, status);
+	int line = loc ? loc->first_line : 1, column = loc ? loc->first_column : 1;
+	if (s->fixed_line)
+		fprintf(s->opt.err, "%s:%d:%d: error: %s\n", s->origin, s->fixed_line, column, message);
+	else
+		fprintf(s->opt.err, "%s:%d:%d: error: %s\n", s->origin, line, column, message);
+	if (s->source && loc) {
+		const char *text;
+		size_t length;
+		source_line(s, line, &text, &length);
+		if (length > 200)
+			length = 200;
+		fprintf(s->opt.err, "  %.*s\n  ", (int)length, text);
+		for (int c = 1; c < column && (size_t)c <= length; c++)
+			fputc(text[c - 1] == '\t' ? '\t' : ' ', s->opt.err);
+		int width = 1;
+		if (loc->last_line == loc->first_line && loc->last_column > loc->first_column)
+			width = loc->last_column - loc->first_column + 1; /* last_column is inclusive */
+		for (int i = 0; i < width && i < 200; i++)
+			fputc(i == 0 ? '^' : '~', s->opt.err);
+		fputc('\n', s->opt.err);
+	}
+	if (s->format == FORMAT_JSON) {
+		xbuf buf = {0};
+		xbuf_printf(&buf, "{\"kind\":\"error\",\"line\":%d,\"column\":%d,\"status\":%d,\"message\":",
+		            s->fixed_line ? s->fixed_line : line, column, status);
+		prn_json_string(&buf, message);
+		xbuf_put(&buf, "}\n");
+		fputs(buf.data, s->opt.out);
+		xbuf_free(&buf);
+	}
+}
+
+/* Report an engine error (limit, interrupt, division by zero) if one is set. */
+bool engine_failed(session *s, const ast_loc *loc)
+{
+	expr_error_kind kind = expr_error(s->ctx);
+	if (!kind)
+		return false;
+	int status = kind == EXPR_ERR_DIVISION ? SESSION_INPUT : SESSION_LIMIT;
+	if (kind == EXPR_ERR_INTERRUPTED && s->opt.interrupt && *s->opt.interrupt == 2)
+		report(s, SESSION_LIMIT, loc, "time limit exceeded (%g s per statement; see --time-limit)",
+		       s->opt.time_limit);
+	else if (kind == EXPR_ERR_INTERRUPTED)
+		report(s, SESSION_LIMIT, loc, "interrupted");
+	else
+		report(s, status, loc, "%s", expr_error_message(s->ctx));
+	expr_clear_error(s->ctx);
+	return true;
+}
+
+/* ------------------------------------------------------------------ suggestions */
+
+static size_t edit_distance(const char *a, const char *b)
+{
+	size_t la = strlen(a), lb = strlen(b);
+	if (la > 64 || lb > 64)
+		return 99;
+	size_t row[65];
+	for (size_t j = 0; j <= lb; j++)
+		row[j] = j;
+	for (size_t i = 1; i <= la; i++) {
+		size_t diag = row[0];
+		row[0] = i;
+		for (size_t j = 1; j <= lb; j++) {
+			size_t up = row[j];
+			size_t cost = a[i - 1] == b[j - 1] ? 0 : 1;
+			size_t best = diag + cost;
+			if (row[j] + 1 < best)
+				best = row[j] + 1;
+			if (row[j - 1] + 1 < best)
+				best = row[j - 1] + 1;
+			row[j] = best;
+			diag = up;
+		}
+	}
+	return row[lb];
+}
+
+static void consider(const char *candidate, const char *name, const char **best, size_t *distance)
+{
+	size_t d = edit_distance(name, candidate);
+	if (d < *distance) {
+		*distance = d;
+		*best = candidate;
+	}
+}
+
+/* The closest known name, or NULL when nothing is close. */
+const char *suggest(session *s, const char *name)
+{
+	const char *best = NULL;
+	size_t distance = (size_t)-1;
+	for (size_t i = 0; i < s->model.nentries; i++)
+		consider(s->model.entries[i].name, name, &best, &distance);
+	for (int f = 0; f < EXPR_F_COUNT; f++)
+		consider(expr_builtin_name((expr_builtin)f), name, &best, &distance);
+	consider("sqrt", name, &best, &distance);
+	consider("t", name, &best, &distance);
+	size_t length = strlen(name);
+	size_t limit = length <= 2 ? 0 : length <= 4 ? 1 : 2;
+	return distance <= limit ? best : NULL;
+}
+
+void unknown_name(session *s, const ast_loc *loc, const char *name)
+{
+	const char *hint = suggest(s, name);
+	if (hint)
+		report(s, SESSION_INPUT, loc, "unknown name '%s'; did you mean '%s'?", name, hint);
+	else
+		report(s, SESSION_INPUT, loc, "unknown name '%s'", name);
+}
+
+/* The entry of a name that must be of one kind; NULL after a message (an
+ * unknown name with a suggestion, or "'x' is a parameter, not a state"). */
+model_entry *lookup_kind(session *s, const ast_loc *loc, const char *name, model_kind kind)
+{
+	model_entry *entry = model_lookup(&s->model, name);
+	if (entry && entry->kind == kind)
+		return entry;
+	if (entry)
+		report(s, SESSION_INPUT, loc, "'%s' is a %s, not a %s", name, model_kind_name(entry->kind),
+		       model_kind_name(kind));
+	else
+		unknown_name(s, loc, name);
+	return NULL;
+}
