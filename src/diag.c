@@ -111,6 +111,21 @@ bool engine_failed(session *s, const ast_loc *loc)
 	return true;
 }
 
+bool differential_failed(session *s, ito_diff *d, const ast_loc *loc)
+{
+	if (engine_failed(s, loc)) {
+		ito_diff_free(d);
+		return true;
+	}
+	if (!ito_diff_failed(d))
+		return false;
+	/* every failure of the engine leaves its error in the context; say so
+	 * rather than stop silently if one ever does not */
+	report(s, SESSION_LIMIT, loc, "the differential could not be computed");
+	ito_diff_free(d);
+	return true;
+}
+
 /* ------------------------------------------------------------------ suggestions */
 
 static size_t edit_distance(const char *a, const char *b)

@@ -145,11 +145,7 @@ static bool query_differential(session *s, const ast_node *st, const expr **e, i
 	if (!eval_scalar(s, st->a, e))
 		return false;
 	ito_d(&s->model, s->measure, *e, d);
-	if (ito_diff_failed(d) || engine_failed(s, &st->loc)) {
-		ito_diff_free(d);
-		return false;
-	}
-	return true;
+	return !differential_failed(s, d, &st->loc);
 }
 
 bool run_part(session *s, const ast_node *st)
@@ -261,10 +257,8 @@ bool state_sde(session *s, const ast_node *st, model_entry *entry, bool stratono
 		const expr *shift = expr_sub(s->ctx, d->dt, ito_state_ito_drift(m, sde));
 		d->dt = expr_add(s->ctx, ito_state_stratonovich_drift(m, sde), shift);
 	}
-	if (ito_diff_failed(d) || engine_failed(s, &st->loc)) {
-		ito_diff_free(d);
+	if (differential_failed(s, d, &st->loc))
 		return false;
-	}
 	return true;
 }
 
@@ -421,8 +415,10 @@ bool run_check(session *s, const ast_node *st)
 	                  .max_work = s->opt.max_simulation};
 	ito_diff engine;
 	ito_d(m, s->measure, f, &engine);
+	if (differential_failed(s, &engine, &st->loc))
+		return false;
 	value hand = {0};
-	bool ok = !ito_diff_failed(&engine);
+	bool ok = true;
 	if (ok && st->b) {
 		ok = eval_node(s, st->b, &hand);
 		if (ok && !hand.is_diff) {

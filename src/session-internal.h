@@ -94,6 +94,8 @@ void report(session *s, int status, const ast_loc *loc, const char *format, ...)
         __attribute__((format(printf, 4, 5)));
 /* Report the engine's error (limit, interrupt, division by zero) if one is set. */
 bool engine_failed(session *s, const ast_loc *loc);
+/* A differential that failed (a limit, an interrupt): reported, freed, true. */
+bool differential_failed(session *s, ito_diff *d, const ast_loc *loc);
 /* The declared or built-in name closest to name, or NULL when none is close. */
 const char *suggest(session *s, const char *name);
 /* Report an unknown name, with a suggestion when one is close. */

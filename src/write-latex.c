@@ -92,12 +92,22 @@ static bool math(writer *w, const stmt_result *r, xbuf *buf)
 		sde_line(w, r, buf);
 		return true;
 	case RESULT_MODEL:
+		if (r->nsdes == 0) {
+			/* show of a name without an SDE: its declaration, as a comment */
+			for (const char *line = r->script; line && *line;) {
+				const char *end = strchr(line, '\n');
+				size_t length = end ? (size_t)(end - line) : strlen(line);
+				xbuf_printf(buf, "%s%% %.*s", buf->length ? "\n" : "", (int)length, line);
+				line += length + (end != NULL);
+			}
+			return true;
+		}
 		for (size_t i = 0; i < r->nsdes; i++) {
 			if (i)
 				xbuf_put(buf, w->standalone ? " \\\\\n" : "\n");
 			sde_line(w, &r->sdes[i], buf);
 		}
-		return r->nsdes > 0;
+		return true;
 	case RESULT_CLAIM:
 	case RESULT_CHECK:
 		return false;
