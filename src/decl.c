@@ -24,6 +24,13 @@ bool check_new_name(session *s, const ast_loc *loc, const char *name, bool allow
 		report(s, SESSION_INPUT, loc, "'%s' is reserved (time and its differential)", name);
 		return false;
 	}
+	expr_builtin builtin;
+	if (expr_builtin_lookup(name, &builtin)) {
+		/* a user's phi would silently become the normal density in results */
+		report(s, SESSION_INPUT, loc, "'%s' is a built-in function; choose another name (such as '%s1')",
+		       name, name);
+		return false;
+	}
 	model_entry *entry = model_lookup(&s->model, name);
 	if (entry && !(allow_arg && entry->kind == MODEL_ARG)) {
 		report(s, SESSION_INPUT, loc, "'%s' is already declared as a %s", name,
@@ -321,6 +328,13 @@ bool declare_function(session *s, const ast_loc *loc, const char *name, size_t n
 				       names[i]);
 				return false;
 			}
+		expr_builtin builtin;
+		if (expr_builtin_lookup(names[i], &builtin)) {
+			report(s, SESSION_INPUT, &args[i]->loc,
+			       "'%s' is a built-in function; choose another argument name (such as '%s1')",
+			       names[i], names[i]);
+			return false;
+		}
 		model_entry *entry = model_lookup(&s->model, names[i]);
 		if (entry &&
 		    (entry->kind == MODEL_FUNC || entry->kind == MODEL_LET || entry->kind == MODEL_MEASURE)) {

@@ -46,7 +46,9 @@ static const expr *log_factor(expr_ctx *ctx, const expr *term, const expr **powe
 	return term->u.mul.bases[found]->u.fun.arg;
 }
 
-/* exp(log x) = x; exp(c*log(x) + r) = x^c * exp(r): valid on the domain (x > 0). */
+/* exp(log x) = x; exp(c*log(x) + r) = x^c * exp(r), for x > 0 known: where x
+ * may be <= 0 the left side is undefined and the right side may not be, so a
+ * claim exp(log(a)) = a must not hold exactly for an a of unknown sign. */
 static const expr *exp_rules(expr_ctx *ctx, const expr *arg)
 {
 	if (expr_is_zero(arg))
@@ -59,6 +61,8 @@ static const expr *exp_rules(expr_ctx *ctx, const expr *arg)
 		const expr *term = arg->kind == EXPR_ADD ? arg->u.add.terms[i] : arg;
 		const expr *power = NULL;
 		const expr *x = log_factor(ctx, term, &power);
+		if (x && expr_sign(ctx, x) != EXPR_SIGN_POS)
+			x = NULL;
 		if (x)
 			powers[npowers++] = expr_pow(ctx, x, power);
 		else

@@ -25,6 +25,16 @@ static bool exponent_too_large(expr_ctx *ctx, const expr *exponent)
 
 static const expr *num_pow(expr_ctx *ctx, const __mpq_struct *q, const __mpq_struct *e);
 
+/* Is x^inner >= 0 wherever it is defined, whatever the sign of x?  An even
+ * numerator (x^(2k/q) = abs(x)^(2k/q)), an even denominator (defined for x >= 0
+ * only) or a symbolic exponent (defined for x > 0 only). */
+static bool nonnegative_power(const expr *inner)
+{
+	if (inner->kind != EXPR_NUM)
+		return true;
+	return mpz_even_p(mpq_numref(inner->u.num)) || mpz_even_p(mpq_denref(inner->u.num));
+}
+
 /* For an integer n > 1 and e = a/r: n = k^r * m with k > 1 found by trial
  * division by small primes gives n^e = k^a * m^e.  Returns false if no k. */
 static bool extract_perfect_power(expr_ctx *ctx, const __mpq_struct *n, const __mpq_struct *e,
@@ -226,9 +236,8 @@ static const expr *pow_mul(expr_ctx *ctx, const expr *product, const expr *expon
 		size_t unknown = 0;
 		for (size_t i = 0; i < product->nops; i++) {
 			const expr *inner = product->u.mul.exps[i];
-			if (inner->kind == EXPR_NUM &&
-			    (!rat_is_integer(inner->u.num) || mpz_even_p(mpq_numref(inner->u.num))))
-				continue; /* x^f with f fractional, or x^2k: >= 0 */
+			if (nonnegative_power(inner))
+				continue; /* x^(2k/q), x^(p/2k) or x^s: >= 0 wherever defined */
 			if (expr_sign(ctx, product->u.mul.bases[i]) & EXPR_SIGN_NEG)
 				unknown++;
 		}
@@ -241,8 +250,14 @@ static const expr *pow_mul(expr_ctx *ctx, const expr *product, const expr *expon
 		const expr *base = product->u.mul.bases[i];
 		const expr *inner = product->u.mul.exps[i];
 		const expr *combined = expr_mul(ctx, inner, exponent);
-		/* (x^2k)^e = abs(x)^(2k*e) for fractional e unless x >= 0 */
-		if (!integer && expr_is_even_integer(inner) && (expr_sign(ctx, base) & EXPR_SIGN_NEG))
+		/* (x^(2k/q))^e = abs(x)^(2k/q*e) for fractional e unless x >= 0: the
+		 * inner power is >= 0 for every real x, so x^(2k/q*e) could be
+		 * negative or undefined where the left side is not ((x^(2/3))^(3/2)
+		 * = abs(x)).  The same for a symbolic s: x^s is defined for x > 0
+		 * only (the convention of expr.h), so (x^s)^e = abs(x)^(s*e) agrees
+		 * wherever the left side is defined: sqrt(x^(2*a)) = abs(x)^a. */
+		if (!integer && (expr_sign(ctx, base) & EXPR_SIGN_NEG) &&
+		    (inner->kind != EXPR_NUM || mpz_even_p(mpq_numref(inner->u.num))))
 			base = expr_fun(ctx, EXPR_F_ABS, base);
 		parts[i + 1] = expr_pow(ctx, base, combined);
 	}

@@ -13,6 +13,13 @@
  * coefficient-free monomial) sorted by the node order with like terms merged;
  * n-ary products c * prod b_i^e_i with distinct bases sorted and merged;
  * products over sums expanded; exp(a)*exp(b) folded into exp(a+b).
+ *
+ * Real powers (one convention for the simplifier, the evaluators and claim):
+ * x^(p/q) in lowest terms with q odd is the real root for x < 0, so
+ * (-8)^(1/3) = -2 and (-8)^(2/3) = 4; with q even it is undefined for x < 0;
+ * x^s with a symbolic s is defined for x > 0 only; 0^e is undefined for e < 0.
+ * A rewrite rule may fire only where it is valid: wherever its left side is
+ * defined, the two sides agree (and the assumption it names holds).
  */
 #ifndef ITOX_EXPR_H
 #define ITOX_EXPR_H
