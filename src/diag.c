@@ -8,6 +8,7 @@
 #include "session-internal.h"
 
 #include <stdarg.h>
+#include <stdlib.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -99,13 +100,22 @@ bool engine_failed(session *s, const ast_loc *loc)
 	expr_error_kind kind = expr_error(s->ctx);
 	if (!kind)
 		return false;
-	int status = kind == EXPR_ERR_DIVISION ? SESSION_INPUT : SESSION_LIMIT;
+	int status = kind == EXPR_ERR_DIVISION || kind == EXPR_ERR_DOMAIN ? SESSION_INPUT : SESSION_LIMIT;
+	const expr *a, *b;
 	if (kind == EXPR_ERR_INTERRUPTED && s->opt.interrupt && *s->opt.interrupt == 2)
 		report(s, SESSION_LIMIT, loc, "time limit exceeded (%g s per statement; see --time-limit)",
 		       s->opt.time_limit);
 	else if (kind == EXPR_ERR_INTERRUPTED)
 		report(s, SESSION_LIMIT, loc, "interrupted");
-	else
+	else if (expr_error_nodes(s->ctx, &a, &b)) {
+		/* the message names nodes: print them (the library does not) */
+		char *ta = prn_expr(s->ctx, a, PRN_TEXT), *tb = prn_expr(s->ctx, b, PRN_TEXT);
+		char message[1024];
+		snprintf(message, sizeof message, expr_error_message(s->ctx), ta, tb);
+		report(s, status, loc, "%s", message);
+		free(ta);
+		free(tb);
+	} else
 		report(s, status, loc, "%s", expr_error_message(s->ctx));
 	expr_clear_error(s->ctx);
 	return true;

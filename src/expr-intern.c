@@ -345,6 +345,25 @@ void expr_clear_error(expr_ctx *ctx)
 {
 	ctx->error = EXPR_OK;
 	ctx->message[0] = '\0';
+	ctx->error_nodes[0] = ctx->error_nodes[1] = NULL;
+}
+
+const expr *expr_fail_at(expr_ctx *ctx, expr_error_kind kind, const char *template, const expr *a,
+			 const expr *b)
+{
+	if (!ctx->error) {
+		expr_fail(ctx, kind, template);
+		ctx->error_nodes[0] = a;
+		ctx->error_nodes[1] = b;
+	}
+	return NULL;
+}
+
+bool expr_error_nodes(const expr_ctx *ctx, const expr **a, const expr **b)
+{
+	*a = ctx->error_nodes[0];
+	*b = ctx->error_nodes[1];
+	return ctx->error && *a && *b;
 }
 
 const expr *expr_fail(expr_ctx *ctx, expr_error_kind kind, const char *message)

@@ -67,6 +67,7 @@ typedef enum expr_error_kind {
 	EXPR_ERR_DIVISION,    /* division by zero */
 	EXPR_ERR_INTERRUPTED, /* the interrupt flag was raised */
 	EXPR_ERR_DEPTH,	      /* nesting too deep */
+	EXPR_ERR_DOMAIN,      /* a rule or formula used outside its domain (bad input) */
 } expr_error_kind;
 
 /* Sign knowledge, as bit flags. */
@@ -94,6 +95,12 @@ expr_error_kind expr_error(const expr_ctx *ctx);
 const char *expr_error_message(const expr_ctx *ctx);
 void expr_clear_error(expr_ctx *ctx);
 const expr *expr_fail(expr_ctx *ctx, expr_error_kind kind, const char *message); /* returns NULL */
+/* An error whose message names two nodes: a template with two %s, filled by
+ * whoever prints it (the library does not print); returns NULL. */
+const expr *expr_fail_at(expr_ctx *ctx, expr_error_kind kind, const char *template, const expr *a,
+			 const expr *b);
+/* The nodes of an expr_fail_at error (false for a plain message). */
+bool expr_error_nodes(const expr_ctx *ctx, const expr **a, const expr **b);
 bool expr_poll_interrupt(expr_ctx *ctx); /* true (and error set) when interrupted */
 
 /* --- constructors (all return canonical nodes, or NULL on error) --- */

@@ -9,9 +9,12 @@
  */
 #include "ito.h"
 
+#include <stdio.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "diff.h"
+#include "expr-internal.h"
 #include "xalloc.h"
 
 void ito_diff_zero(ito_diff *d, const model *m)
@@ -196,11 +199,98 @@ bool ito_dynamics(model *m, const model_measure *q, const expr *sym, ito_diff *o
 	return true;
 }
 
+/* Does u move with a state or a noise (so a process can bring it to 0)? */
+static bool moves(model *m, const expr *u)
+{
+	expr_vec names = {0};
+	expr_free_symbols(m->ctx, u, &names);
+	bool found = false;
+	for (size_t i = 0; i < names.n && !found; i++)
+		found = model_sde_of(m, names.items[i]) || model_noise_index(m, names.items[i]) >= 0;
+	expr_vec_free(&names);
+	return found;
+}
+
+/* The first place where f is not twice continuously differentiable on the
+ * values its processes can take: abs(u), log(u), u^(p/q) with p/q < 2 not an
+ * integer, and u^-n, each at u = 0, where u moves with a process and its
+ * sign is not known to keep it away from 0.  Itô's formula needs f in C^2
+ * (Karatzas and Shreve, Theorem 3.3.6); at such a point a local-time term
+ * would be needed (Tanaka's formula for abs(W), Karatzas and Shreve §3.6,
+ * from memory).  NULL when there is none. */
+static const expr *rough_point(model *m, const expr *f, expr_map *seen)
+{
+	if (expr_map_get(seen, f))
+		return NULL;
+	expr_map_put(seen, f, f);
+	expr_ctx *ctx = m->ctx;
+	switch (expr_kind_of(f)) {
+	case EXPR_NUM:
+	case EXPR_SYM:
+		return NULL;
+	case EXPR_FUN: {
+		const expr *u = expr_op(f, 0);
+		expr_builtin fn = f->u.fun.fn;
+		int sign = expr_sign(ctx, u);
+		bool away = sign == EXPR_SIGN_POS || (fn == EXPR_F_ABS && sign == EXPR_SIGN_NEG);
+		if ((fn == EXPR_F_ABS || fn == EXPR_F_LOG) && !away && moves(m, u)) {
+			return f;
+		}
+		return rough_point(m, u, seen);
+	}
+	case EXPR_MUL:
+		for (size_t i = 0; i < expr_nops(f); i++) {
+			const expr *base = expr_mul_base(f, i), *e = expr_mul_exponent(f, i);
+			if (expr_is_num(e)) {
+				const __mpq_struct *q = expr_num_value(e);
+				bool integer = mpz_cmp_ui(mpq_denref(q), 1) == 0;
+				bool smooth = integer ? mpq_sgn(q) > 0 : mpq_cmp_ui(q, 2, 1) > 0 &&
+										mpz_even_p(mpq_denref(q)) == 0;
+				int sign = expr_sign(ctx, base);
+				bool away = sign == EXPR_SIGN_POS || sign == EXPR_SIGN_NEG;
+				if (!smooth && !away && moves(m, base)) {
+					return expr_pow(ctx, base, e);
+				}
+			} else {
+				const expr *inner = rough_point(m, e, seen);
+				if (inner)
+					return inner;
+			}
+			const expr *inner = rough_point(m, base, seen);
+			if (inner)
+				return inner;
+		}
+		return NULL;
+	default: /* sums; generic functions are smooth by declaration */
+		for (size_t i = 0; i < expr_nops(f); i++) {
+			const expr *inner = rough_point(m, expr_op(f, i), seen);
+			if (inner)
+				return inner;
+		}
+		return NULL;
+	}
+}
+
 void ito_d(model *m, const model_measure *q, const expr *f, ito_diff *out)
 {
 	expr_ctx *ctx = m->ctx;
 	ito_diff_zero(out, m);
 	if (!f) {
+		out->dt = NULL;
+		return;
+	}
+	expr_map seen = {0};
+	const expr *rough = rough_point(m, f, &seen);
+	expr_map_free(&seen);
+	if (rough) {
+		const expr *u = expr_kind_of(rough) == EXPR_FUN ? expr_op(rough, 0) : expr_mul_base(rough, 0);
+		for (size_t k = 0; k < out->n; k++)
+			out->dw[k] = NULL;
+		expr_fail_at(ctx, EXPR_ERR_DOMAIN,
+			     "Itô's formula needs a function twice differentiable where the processes can "
+			     "go, and %s is not where %s = 0 (a local-time term would be needed); assume "
+			     "a sign that keeps it away from 0 if the model does",
+			     rough, u);
 		out->dt = NULL;
 		return;
 	}
@@ -254,6 +344,9 @@ void ito_d(model *m, const model_measure *q, const expr *f, ito_diff *out)
 		}
 	}
 	out->dt = failed || expr_error(ctx) ? NULL : expr_add_n(ctx, drift.n, drift.items);
+	if (!out->dt)
+		for (size_t k = 0; k < out->n; k++)
+			out->dw[k] = NULL; /* a failed differential has no part to use */
 	expr_vec_free(&drift);
 	for (size_t i = 0; i < symbols.n; i++)
 		ito_diff_free(&dyn[i]);

@@ -178,8 +178,15 @@ bool run_qv(session *s, const ast_node *st)
 		return false;
 	ito_diff da, db;
 	ito_d(&s->model, s->measure, a, &da);
-	if (b)
+	if (differential_failed(s, &da, &st->a->loc))
+		return false;
+	if (b) {
 		ito_d(&s->model, s->measure, b, &db);
+		if (differential_failed(s, &db, &st->b->loc)) {
+			ito_diff_free(&da);
+			return false;
+		}
+	}
 	const expr *rate = ito_covariation(&s->model, &da, b ? &db : &da);
 	ito_diff_free(&da);
 	if (b)
@@ -319,6 +326,8 @@ bool run_claim(session *s, const ast_node *st)
 			return false;
 		ito_diff d;
 		ito_d(&s->model, s->measure, e, &d);
+		if (differential_failed(s, &d, &lhs->loc))
+			return false;
 		if (lhs->kind == AST_S_D || lhs->kind == AST_S_DIFFUSION) {
 			if (lhs->kind == AST_S_DIFFUSION)
 				d.dt = expr_int(s->ctx, 0);
@@ -334,6 +343,10 @@ bool run_claim(session *s, const ast_node *st)
 					return false;
 				}
 				ito_d(&s->model, s->measure, b, &db);
+				if (differential_failed(s, &db, &lhs->b->loc)) {
+					ito_diff_free(&d);
+					return false;
+				}
 				rate = ito_covariation(&s->model, &d, &db);
 				ito_diff_free(&db);
 			}

@@ -40,7 +40,7 @@ dS2 = r*S2*dt + sigma2*S2*dB
 QUERIES = [
     "d log(S)", "d sqrt(v)", "d S1/S2", "d S^(3/2)*exp(-r*t)", "drift Phi(log(S/K)/sqrt(v))",
     "generator S^2*v", "qv log(S), v", "d(S)*d(v)", "diffusion log(S1*S2)",
-    "d abs(S - K)", "d erf(v) + tanh(S)", "d v^(-1/3)", "partial(phi(log(S))/v, S, v)",
+    "d log(S + K)*abs(K - 1)", "d erf(v) + tanh(S)", "d v^(-1/3)", "partial(phi(log(S))/v, S, v)",
 ]
 POINT = {"mu": 0.07, "kappa": 1.3, "theta": 0.04, "xi": 0.5, "r": 0.02, "K": 95.0,
          "sigma1": 0.25, "sigma2": 0.15, "rho": -0.6, "S": 101.5, "v": 0.035,

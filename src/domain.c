@@ -1,0 +1,266 @@
+/* domain.c - sampling the declared domain (domain.h).
+ *
+ * Values are drawn as doubles and kept as the exact rationals those doubles
+ * are, so the evaluators receive exact points.  Each atom's range comes from
+ * its declared bounds (evaluated at the values of the names they use, which
+ * are drawn first) and its sign; a point that breaks a bound after all (two
+ * bounds that refer to each other) is drawn again.
+ */
+#include "domain.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "eval.h"
+#include "sim.h"
+#include "xalloc.h"
+
+enum { DOMAIN_TRIES = 200 };
+
+typedef struct atom {
+	const expr *e;
+	model_entry *entry; /* its declaration, or NULL (t, generic partials) */
+	bool pinned;	    /* a range [c, c]: always c */
+	bool drawn;	    /* drawn in the current point */
+} atom;
+
+struct domain {
+	expr_ctx *ctx;
+	model *m;
+	atom *atoms;
+	size_t n, cap;
+	double *values; /* the current point as doubles, for bounds */
+	sim_rng rng;
+};
+
+static model_entry *entry_of(model *m, const expr *e)
+{
+	if (expr_kind_of(e) != EXPR_SYM)
+		return NULL;
+	model_entry *entry = model_lookup(m, expr_sym_name(e));
+	return entry && entry->sym == e ? entry : NULL;
+}
+
+static size_t add_atom(domain *d, const expr *e)
+{
+	for (size_t i = 0; i < d->n; i++)
+		if (d->atoms[i].e == e)
+			return i;
+	if (d->n == d->cap) {
+		d->cap = d->cap ? 2 * d->cap : 8;
+		d->atoms = xreallocarray(d->atoms, d->cap, sizeof *d->atoms);
+	}
+	model_entry *entry = entry_of(d->m, e);
+	bool pinned = entry && entry->lo && entry->hi && expr_is_num(entry->lo) && entry->lo == entry->hi;
+	d->atoms[d->n] = (atom){.e = e, .entry = entry, .pinned = pinned};
+	return d->n++;
+}
+
+/* The names a bound uses become atoms too (recursively, once each). */
+static void add_bound_names(domain *d, const expr *bound)
+{
+	if (!bound)
+		return;
+	expr_vec names = {0};
+	expr_free_symbols(d->ctx, bound, &names);
+	for (size_t i = 0; i < names.n; i++) {
+		size_t before = d->n;
+		size_t k = add_atom(d, names.items[i]);
+		if (k == before && d->atoms[k].entry) {
+			add_bound_names(d, d->atoms[k].entry->lo);
+			add_bound_names(d, d->atoms[k].entry->hi);
+		}
+	}
+	expr_vec_free(&names);
+}
+
+domain *domain_new(expr_ctx *ctx, model *m, size_t n, const expr *const *atoms, uint64_t seed)
+{
+	domain *d = xcalloc(1, sizeof *d);
+	d->ctx = ctx;
+	d->m = m;
+	for (size_t i = 0; i < n; i++)
+		add_atom(d, atoms[i]);
+	for (size_t i = 0; i < n; i++)
+		if (d->atoms[i].entry) {
+			add_bound_names(d, d->atoms[i].entry->lo);
+			add_bound_names(d, d->atoms[i].entry->hi);
+		}
+	d->values = xcalloc(d->n + 1, sizeof *d->values);
+	sim_rng_seed(&d->rng, seed);
+	return d;
+}
+
+void domain_free(domain *d)
+{
+	if (!d)
+		return;
+	free(d->atoms);
+	free(d->values);
+	free(d);
+}
+
+size_t domain_size(const domain *d)
+{
+	return d->n;
+}
+
+const expr *domain_atom(const domain *d, size_t i)
+{
+	return d->atoms[i].e;
+}
+
+bool domain_has_interior(const domain *d)
+{
+	for (size_t i = 0; i < d->n; i++)
+		if (d->atoms[i].pinned)
+			return false;
+	return true;
+}
+
+static double draw_atom(domain *d, size_t i);
+
+/* A bound's value at the current point (its names drawn first); NAN when it
+ * cannot be evaluated. */
+static double bound_value(domain *d, const expr *bound)
+{
+	if (expr_is_num(bound))
+		return mpq_get_d(expr_num_value(bound));
+	expr_vec names = {0};
+	expr_free_symbols(d->ctx, bound, &names);
+	double *values = xcalloc(names.n + 1, sizeof *values);
+	for (size_t k = 0; k < names.n; k++) {
+		size_t j = add_atom(d, names.items[k]);
+		values[k] = draw_atom(d, j);
+	}
+	bool ok;
+	double v = eval_at(d->ctx, bound, names.n, names.items, values, &ok);
+	free(values);
+	expr_vec_free(&names);
+	return ok ? v : NAN;
+}
+
+/* 10^u for u uniform in [lo, hi]. */
+static double scale(domain *d, double lo, double hi)
+{
+	return pow(10.0, lo + (hi - lo) * sim_uniform(&d->rng));
+}
+
+/* A magnitude: mostly within 1e-4 .. 1e4, sometimes far out. */
+static double magnitude(domain *d)
+{
+	return sim_uniform(&d->rng) < 0.85 ? scale(d, -4, 4) : scale(d, -12, 12);
+}
+
+/* A value above lo (strictly when strict): near it sometimes, on the
+ * bound's own scale otherwise. */
+static double above(domain *d, double lo, bool strict)
+{
+	double s = fmax(1.0, fabs(lo));
+	double u = sim_uniform(&d->rng);
+	if (!strict && u < 0.03)
+		return lo;
+	double offset = u < 0.2 ? s * scale(d, -9, -3) : s * scale(d, -4, 3);
+	double x = lo + offset;
+	return x > lo || !strict ? x : nextafter(lo, INFINITY);
+}
+
+static double draw_atom(domain *d, size_t i)
+{
+	atom *a = &d->atoms[i];
+	if (a->drawn)
+		return d->values[i];
+	a->drawn = true; /* a bound that refers back reads the value below */
+	d->values[i] = 0;
+	model_entry *e = a->entry;
+	double x;
+	if (a->pinned) {
+		x = mpq_get_d(expr_num_value(e->lo));
+	} else {
+		double lo = -INFINITY, hi = INFINITY;
+		bool lo_strict = false, hi_strict = false;
+		if (e && e->lo) {
+			lo = bound_value(d, e->lo);
+			lo_strict = e->lo_strict;
+		}
+		if (e && e->hi) {
+			hi = bound_value(d, e->hi);
+			hi_strict = e->hi_strict;
+		}
+		int sign = expr_kind_of(a->e) == EXPR_SYM ? expr_sym_sign(a->e) : EXPR_SIGN_UNKNOWN;
+		if (a->e == d->m->time && !(e && e->lo)) {
+			lo = 0; /* time runs from 0 unless declared otherwise */
+		} else if (!(sign & EXPR_SIGN_NEG) && !(lo >= 0)) {
+			lo = 0;
+			lo_strict = !(sign & EXPR_SIGN_ZERO);
+		} else if (!(sign & EXPR_SIGN_POS) && !(hi <= 0)) {
+			hi = 0;
+			hi_strict = !(sign & EXPR_SIGN_ZERO);
+		}
+		if (isnan(lo) || isnan(hi)) {
+			x = NAN;
+		} else if (isfinite(lo) && isfinite(hi)) {
+			double u = sim_uniform(&d->rng);
+			if (u < 0.1)
+				x = above(d, lo, lo_strict);
+			else if (u < 0.2)
+				x = -above(d, -hi, hi_strict);
+			else
+				x = lo + (hi - lo) * (0.001 + 0.998 * sim_uniform(&d->rng));
+		} else if (isfinite(lo)) {
+			x = above(d, lo, lo_strict);
+		} else if (isfinite(hi)) {
+			x = -above(d, -hi, hi_strict);
+		} else {
+			x = magnitude(d) * (sim_uniform(&d->rng) < 0.5 ? -1 : 1);
+		}
+	}
+	d->values[i] = x;
+	return x;
+}
+
+/* Does the point keep every declared bound of every atom? */
+static bool inside(domain *d)
+{
+	for (size_t i = 0; i < d->n; i++) {
+		model_entry *e = d->atoms[i].entry;
+		double x = d->values[i];
+		if (!isfinite(x))
+			return false;
+		if (!e || d->atoms[i].pinned)
+			continue;
+		if (e->lo) {
+			double lo = bound_value(d, e->lo);
+			if (!(e->lo_strict ? x > lo : x >= lo))
+				return false;
+		}
+		if (e->hi) {
+			double hi = bound_value(d, e->hi);
+			if (!(e->hi_strict ? x < hi : x <= hi))
+				return false;
+		}
+	}
+	return true;
+}
+
+bool domain_draw(domain *d, mpq_t *values)
+{
+	for (int attempt = 0; attempt < DOMAIN_TRIES; attempt++) {
+		for (size_t i = 0; i < d->n; i++)
+			d->atoms[i].drawn = false;
+		for (size_t i = 0; i < d->n; i++)
+			draw_atom(d, i);
+		if (!inside(d))
+			continue;
+		for (size_t i = 0; i < d->n; i++) {
+			atom *a = &d->atoms[i];
+			if (a->pinned)
+				mpq_set(values[i], expr_num_value(a->entry->lo));
+			else
+				mpq_set_d(values[i], d->values[i]);
+		}
+		return true;
+	}
+	return false;
+}
