@@ -33,7 +33,7 @@ typedef void *yyscan_t;
  * scanner's keyword lookup (word, token name without TOK_). */
 #define ITOX_KEYWORDS(X)                                                      \
 	X(param, PARAM) X(assume, ASSUME) X(noise, NOISE) X(corr, CORR)       \
-	X(func, FUNC) X(let, LET) X(stratonovich, STRATONOVICH) X(ito, ITO)   \
+	X(func, FUNC) X(let, LET) X(stratonovich, STRATONOVICH) X(sde, SDE)   \
 	X(measure, MEASURE) X(under, UNDER) X(state, STATE) X(where, WHERE)   \
 	X(claim, CLAIM) X(check, CHECK) X(at, AT) X(over, OVER)               \
 	X(verbose, VERBOSE) X(show, SHOW) X(save, SAVE) X(load, LOAD)         \
@@ -123,7 +123,7 @@ static bool statement_fits(struct itox_parse_state *ps, const ast_node *stmt);
 %token BADCHAR "bad character" BADSTRING "unterminated string" DEEP "nesting limit"
 /* Keep the keywords together, "param" first and "d" last (see is_keyword). */
 %token PARAM "param" ASSUME "assume" NOISE "noise" CORR "corr" FUNC "func" LET "let"
-%token STRATONOVICH "stratonovich" ITO "ito" MEASURE "measure" UNDER "under"
+%token STRATONOVICH "stratonovich" SDE "sde" MEASURE "measure" UNDER "under"
 %token STATE "state" WHERE "where" CLAIM "claim" CHECK "check" AT "at" OVER "over"
 %token VERBOSE "verbose" SHOW "show" SAVE "save" LOAD "load" FORMAT "format"
 %token HELP "help" QUIT "quit" PARTIAL "partial" DRIFT "drift" DIFFUSION "diffusion"
@@ -170,8 +170,9 @@ query:
 	| dquery
 	| "pde" NAME "(" names ")" opt_discount
 				{ $$ = ast_finish($4, AST_S_PDE, $2, $6, &@$); }
-	| "ito" NAME		{ $$ = ast_named(L, AST_S_ITO, $2, NULL, NULL, &@$); }
-	| "stratonovich" NAME	{ $$ = ast_named(L, AST_S_STRAT, $2, NULL, NULL, &@$); }
+	| "sde" NAME		{ $$ = ast_named(L, AST_S_SDE_ITO, $2, NULL, NULL, &@$); }
+	| "sde" NAME "stratonovich"
+				{ $$ = ast_named(L, AST_S_SDE_STRAT, $2, NULL, NULL, &@$); }
 	| "claim" claim_lhs "=" expr
 				{ $$ = ast_binary(L, AST_S_CLAIM, $2, $4, &@$); }
 	| "check" opt_d expr opt_rhs "at" assigns opt_over opt_verbose
@@ -452,7 +453,7 @@ static bool is_statement_keyword(yysymbol_kind_t kind)
 {
 	switch (kind) {
 	case YYSYMBOL_PARAM: case YYSYMBOL_ASSUME: case YYSYMBOL_NOISE: case YYSYMBOL_CORR:
-	case YYSYMBOL_FUNC: case YYSYMBOL_LET: case YYSYMBOL_STRATONOVICH: case YYSYMBOL_ITO:
+	case YYSYMBOL_FUNC: case YYSYMBOL_LET: case YYSYMBOL_STRATONOVICH: case YYSYMBOL_SDE:
 	case YYSYMBOL_MEASURE: case YYSYMBOL_STATE: case YYSYMBOL_CLAIM: case YYSYMBOL_CHECK:
 	case YYSYMBOL_SHOW: case YYSYMBOL_SAVE: case YYSYMBOL_LOAD: case YYSYMBOL_FORMAT:
 	case YYSYMBOL_HELP: case YYSYMBOL_QUIT: case YYSYMBOL_DRIFT: case YYSYMBOL_DIFFUSION:

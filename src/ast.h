@@ -43,8 +43,8 @@ typedef struct ast_loc {
 	X(S_GENERATOR)	  /* generator a */                                                    \
 	X(S_QV)		  /* qv a [, b] (b NULL for one argument) */                          \
 	X(S_PDE)	  /* pde text(items) [discount a]: items NAME args, a may be NULL */  \
-	X(S_ITO)	  /* ito text */                                                       \
-	X(S_STRAT)	  /* stratonovich text */                                              \
+	X(S_SDE_ITO)	  /* sde text */                                                       \
+	X(S_SDE_STRAT)	  /* sde text stratonovich */                                          \
 	X(S_PARAM)	  /* param: items are COND nodes (op REL_NONE when unconstrained) */ \
 	X(S_ASSUME)	  /* assume: items are COND nodes */                                  \
 	X(S_NOISE)	  /* noise: items are NAME nodes */                                   \

@@ -10,6 +10,8 @@
  *      squared diffusion, and f(T) - f(0) - integral of the drift against 0,
  *      each with a standard error and a z-score;
  *   3. a verdict with the tolerance used.
+ * The result is data (check_result); the writers of the output formats
+ * (writer.h) write it.  check.c says where each part is computed.
  */
 #ifndef ITOX_CROSSCHECK_H
 #define ITOX_CROSSCHECK_H
@@ -23,29 +25,121 @@
 
 typedef struct check_input {
 	model *m;
-	const model_measure *q;	 /* NULL: the model's own measure */
-	const expr *f;		 /* the expression whose differential is checked */
-	const ito_diff *d;	 /* the differential to test (drift and one coefficient per noise) */
-	bool hand_derived;	 /* d came from the user: skip finite differences */
+	const model_measure *q; /* NULL: the model's own measure */
+	const expr *f;          /* the expression whose differential is checked */
+	const ito_diff *d;      /* the differential to test (drift and one coefficient per noise) */
+	bool hand_derived;      /* d came from the user: skip finite differences */
 	/* the point: values for every parameter and state that f and the model use */
 	size_t nvalues;
 	const expr **symbols;
 	const double *values;
 	/* simulation settings */
-	double horizon;		 /* T */
+	double horizon; /* T */
 	long steps, paths;
 	unsigned long seed;
-	bool milstein;		 /* otherwise Euler-Maruyama */
-	bool verbose;		 /* add the convergence table */
-	long max_work;		 /* limit on steps*paths; 0 for the default */
+	bool milstein; /* otherwise Euler-Maruyama */
+	bool verbose;  /* add the convergence table */
+	long max_work; /* limit on steps*paths; 0 for the default */
 } check_input;
 
+/* One partial derivative of f against its central difference. */
+typedef struct check_fd_row {
+	const expr *first;  /* the variable of the derivative */
+	const expr *second; /* the second variable of a second derivative; NULL for a first one */
+	double engine;      /* the engine's partial at the point (NaN when it cannot be evaluated) */
+	double difference;  /* the central difference */
+	double error;       /* |engine - difference| / max(1, |engine|) */
+	double tolerance;   /* the bound on error: the relative tolerance plus the rounding */
+	bool ok;            /* error within tolerance */
+} check_fd_row;
+
+/* The mean of a statistic that is zero when the claim is right. */
+typedef struct check_zstat {
+	double n;    /* paths in the mean */
+	double mean; /* mean of the extrapolated 2 S(h) - S(2h) (S(h) alone for one step) */
+	double se;   /* its standard error */
+	double z;    /* mean / se, se floored at the rounding of the terms summed */
+	double fine; /* mean on the fine grid alone */
+	bool ok;     /* n > 1 and |z| below the tolerance */
+} check_zstat;
+
+/* A noise that plays a part, in model order. */
+typedef struct check_noise {
+	const expr *name;        /* its symbol; under a measure Q, its Q Brownian motion */
+	const expr *coefficient; /* the tested differential's coefficient of its dW; NULL if it has none */
+	check_zstat covariation; /* sum df dW - sum (rho b) dt */
+} check_noise;
+
+/* A row of the convergence table: the same paths on a grid of `steps` steps. */
+typedef struct check_conv_row {
+	long steps;             /* steps of the grid */
+	double qv;              /* mean realised quadratic variation */
+	double qv_se;           /* its standard error */
+	double predicted;       /* mean integral of the squared diffusion */
+	double gap_sd;          /* standard deviation of QV - I across paths */
+	double first_variation; /* mean sum |df| */
+} check_conv_row;
+
+/* Why a check is inconsistent. */
+typedef enum check_reason_kind {
+	CHECK_REASON_FD,          /* a finite difference disagrees (index: the row) */
+	CHECK_REASON_QV,          /* the quadratic variation disagrees with the diffusion */
+	CHECK_REASON_RESIDUAL,    /* the martingale residual is not zero (the drift) */
+	CHECK_REASON_COVARIATION, /* a covariation disagrees with its coefficient (index: the noise) */
+	CHECK_REASON_BAD_PATHS    /* over 1% of the paths left the domain */
+} check_reason_kind;
+
+typedef struct check_reason {
+	check_reason_kind kind; /* what disagrees */
+	size_t index;           /* the row of fd or of noises it concerns; 0 otherwise */
+} check_reason;
+
+/* What was checked and how. */
+typedef struct check_setup {
+	const expr *f;        /* the expression */
+	size_t nvalues;       /* the point as given */
+	const expr **symbols; /* nvalues symbols */
+	double *values;       /* nvalues values */
+	bool milstein;        /* the scheme used: Milstein, else Euler-Maruyama */
+	double horizon;       /* T */
+	long steps, paths;    /* steps of the fine grid, paths asked for */
+	unsigned long seed;   /* the seed of the streams */
+	bool hand_derived;    /* the differential was the user's: no finite differences */
+	const expr *drift;    /* the tested differential's drift (its dW terms: check_noise) */
+	char *note;           /* a remark on the plan (Milstein not applicable), or NULL */
+	double z_tolerance;   /* a statistic is consistent when |z| is below this */
+	double fd_tolerance;  /* the relative tolerance of the finite differences */
+} check_setup;
+
+/* The simulation's statistics. */
+typedef struct check_simulation {
+	check_zstat qv;       /* mean(QV - I) */
+	double qv_realised;   /* mean realised QV on the fine grid */
+	double qv_predicted;  /* mean integral of g^2 dt on the fine grid */
+	check_zstat residual; /* f(T) - f(0) - sum drift dt - sum b dW */
+	check_zstat terminal; /* f(T): its mean and se (not a test) */
+	long coarse_steps;    /* the coarse grid of the extrapolation; 0 for one step (none) */
+	long paths_used;      /* paths in the statistics */
+	long bad_paths;       /* paths with NaN or Inf, left out */
+	long truncated_paths; /* paths on which full truncation acted */
+} check_simulation;
+
 typedef struct check_result {
-	bool consistent;
-	bool limit_hit;		 /* steps*paths over the limit: nothing was run */
-	char *text;		 /* the human report, lines ending in '\n' */
-	char *json;		 /* the fields of the JSON object after "kind":"check", without braces */
-	char *error;		 /* set when the check could not run (a missing value, ...) */
+	bool consistent;   /* no reasons */
+	bool limit_hit;    /* steps*paths over the limit, or interrupted: nothing was reported */
+	char *error;       /* set when the check could not run (a missing value, ...); then nothing else is */
+	check_setup setup; /* what was checked */
+	size_t nfd;        /* finite-difference rows (none when hand derived) */
+	check_fd_row *fd;  /* nfd rows */
+	size_t nnoise;     /* the noises that play a part */
+	check_noise *noises;   /* nnoise, in model order */
+	check_simulation sim;  /* the statistics of the paths */
+	size_t conv_paths;     /* paths of the convergence table (verbose); 0 for no table */
+	long conv_bad;         /* of them, left out of the table (NaN or Inf) */
+	size_t nconv;          /* rows of the table */
+	check_conv_row *conv;  /* nconv rows, coarsest first */
+	size_t nreasons;       /* why inconsistent */
+	check_reason *reasons; /* nreasons, in the order found */
 } check_result;
 
 void check_run(expr_ctx *ctx, const check_input *in, check_result *out);

@@ -14,7 +14,7 @@
 #include "vector.h"
 #include "xalloc.h"
 
-typedef enum op { OP_CONST, OP_VAR, OP_ADD, OP_MUL, OP_POWI, OP_POWD, OP_POWX, OP_SQRT, OP_FUN } op;
+typedef enum op { OP_CONST, OP_VAR, OP_ADD, OP_MUL, OP_POWI, OP_POWD, OP_POWR, OP_POWX, OP_SQRT, OP_FUN } op;
 
 typedef struct instr {
 	op code;
@@ -72,6 +72,11 @@ static bool compile_power(compiler *c, const expr *base, const expr *exponent, s
 			*reg = emit_instr(c, (instr){.code = OP_POWI, .a = b, .power = mpz_get_si(mpq_numref(q))});
 		} else if (mpq_cmp_ui(q, 1, 2) == 0) {
 			*reg = emit_instr(c, (instr){.code = OP_SQRT, .a = b});
+		} else if (mpz_odd_p(mpq_denref(q))) {
+			/* x^(p/q) with q odd is the real root for x < 0 (the convention of
+			 * expr.h): (-8)^(1/3) = -2, (-8)^(2/3) = 4 */
+			*reg = emit_instr(c, (instr){.code = OP_POWR, .a = b, .constant = rat_to_double(q),
+						     .power = mpz_odd_p(mpq_numref(q)) ? -1 : 1});
 		} else {
 			*reg = emit_instr(c, (instr){.code = OP_POWD, .a = b, .constant = rat_to_double(q)});
 		}
@@ -423,6 +428,15 @@ ITOX_VECTOR static void run_instr(const instr *code, const instr *in, const doub
 		const double *x = src[in->a];
 		for (size_t p = 0; p < n; p++)
 			r[p] = pow(x[p], in->constant);
+		break;
+	}
+	case OP_POWR: {
+		const double *x = src[in->a];
+		double odd = (double)in->power; /* -1: an odd numerator keeps the sign of x */
+		for (size_t p = 0; p < n; p++) {
+			double v = pow(fabs(x[p]), in->constant);
+			r[p] = x[p] < 0 ? odd * v : v;
+		}
 		break;
 	}
 	case OP_POWX: {

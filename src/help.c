@@ -38,9 +38,12 @@
 	X("pde", "pde V(t, S) [discount EXPR]\n"                                                      \
 		 "  The backward equation V_t + L V - r V = 0 that makes the discounted V\n"          \
 		 "  a martingale.  example:  pde V(t, S) discount r\n")                               \
-	X("ito", "ito X\n  The SDE of the state X in Ito form.  example:  ito X\n")                   \
-	X("stratonovich", "stratonovich X  |  stratonovich dX = ...\n"                                \
-			  "  Show a state in Stratonovich form, or declare one in it.\n"              \
+	X("sde", "sde X  |  sde X stratonovich\n"                                                   \
+		 "  The SDE of the state X in Ito form, or in Stratonovich form.\n"                  \
+		 "  example:  sde X stratonovich\n")                                                 \
+	X("stratonovich", "stratonovich dX = ...\n"                                                 \
+			  "  Declare a state by its SDE in Stratonovich form (sde X stratonovich\n"  \
+			  "  shows any state in that form).\n"                                        \
 			  "  example:  stratonovich dX = a*X*dt + b*X*dW\n")                          \
 	X("measure", "measure Q: dW = dZ - lambda*dt, ...\n"                                          \
 		     "  A change of measure (Girsanov): Z is a Brownian motion under Q.  Noises\n"    \
@@ -62,7 +65,12 @@
 	X("show", "show [NAME]\n  The model (or one name) as a script.  example:  show\n")           \
 	X("save", "save FILE\n  Write the model as a script that load reproduces.  example:  save note-model.itox\n") \
 	X("load", "load FILE\n  Run a script in this session.  example:  load note-model.itox\n")          \
-	X("format", "format text|latex|c|json\n  The output format.  example:  format latex\n")       \
+	X("format", "format text|latex|c|json\n"                                                     \
+		    "  The output format.  text: each result with its left side (drift(X) = ...),\n" \
+		    "  claims and checks with their place (model.itox:12: claim holds (exact)).\n"   \
+		    "  latex: display math (itox --format=latex --standalone FILE: a document).\n"  \
+		    "  c: one C99 unit, a function per result (d log(S) -> d_log_S).\n"             \
+		    "  json: one object per result.  example:  format latex\n")                     \
 	X("help", "help [TOPIC]\n  This text.  example:  help claim\n")                               \
 	X("quit", "quit\n  Leave (Ctrl-D too).  example:  quit\n")
 
@@ -86,7 +94,7 @@ static const char overview[] =
 	"itox: symbolic Ito calculus.  Statements (help TOPIC for each):\n"
 	"  declarations  param (in) assume noise corr func sde let measure state (where)\n"
 	"  queries       EXPR partial d drift diffusion generator qv pde (discount)\n"
-	"                ito stratonovich, any query followed by: under MEASURE\n"
+	"                sde, any query followed by: under MEASURE\n"
 	"  verification  claim check (at, over, verbose)\n"
 	"  session       show save load format help quit\n"
 	"Example:\n"

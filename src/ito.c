@@ -219,8 +219,15 @@ void ito_d(model *m, const model_measure *q, const expr *f, ito_diff *out)
 		procs[nproc] = symbols.items[i];
 		first[nproc] = diff(ctx, f, procs[nproc]);
 		nproc++;
+		if (!first[nproc - 1])
+			break; /* a limit or an interrupt: the error is in the context */
 	}
+	bool failed = false;
+	for (size_t i = 0; i < nproc; i++)
+		failed |= !first[i];
 	expr_vec drift = {0};
+	if (failed)
+		nproc = 0; /* nothing more to build; out->dt becomes NULL below */
 	for (size_t i = 0; i < nproc; i++) {
 		if (expr_is_zero(first[i]))
 			continue;
@@ -246,9 +253,9 @@ void ito_d(model *m, const model_measure *q, const expr *f, ito_diff *out)
 			expr_vec_push(&drift, expr_mul_n(ctx, 3, (const expr *[]){weight, c, fij}));
 		}
 	}
-	out->dt = expr_add_n(ctx, drift.n, drift.items);
+	out->dt = failed || expr_error(ctx) ? NULL : expr_add_n(ctx, drift.n, drift.items);
 	expr_vec_free(&drift);
-	for (size_t i = 0; i < nproc; i++)
+	for (size_t i = 0; i < symbols.n; i++)
 		ito_diff_free(&dyn[i]);
 	free(dyn);
 	free(procs);

@@ -49,6 +49,7 @@ static void usage(FILE *out)
 	      "\n"
 	      "  -e STATEMENT        run STATEMENT (repeatable)      itox -e 'param a' -e 'log(exp(a))'\n"
 	      "      --format=FMT    text, latex, c or json          itox --format=latex model.itox\n"
+	      "      --standalone    with latex: a whole document     itox --format=latex --standalone m.itox\n"
 	      "      --seed=N        seed of the random tests         itox --seed=7 claims.itox\n"
 	      "      --time-limit=S  seconds allowed per statement    itox --time-limit=10 big.itox\n"
 	      "      --quiet         no banner in the REPL            itox --quiet\n"
@@ -65,11 +66,12 @@ static void usage(FILE *out)
 
 int main(int argc, char **argv)
 {
-	enum { OPT_FORMAT = 256, OPT_SEED, OPT_QUIET, OPT_HELP, OPT_VERSION, OPT_TIME };
+	enum { OPT_FORMAT = 256, OPT_SEED, OPT_QUIET, OPT_HELP, OPT_VERSION, OPT_TIME, OPT_STANDALONE };
 	static const struct option options[] = {
 		{"format", required_argument, NULL, OPT_FORMAT},
 		{"seed", required_argument, NULL, OPT_SEED},
 		{"quiet", no_argument, NULL, OPT_QUIET},
+		{"standalone", no_argument, NULL, OPT_STANDALONE},
 		{"help", no_argument, NULL, OPT_HELP},
 		{"version", no_argument, NULL, OPT_VERSION},
 		{"time-limit", required_argument, NULL, OPT_TIME},
@@ -122,6 +124,9 @@ int main(int argc, char **argv)
 		}
 		case OPT_QUIET:
 			opt.quiet = true;
+			break;
+		case OPT_STANDALONE:
+			opt.standalone = true;
 			break;
 		case OPT_HELP:
 			usage(stdout);

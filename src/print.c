@@ -58,6 +58,9 @@ typedef struct printer {
 	const expr *const *sum_terms; /* the terms of the sum being collected */
 	size_t nsum_terms;
 	expr_map order_map; /* term -> NUM position + 1, for the sum being collected */
+	prn_c_calls *calls; /* C: the generic partials called, or NULL */
+	bool in_exponent;   /* LaTeX: writing an exponent (no stacked fractions there) */
+	bool followed;	    /* LaTeX: the factor being written has another after it */
 } printer;
 
 /* A zeroed node; only numbers and products carry (and initialise) num.
@@ -890,6 +893,11 @@ char *prn_fapp_name(const expr *e)
 	return xbuf_take(&buf);
 }
 
+bool prn_fapp_declared(const expr *e)
+{
+	return e->kind == EXPR_FAPP && at_declared_args(e);
+}
+
 /* Are the arguments exactly the declared argument symbols? */
 static bool at_declared_args(const expr *e)
 {
@@ -970,7 +978,7 @@ static void emit_number(printer *p, xbuf *out, const mpq_t q)
 		}
 		return;
 	}
-	if (p->format == PRN_LATEX && !rat_is_integer(q)) {
+	if (p->format == PRN_LATEX && !rat_is_integer(q) && !p->in_exponent) {
 		char *num = rat_to_string(q);
 		char *slash = strchr(num, '/');
 		*slash = '\0';
@@ -1033,13 +1041,20 @@ static void emit_fun(printer *p, xbuf *out, const dnode *d)
 			return;
 		}
 		if (fn == EXPR_F_EXP) {
+			bool outer = p->in_exponent;
+			p->in_exponent = true;
+			p->followed = false;
 			xbuf_put(out, "e^{");
 			emit(p, out, d->child);
 			xbuf_putc(out, '}');
+			p->in_exponent = outer;
 			return;
 		}
 		xbuf_put(out, expr_builtin_latex(fn));
-		bool plain = fn == EXPR_F_LOG || fn == EXPR_F_SIN || fn == EXPR_F_COS;
+		/* \log v without brackets only where nothing follows: \log v S would
+		 * read as the log of v S */
+		bool plain = (fn == EXPR_F_LOG || fn == EXPR_F_SIN || fn == EXPR_F_COS) && !p->followed;
+		p->followed = false;
 		if (plain && d->child->kind == D_SYM) {
 			xbuf_putc(out, ' ');
 			emit(p, out, d->child);
@@ -1051,6 +1066,27 @@ static void emit_fun(printer *p, xbuf *out, const dnode *d)
 	xbuf_printf(out, "%s(", expr_builtin_name(fn));
 	emit(p, out, d->child);
 	xbuf_putc(out, ')');
+}
+
+/* Remember a generic partial called from C (once per name). */
+static void note_call(prn_c_calls *calls, const char *name, size_t nargs)
+{
+	for (size_t i = 0; i < calls->n; i++)
+		if (strcmp(calls->names[i], name) == 0)
+			return;
+	calls->names = xreallocarray(calls->names, calls->n + 1, sizeof *calls->names);
+	calls->nargs = xreallocarray(calls->nargs, calls->n + 1, sizeof *calls->nargs);
+	calls->names[calls->n] = xstrdup(name);
+	calls->nargs[calls->n++] = nargs;
+}
+
+void prn_c_calls_free(prn_c_calls *calls)
+{
+	for (size_t i = 0; i < calls->n; i++)
+		free(calls->names[i]);
+	free(calls->names);
+	free(calls->nargs);
+	*calls = (prn_c_calls){0};
 }
 
 static void emit_fapp(printer *p, xbuf *out, const dnode *d)
@@ -1067,6 +1103,8 @@ static void emit_fapp(printer *p, xbuf *out, const dnode *d)
 			if (!(*c == '_' && (c[1] == '_' || c[1] == '\0')))
 				xbuf_putc(&clean, *c);
 		xbuf_put(out, clean.data);
+		if (p->calls)
+			note_call(p->calls, clean.data, d->n);
 		xbuf_free(&clean);
 		declared = false; /* C always names the arguments */
 	} else if (p->format == PRN_LATEX) {
@@ -1133,9 +1171,13 @@ static void emit_power(printer *p, xbuf *out, const dfactor *f, bool absolute)
 		}
 		emit_paren(p, out, base, !is_atomic(base));
 		if (p->format == PRN_LATEX) {
+			bool outer = p->in_exponent;
+			p->in_exponent = true;
+			p->followed = false;
 			xbuf_put(out, "^{");
 			emit(p, out, ex);
 			xbuf_putc(out, '}');
+			p->in_exponent = outer;
 		} else {
 			xbuf_putc(out, '^');
 			emit_paren(p, out, ex, !is_atomic(ex));
@@ -1180,14 +1222,10 @@ static void emit_power(printer *p, xbuf *out, const dfactor *f, bool absolute)
 						      base->e->u.fun.fn != EXPR_F_ABS);
 		emit_paren(p, out, base, base_paren);
 		if (p->format == PRN_LATEX) {
-			xbuf_put(out, "^{");
+			/* v^{3/2}: an exponent holds no stacked fraction */
 			char *s = rat_to_string(e);
-			if (rat_is_integer(e))
-				xbuf_put(out, s);
-			else
-				emit_number(p, out, e);
+			xbuf_printf(out, "^{%s}", s);
 			free(s);
-			xbuf_putc(out, '}');
 		} else {
 			char *s = rat_to_string(e);
 			if (rat_is_integer(e) && mpq_sgn(e) > 0)
@@ -1241,13 +1279,19 @@ static void emit_factor_list(printer *p, xbuf *out, const dnode *d, bool denomin
 		xbuf_put(out, coef_text);
 		(*count)++;
 	}
+	size_t last = d->nfactors;
+	for (size_t i = 0; i < d->nfactors; i++)
+		if (side(p, &d->factors[i]) == (denominator ? 1 : 0))
+			last = i;
 	for (size_t i = 0; i < d->nfactors; i++) {
 		const dfactor *f = &d->factors[i];
 		if (side(p, f) != (denominator ? 1 : 0))
 			continue;
 		if (*count)
 			xbuf_put(out, times);
+		p->followed = p->format == PRN_LATEX && i != last;
 		emit_power(p, out, f, denominator);
+		p->followed = false;
 		(*count)++;
 	}
 }
@@ -1306,7 +1350,8 @@ static void emit_prod(printer *p, xbuf *out, const dnode *d)
 		free(bottom);
 		return;
 	}
-	if (nden == 0) {
+	bool inline_fraction = p->format == PRN_LATEX && p->in_exponent; /* e^{a/2}, not e^{\tfrac{1}{2} a} */
+	if (nden == 0 && (integer || !inline_fraction)) {
 		char *coef = NULL;
 		if (!unit || nnum == 0) {
 			xbuf buf = {0};
@@ -1335,7 +1380,7 @@ static void emit_prod(printer *p, xbuf *out, const dnode *d)
 	size_t nden_parts = count;
 	free(top);
 	free(bottom);
-	if (p->format == PRN_LATEX) {
+	if (p->format == PRN_LATEX && !inline_fraction) {
 		xbuf_printf(out, "\\frac{%s}{%s}", num.data, den.data);
 	} else {
 		bool num_paren = p->format == PRN_C && nnum_parts > 1;
@@ -1415,9 +1460,14 @@ char *prn_expr(expr_ctx *ctx, const expr *e, prn_format format)
 
 char *prn_expr_abbrev(expr_ctx *ctx, const expr *e, prn_format format, const prn_abbrev *abbrev)
 {
+	return prn_expr_c(ctx, e, format, abbrev, NULL);
+}
+
+char *prn_expr_c(expr_ctx *ctx, const expr *e, prn_format format, const prn_abbrev *abbrev, prn_c_calls *calls)
+{
 	if (!e)
 		return xstrdup("<error>");
-	printer p = {.ctx = ctx, .format = format, .abbrev = abbrev, .top = true};
+	printer p = {.ctx = ctx, .format = format, .abbrev = abbrev, .top = true, .calls = calls};
 	if (format == PRN_LATEX_PLAIN) {
 		p.format = PRN_LATEX;
 		p.plain_states = true;
@@ -1425,6 +1475,78 @@ char *prn_expr_abbrev(expr_ctx *ctx, const expr *e, prn_format format, const prn
 	dnode *d = build(&p, e);
 	xbuf out = {0};
 	emit(&p, &out, d);
+	printer_free(&p);
+	return xbuf_take(&out);
+}
+
+/* One term coefficient*increment of a differential.  The sign and the
+ * parentheses come from the coefficient's display tree: a negated product
+ * leads with a minus, a sum is bracketed, a sum of negative terms is written
+ * -(a + b).  Nothing here reads printed text. */
+static void emit_term(printer *p, xbuf *out, const expr *c, const char *increment, bool first)
+{
+	p->top = true;
+	dnode *d = build(p, c);
+	while (d->kind == D_SUM && d->n == 1)
+		d = d->items[0];
+	bool negative = false;
+	if (d->kind == D_NEG) {
+		negative = true;
+		d = d->child;
+	} else if (d->kind == D_SUM) {
+		bool all_negative = true;
+		for (size_t i = 0; i < d->n && all_negative; i++)
+			all_negative = d->items[i]->kind == D_NEG;
+		if (all_negative) {
+			negative = true;
+			p->top = true;
+			d = build(p, expr_neg(p->ctx, c));
+		}
+	}
+	xbuf_put(out, first ? (negative ? "-" : "") : (negative ? " - " : " + "));
+	if (d->kind == D_NUM && mpq_cmp_ui(d->num, 1, 1) == 0) {
+		xbuf_put(out, increment); /* dW, not 1*dW */
+		return;
+	}
+	bool latex = p->format == PRN_LATEX;
+	bool paren = precedence(d) < P_PROD;
+	emit_paren(p, out, d, paren);
+	xbuf_put(out, latex ? (paren ? "" : "\\,") : "*");
+	xbuf_put(out, increment);
+}
+
+char *prn_differential(expr_ctx *ctx, const prn_diff *diff, prn_format format, const prn_abbrev *abbrev)
+{
+	printer p = {.ctx = ctx, .format = format, .abbrev = abbrev};
+	if (format == PRN_LATEX_PLAIN) {
+		p.format = PRN_LATEX;
+		p.plain_states = true;
+	}
+	bool latex = p.format == PRN_LATEX;
+	xbuf out = {0};
+	bool first = true;
+	if (diff->dt && !expr_is_zero(diff->dt)) {
+		emit_term(&p, &out, diff->dt, latex ? "\\mathrm{d}t" : "dt", first);
+		first = false;
+	}
+	for (size_t k = 0; k < diff->n; k++) {
+		if (expr_is_zero(diff->dw[k]))
+			continue;
+		const char *name = expr_sym_name(diff->noises[k]);
+		char *increment;
+		if (latex) {
+			char *l = prn_latex_name(name, true);
+			increment = xasprintf(diff->stratonovich ? "\\circ\\mathrm{d}%s" : "\\mathrm{d}%s", l);
+			free(l);
+		} else {
+			increment = xasprintf("d%s", name);
+		}
+		emit_term(&p, &out, diff->dw[k], increment, first);
+		free(increment);
+		first = false;
+	}
+	if (first)
+		xbuf_put(&out, "0");
 	printer_free(&p);
 	return xbuf_take(&out);
 }

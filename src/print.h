@@ -31,6 +31,33 @@ typedef struct prn_abbrev {
 } prn_abbrev;
 char *prn_expr_abbrev(expr_ctx *ctx, const expr *e, prn_format format, const prn_abbrev *abbrev);
 
+/* The right side of a differential, dt*drift + sum_k dw[k]*d(noises[k]):
+ * terms with a zero coefficient are left out, an all-zero one is "0".
+ * stratonovich: LaTeX writes b \circ dW.  The sign and brackets of each
+ * term come from the display tree of its coefficient. */
+typedef struct prn_diff {
+	const expr *dt;
+	const expr *const *dw;
+	const expr *const *noises; /* the increments' names (symbols) */
+	size_t n;
+	bool stratonovich;
+} prn_diff;
+char *prn_differential(expr_ctx *ctx, const prn_diff *diff, prn_format format, const prn_abbrev *abbrev);
+
+/* The generic partials a C expression calls (f_x(t, x) -> "f_x", 2 arguments),
+ * collected so that a translation unit can declare them. */
+typedef struct prn_c_calls {
+	char **names;
+	size_t *nargs;
+	size_t n;
+} prn_c_calls;
+void prn_c_calls_free(prn_c_calls *calls);
+/* prn_expr_abbrev that also collects the calls of a C expression (calls may be NULL). */
+char *prn_expr_c(expr_ctx *ctx, const expr *e, prn_format format, const prn_abbrev *abbrev, prn_c_calls *calls);
+
+/* Is e a generic function at its declared arguments (f_x, written without them)? */
+bool prn_fapp_declared(const expr *e);
+
 /* The plain printer: canonical order, no grouping (for debugging and tests). */
 char *prn_expr_flat(expr_ctx *ctx, const expr *e);
 

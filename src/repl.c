@@ -126,10 +126,9 @@ static char **complete(const char *text, int start, int end)
 static void run_pending(void)
 {
 	char *source = repl.pending.data ? repl.pending.data : "";
-	char origin[32];
-	snprintf(origin, sizeof origin, "<input:%d>", ++repl.entries);
 	*repl.interrupt = 0;
-	session_run(repl.s, source, strlen(source), origin);
+	/* places read repl:N, N counting the entries: repl:8: claim holds (exact) */
+	session_run_numbered(repl.s, source, strlen(source), "repl", ++repl.entries);
 	*repl.interrupt = 0;
 	if (session_quit_requested(repl.s))
 		repl.done = true;

@@ -28,6 +28,7 @@
 #include "sim.h"
 #include "simp.h"
 #include "verify.h"
+#include "writer.h"
 #include "xalloc.h"
 
 enum { MAX_NESTING = 1000, MAX_LINE = 1 << 20 };
@@ -55,8 +56,7 @@ struct session {
 	ast_loc corr_last;	   /* the last corr of the run, for the message */
 	char *corr_text, *corr_origin; /* its line and origin */
 	int corr_fixed_line;
-	bool *let_used;	 /* per model entry: abbreviated in the current result */
-	size_t let_used_cap;
+	writer *writers[4]; /* one per format, made on first use */
 };
 
 /* The source text being run, for the line and caret of messages; a nested
@@ -780,355 +780,115 @@ static bool eval_node(session *s, const ast_node *n, value *out)
 
 /* ------------------------------------------------------------------ output */
 
-static prn_format printer_format(const session *s)
+/* Every result goes to the writer of the current format (writer.h) as a
+ * result value; the format is decided there and nowhere else. */
+
+static writer *current_writer(session *s)
 {
-	switch (s->format) {
-	case FORMAT_LATEX:
-		return PRN_LATEX;
-	case FORMAT_C:
-		return PRN_C;
-	default:
-		return PRN_TEXT;
-	}
+	static const writer_class *const classes[] = {&writer_text, &writer_latex, &writer_c, &writer_json};
+	if (!s->writers[s->format])
+		s->writers[s->format] = writer_new(classes[s->format], s->opt.out, s->ctx, &s->model,
+						   s->opt.standalone && s->format == FORMAT_LATEX);
+	return s->writers[s->format];
 }
 
-/* Print e, abbreviating subexpressions equal to a let definition by its name
- * (Phi(d1)); the names used are remembered for the JSON "let" field.  C output
- * and show/save spell everything out. */
-static char *format_expr(session *s, const expr *e, prn_format format)
+/* Plain text of an expression, every let spelled out (show, save, messages). */
+static char *text_expr(session *s, const expr *e)
 {
+	return prn_expr(s->ctx, e, PRN_TEXT);
+}
+
+static char *node_text(session *s, const ast_node *n);
+
+/* A result being made: the place and measure of the statement, and the let
+ * names that may abbreviate its subexpressions. */
+typedef struct pending {
+	stmt_result r;
+	prn_abbrev abbrev;
+	const expr **nodes;
+	const char **names;
+	bool *used;
+	char *statement;
+} pending;
+
+static void result_start(session *s, pending *p, result_kind kind, const ast_node *st)
+{
+	memset(p, 0, sizeof *p);
 	model *m = &s->model;
-	if (!s->abbreviate || format == PRN_C || m->nentries == 0)
-		return prn_expr(s->ctx, e, format);
-	const expr **nodes = xmalloc(m->nentries * sizeof *nodes);
-	const char **names = xmalloc(m->nentries * sizeof *names);
-	size_t *index = xmalloc(m->nentries * sizeof *index);
-	bool *used = xcalloc(m->nentries, sizeof *used);
+	p->r.kind = kind;
+	p->r.origin = s->origin;
+	p->r.line = s->fixed_line ? s->fixed_line : st->loc.first_line;
+	p->statement = node_text(s, st);
+	p->r.statement = p->statement;
+	p->r.measure = s->measure ? s->measure->name : NULL;
+	p->r.diff.noises = s->measure ? s->measure->names : m->noises;
+	if (!s->abbreviate || m->nentries == 0)
+		return;
+	p->nodes = xmalloc(m->nentries * sizeof *p->nodes);
+	p->names = xmalloc(m->nentries * sizeof *p->names);
+	p->used = xcalloc(m->nentries, sizeof *p->used);
 	size_t n = 0;
 	for (size_t i = 0; i < m->nentries; i++) {
 		model_entry *entry = &m->entries[i];
 		if (entry->kind != MODEL_LET || !entry->value)
 			continue;
-		expr_kind kind = expr_kind_of(entry->value);
-		if (kind == EXPR_NUM || kind == EXPR_SYM)
+		expr_kind kind_of = expr_kind_of(entry->value);
+		if (kind_of == EXPR_NUM || kind_of == EXPR_SYM)
 			continue;
-		nodes[n] = entry->value;
-		names[n] = entry->name;
-		index[n] = i;
+		p->nodes[n] = entry->value;
+		p->names[n] = entry->name;
 		n++;
 	}
-	prn_abbrev abbrev = {.n = n, .nodes = nodes, .names = names, .used = used};
-	char *text = prn_expr_abbrev(s->ctx, e, format, &abbrev);
-	if (s->let_used_cap < m->nentries) {
-		s->let_used = xreallocarray(s->let_used, m->nentries, sizeof *s->let_used);
-		memset(s->let_used + s->let_used_cap, 0, (m->nentries - s->let_used_cap) * sizeof *s->let_used);
-		s->let_used_cap = m->nentries;
-	}
-	for (size_t i = 0; i < n; i++)
-		if (used[i])
-			s->let_used[index[i]] = true;
-	free(nodes);
-	free(names);
-	free(index);
-	free(used);
-	return text;
+	p->abbrev = (prn_abbrev){.n = n, .nodes = p->nodes, .names = p->names, .used = p->used};
+	if (n)
+		p->r.abbrev = &p->abbrev;
 }
 
-static char *show_expr(session *s, const expr *e)
+static void result_set_diff(pending *p, const ito_diff *d)
 {
-	return format_expr(s, e, printer_format(s));
+	p->r.diff.dt = d->dt;
+	p->r.diff.dw = d->dw;
+	p->r.diff.n = d->n;
 }
 
-static char *text_expr(session *s, const expr *e)
+/* Hand the result to the writer; a format that cannot write it is an error
+ * of the statement. */
+static bool result_emit(session *s, pending *p, const ast_node *st)
 {
-	return format_expr(s, e, PRN_TEXT);
+	char *error = NULL;
+	bool ok = writer_write(current_writer(s), &p->r, &error);
+	if (!ok) {
+		report(s, SESSION_INPUT, &st->loc, "%s", error);
+		free(error);
+	}
+	free(p->nodes);
+	free(p->names);
+	free(p->used);
+	free(p->statement);
+	return ok;
 }
 
-/* Append ,"let":{...} with the definitions the object's strings abbreviated. */
-static void json_lets(session *s, xbuf *buf)
+/* A differential result: d EXPR (of), a differential written out or a product. */
+static bool output_differential(session *s, const ast_node *st, result_kind kind, const expr *of, const ito_diff *d)
 {
-	bool any = false;
-	for (size_t i = 0; i < s->let_used_cap && i < s->model.nentries; i++) {
-		if (!s->let_used[i])
-			continue;
-		model_entry *entry = &s->model.entries[i];
-		xbuf_put(buf, any ? "," : ",\"let\":{");
-		prn_json_string(buf, entry->name);
-		xbuf_putc(buf, ':');
-		char *text = prn_expr(s->ctx, entry->value, PRN_TEXT);
-		prn_json_string(buf, text);
-		free(text);
-		any = true;
-	}
-	if (any)
-		xbuf_putc(buf, '}');
-	if (s->let_used)
-		memset(s->let_used, 0, s->let_used_cap * sizeof *s->let_used);
+	pending p;
+	result_start(s, &p, kind, st);
+	p.r.of = of;
+	p.r.value = d->dt;
+	result_set_diff(&p, d);
+	return result_emit(s, &p, st);
 }
 
-static void put_line(session *s, const char *text)
+/* A single expression result: value, drift, generator, qv. */
+static bool output_scalar(session *s, const ast_node *st, result_kind kind, const expr *of, const expr *of2,
+			  const expr *e)
 {
-	fputs(text, s->opt.out);
-	fputc('\n', s->opt.out);
-	fflush(s->opt.out);
-}
-
-static const expr *noise_name(session *s, size_t k)
-{
-	return s->measure ? s->measure->names[k] : s->model.noises[k];
-}
-
-static const char *measure_label(session *s)
-{
-	return s->measure ? s->measure->name : "P";
-}
-
-/* "d(log(S))", "dS" in text; LaTeX "\mathrm{d}\log S_t". */
-static char *differential_label(session *s, const expr *e, prn_format format)
-{
-	char *body = prn_expr(s->ctx, e, format);
-	if (expr_kind_of(e) == EXPR_FAPP && !strchr(body, '(')) {
-		/* d(g(t, S, v)), not d(g): name the arguments on the left of a differential */
-		xbuf named = {0};
-		xbuf_put(&named, body);
-		xbuf_put(&named, format == PRN_LATEX ? "\\left(" : "(");
-		for (size_t i = 0; i < expr_nops(e); i++) {
-			char *arg = prn_expr(s->ctx, expr_op(e, i), format);
-			xbuf_printf(&named, "%s%s", i ? ", " : "", arg);
-			free(arg);
-		}
-		xbuf_put(&named, format == PRN_LATEX ? "\\right)" : ")");
-		free(body);
-		body = xbuf_take(&named);
-	}
-	char *label;
-	bool symbol = expr_kind_of(e) == EXPR_SYM;
-	if (format == PRN_LATEX) {
-		bool plain = symbol || expr_kind_of(e) == EXPR_FUN;
-		label = xasprintf(plain ? "\\mathrm{d}%s" : "\\mathrm{d}\\left(%s\\right)", body);
-	} else {
-		label = xasprintf(symbol ? "d%s" : "d(%s)", body);
-	}
-	free(body);
-	return label;
-}
-
-/* Does printed text have a + or - outside all parentheses (so it needs them)? */
-static bool top_level_sum(const char *text)
-{
-	int depth = 0;
-	for (const char *c = text; *c; c++) {
-		if (*c == '(' || *c == '{' || *c == '[')
-			depth++;
-		else if (*c == ')' || *c == '}' || *c == ']')
-			depth--;
-		else if (depth == 0 && c != text && (*c == '+' || *c == '-') && c[-1] == ' ')
-			return true;
-	}
-	return false;
-}
-
-/* coefficient*increment for a text or LaTeX line; first says whether it leads. */
-static void put_term(session *s, xbuf *buf, const expr *c, const char *increment, bool latex, bool first)
-{
-	/* -(a + b)*dt reads better than (-a - b)*dt */
-	bool all_negative = expr_kind_of(c) == EXPR_ADD;
-	for (size_t i = 0; all_negative && i < expr_nops(c); i++)
-		all_negative = simp_negative_form(expr_op(c, i));
-	if (all_negative)
-		c = expr_neg(s->ctx, c);
-	char *text = format_expr(s, c, latex ? PRN_LATEX : PRN_TEXT);
-	const char *times = latex ? "\\," : "*";
-	if (top_level_sum(text)) {
-		xbuf_put(buf, all_negative ? (first ? "-" : " - ") : (first ? "" : " + "));
-		xbuf_put(buf, latex ? "\\left(" : "(");
-		xbuf_put(buf, text);
-		xbuf_put(buf, latex ? "\\right)" : ")*");
-		xbuf_put(buf, increment);
-		free(text);
-		return;
-	}
-	bool negative = text[0] == '-';
-	const char *body = negative ? text + 1 : text;
-	if (first)
-		xbuf_put(buf, negative ? "-" : "");
-	else
-		xbuf_put(buf, negative ? " - " : " + ");
-	if (strcmp(body, "1") == 0) {
-		xbuf_put(buf, increment);
-	} else {
-		xbuf_put(buf, body);
-		xbuf_put(buf, times);
-		xbuf_put(buf, increment);
-	}
-	free(text);
-}
-
-static char *differential_text_in(session *s, const ito_diff *d, bool latex, bool circ);
-
-static char *differential_text(session *s, const ito_diff *d, bool latex)
-{
-	return differential_text_in(s, d, latex, false);
-}
-
-/* circ: LaTeX Stratonovich increments, b \circ dW */
-static char *differential_text_in(session *s, const ito_diff *d, bool latex, bool circ)
-{
-	xbuf buf = {0};
-	bool first = true;
-	if (!expr_is_zero(d->dt)) {
-		put_term(s, &buf, d->dt, latex ? "\\mathrm{d}t" : "dt", latex, first);
-		first = false;
-	}
-	for (size_t k = 0; k < d->n; k++) {
-		if (expr_is_zero(d->dw[k]))
-			continue;
-		const char *name = expr_sym_name(noise_name(s, k));
-		char *increment;
-		if (latex) {
-			char *l = prn_latex_name(name, true);
-			increment = xasprintf(circ ? "\\circ\\mathrm{d}%s" : "\\mathrm{d}%s", l);
-			free(l);
-		} else {
-			increment = xasprintf("d%s", name);
-		}
-		put_term(s, &buf, d->dw[k], increment, latex, first);
-		free(increment);
-		first = false;
-	}
-	if (first)
-		xbuf_put(&buf, "0");
-	return xbuf_take(&buf);
-}
-
-static void json_field(xbuf *buf, const char *key, const char *text)
-{
-	xbuf_printf(buf, ",\"%s\":", key);
-	prn_json_string(buf, text);
-}
-
-static void json_diffusion(session *s, xbuf *buf, const ito_diff *d)
-{
-	xbuf_put(buf, ",\"diffusion\":{");
-	bool first = true;
-	for (size_t k = 0; k < d->n; k++) {
-		if (expr_is_zero(d->dw[k]))
-			continue;
-		if (!first)
-			xbuf_putc(buf, ',');
-		prn_json_string(buf, expr_sym_name(noise_name(s, k)));
-		xbuf_putc(buf, ':');
-		char *text = text_expr(s, d->dw[k]);
-		prn_json_string(buf, text);
-		free(text);
-		first = false;
-	}
-	xbuf_putc(buf, '}');
-}
-
-static void c_declaration(session *s, xbuf *buf, const char *name, const expr *e)
-{
-	char *code = prn_expr(s->ctx, e, PRN_C);
-	xbuf_printf(buf, "double %s = %s;\n", name, code);
-	free(code);
-}
-
-/* A differential: d(EXPR) = ... (label NULL for a bare differential value). */
-static void output_differential(session *s, const char *kind, const expr *of, const char *label_text,
-				const ito_diff *d)
-{
-	xbuf buf = {0};
-	switch (s->format) {
-	case FORMAT_TEXT:
-	case FORMAT_LATEX: {
-		bool latex = s->format == FORMAT_LATEX;
-		char *body = differential_text(s, d, latex);
-		if (of) {
-			char *label = differential_label(s, of, latex ? PRN_LATEX : PRN_TEXT);
-			xbuf_put(&buf, label);
-			xbuf_put(&buf, " = ");
-			xbuf_put(&buf, body);
-			free(label);
-		} else {
-			xbuf_put(&buf, body);
-		}
-		free(body);
-		break;
-	}
-	case FORMAT_C: {
-		char *label = of ? differential_label(s, of, PRN_TEXT) : xstrdup(label_text);
-		xbuf_printf(&buf, "/* %s%s%s */\n", label, s->measure ? " under " : "",
-			    s->measure ? s->measure->name : "");
-		free(label);
-		c_declaration(s, &buf, "drift", d->dt);
-		for (size_t k = 0; k < d->n; k++) {
-			if (expr_is_zero(d->dw[k]))
-				continue;
-			char *name = xasprintf("diffusion_%s", expr_sym_name(noise_name(s, k)));
-			c_declaration(s, &buf, name, d->dw[k]);
-			free(name);
-		}
-		buf.data[--buf.length] = '\0';
-		break;
-	}
-	case FORMAT_JSON: {
-		xbuf_printf(&buf, "{\"kind\":\"%s\"", kind);
-		if (of) {
-			char *text = text_expr(s, of);
-			json_field(&buf, "expr", text);
-			free(text);
-		}
-		json_field(&buf, "measure", measure_label(s));
-		char *drift = text_expr(s, d->dt);
-		json_field(&buf, "drift", drift);
-		free(drift);
-		json_diffusion(s, &buf, d);
-		json_lets(s, &buf);
-		xbuf_putc(&buf, '}');
-		break;
-	}
-	}
-	put_line(s, buf.data);
-	xbuf_free(&buf);
-}
-
-/* A single expression result: kind "value", "drift", "generator", "qv", "product". */
-static void output_scalar(session *s, const char *kind, const char *query, const expr *of, const expr *e)
-{
-	xbuf buf = {0};
-	char *text = show_expr(s, e);
-	switch (s->format) {
-	case FORMAT_TEXT:
-	case FORMAT_LATEX:
-		xbuf_put(&buf, text);
-		break;
-	case FORMAT_C: {
-		xbuf_printf(&buf, "/* %s */\n", query);
-		char *code = prn_expr(s->ctx, e, PRN_C);
-		xbuf_printf(&buf, "double value = %s;", code);
-		free(code);
-		break;
-	}
-	case FORMAT_JSON: {
-		xbuf_printf(&buf, "{\"kind\":\"%s\"", kind);
-		if (of) {
-			char *o = text_expr(s, of);
-			json_field(&buf, "expr", o);
-			free(o);
-		}
-		if (s->measure)
-			json_field(&buf, "measure", measure_label(s));
-		char *v = text_expr(s, e);
-		json_field(&buf, "value", v);
-		free(v);
-		json_lets(s, &buf);
-		xbuf_putc(&buf, '}');
-		break;
-	}
-	}
-	free(text);
-	put_line(s, buf.data);
-	xbuf_free(&buf);
+	pending p;
+	result_start(s, &p, kind, st);
+	p.r.of = of;
+	p.r.of2 = of2;
+	p.r.value = e;
+	return result_emit(s, &p, st);
 }
 
 /* The source text of a node, for C comments. */
@@ -1408,6 +1168,8 @@ static bool close_corr_block(session *s)
 int session_finish(session *s)
 {
 	close_corr_block(s);
+	for (int i = 0; i < 4; i++)
+		writer_finish(s->writers[i]);
 	return s->status;
 }
 
@@ -2032,8 +1794,8 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 		model_sde *sde = &m->sdes[i];
 		if (only && strcmp(expr_sym_name(sde->state), only) != 0)
 			continue;
-		ito_diff d = {.dt = sde->drift, .dw = sde->diffusion, .n = sde->ndiffusion};
-		char *body = differential_text(s, &d, false);
+		prn_diff d = {.dt = sde->drift, .dw = sde->diffusion, .noises = m->noises, .n = sde->ndiffusion};
+		char *body = prn_differential(s->ctx, &d, PRN_TEXT, NULL);
 		xbuf_printf(out, "%sd%s = %s\n", sde->stratonovich ? "stratonovich " : "", expr_sym_name(sde->state), body);
 		free(body);
 	}
@@ -2078,9 +1840,9 @@ static bool run_d(session *s, const ast_node *st)
 		ito_diff_free(&d);
 		return false;
 	}
-	output_differential(s, "differential", e, NULL, &d);
+	bool ok = output_differential(s, st, RESULT_DIFFERENTIAL, e, &d);
 	ito_diff_free(&d);
-	return true;
+	return ok;
 }
 
 static bool run_part(session *s, const ast_node *st)
@@ -2094,48 +1856,16 @@ static bool run_part(session *s, const ast_node *st)
 		ito_diff_free(&d);
 		return false;
 	}
-	char *query = node_text(s, st);
+	bool ok;
 	if (st->kind == AST_S_DIFFUSION) {
 		ito_diff only = d;
 		only.dt = expr_int(s->ctx, 0);
-		if (s->format == FORMAT_JSON) {
-			xbuf buf = {0};
-			char *text = text_expr(s, e);
-			xbuf_put(&buf, "{\"kind\":\"diffusion\"");
-			json_field(&buf, "expr", text);
-			free(text);
-			json_field(&buf, "measure", measure_label(s));
-			json_diffusion(s, &buf, &d);
-			json_lets(s, &buf);
-			xbuf_putc(&buf, '}');
-			put_line(s, buf.data);
-			xbuf_free(&buf);
-		} else if (s->format == FORMAT_C) {
-			xbuf buf = {0};
-			xbuf_printf(&buf, "/* %s */\n", query);
-			for (size_t k = 0; k < d.n; k++) {
-				if (expr_is_zero(d.dw[k]))
-					continue;
-				char *name = xasprintf("diffusion_%s", expr_sym_name(noise_name(s, k)));
-				c_declaration(s, &buf, name, d.dw[k]);
-				free(name);
-			}
-			if (buf.data[buf.length - 1] == '\n')
-				buf.data[--buf.length] = '\0';
-			put_line(s, buf.data);
-			xbuf_free(&buf);
-		} else {
-			char *body = differential_text(s, &only, s->format == FORMAT_LATEX);
-			put_line(s, body);
-			free(body);
-		}
+		ok = output_differential(s, st, RESULT_DIFFUSION, e, &only);
 	} else {
-		const char *kind = st->kind == AST_S_DRIFT ? "drift" : "generator";
-		output_scalar(s, kind, query, e, d.dt);
+		ok = output_scalar(s, st, st->kind == AST_S_DRIFT ? RESULT_DRIFT : RESULT_GENERATOR, e, NULL, d.dt);
 	}
-	free(query);
 	ito_diff_free(&d);
-	return true;
+	return ok;
 }
 
 static bool run_qv(session *s, const ast_node *st)
@@ -2157,10 +1887,7 @@ static bool run_qv(session *s, const ast_node *st)
 		engine_failed(s, &st->loc);
 		return false;
 	}
-	char *query = node_text(s, st);
-	output_scalar(s, "qv", query, NULL, rate);
-	free(query);
-	return true;
+	return output_scalar(s, st, RESULT_QV, a, b, rate);
 }
 
 static bool run_pde(session *s, const ast_node *st)
@@ -2213,44 +1940,34 @@ static bool run_pde(session *s, const ast_node *st)
 	const expr *lhs = ito_pde(m, s->measure, V, discount);
 	if (!lhs || engine_failed(s, &st->loc))
 		return false;
-	/* a PDE is in the variables S, v, not in the processes S_t, v_t */
-	char *text = s->format == FORMAT_LATEX ? format_expr(s, lhs, PRN_LATEX_PLAIN) : show_expr(s, lhs);
-	xbuf buf = {0};
-	switch (s->format) {
-	case FORMAT_TEXT:
-	case FORMAT_LATEX:
-		xbuf_printf(&buf, "%s = 0", text);
-		break;
-	case FORMAT_C: {
-		char *query = node_text(s, st);
-		char *code = prn_expr(s->ctx, lhs, PRN_C);
-		xbuf_printf(&buf, "/* %s (left side of = 0) */\ndouble value = %s;", query, code);
-		free(code);
-		free(query);
-		break;
+	pending p;
+	result_start(s, &p, RESULT_PDE, st);
+	p.r.name = st->text;
+	p.r.value = lhs;
+	return result_emit(s, &p, st);
+}
+
+/* The SDE of a state in either convention, under the current measure. */
+static bool state_sde(session *s, const ast_node *st, model_entry *entry, bool stratonovich, ito_diff *d)
+{
+	model *m = &s->model;
+	model_sde *sde = model_sde_of(m, entry->sym);
+	ito_dynamics(m, s->measure, entry->sym, d);
+	if (stratonovich && !ito_diff_failed(d)) {
+		/* the Stratonovich drift under the measure: shift applies to both conventions alike */
+		const expr *shift = expr_sub(s->ctx, d->dt, ito_state_ito_drift(m, sde));
+		d->dt = expr_add(s->ctx, ito_state_stratonovich_drift(m, sde), shift);
 	}
-	case FORMAT_JSON: {
-		char *plain = text_expr(s, lhs);
-		xbuf_put(&buf, "{\"kind\":\"pde\"");
-		json_field(&buf, "function", st->text);
-		json_field(&buf, "measure", measure_label(s));
-		json_field(&buf, "equation", plain);
-		json_lets(s, &buf);
-		xbuf_putc(&buf, '}');
-		free(plain);
-		break;
+	if (ito_diff_failed(d) || engine_failed(s, &st->loc)) {
+		ito_diff_free(d);
+		return false;
 	}
-	}
-	free(text);
-	put_line(s, buf.data);
-	xbuf_free(&buf);
 	return true;
 }
 
-static bool run_convention(session *s, const ast_node *st, bool stratonovich)
+static bool run_sde_display(session *s, const ast_node *st, bool stratonovich)
 {
-	model *m = &s->model;
-	model_entry *entry = model_lookup(m, st->text);
+	model_entry *entry = model_lookup(&s->model, st->text);
 	if (!entry || entry->kind != MODEL_STATE) {
 		if (entry)
 			report(s, SESSION_INPUT, &st->loc, "'%s' is a %s, not a state", st->text, model_kind_name(entry->kind));
@@ -2258,67 +1975,17 @@ static bool run_convention(session *s, const ast_node *st, bool stratonovich)
 			unknown_name(s, &st->loc, st->text);
 		return false;
 	}
-	model_sde *sde = model_sde_of(m, entry->sym);
 	ito_diff d;
-	ito_dynamics(m, s->measure, entry->sym, &d);
-	if (stratonovich) {
-		/* the Stratonovich drift under the measure: shift applies to both conventions alike */
-		const expr *shift = expr_sub(s->ctx, d.dt, ito_state_ito_drift(m, sde));
-		d.dt = expr_add(s->ctx, ito_state_stratonovich_drift(m, sde), shift);
-	}
-	if (ito_diff_failed(&d) || engine_failed(s, &st->loc)) {
-		ito_diff_free(&d);
+	if (!state_sde(s, st, entry, stratonovich, &d))
 		return false;
-	}
-	xbuf buf = {0};
-	const char *convention = stratonovich ? "stratonovich" : "ito";
-	switch (s->format) {
-	case FORMAT_TEXT: {
-		char *body = differential_text(s, &d, false);
-		xbuf_printf(&buf, "%sd%s = %s", stratonovich ? "stratonovich " : "", st->text, body);
-		free(body);
-		break;
-	}
-	case FORMAT_LATEX: {
-		/* Stratonovich increments are written with a circle: b \circ dW */
-		char *body = differential_text_in(s, &d, true, stratonovich);
-		char *name = prn_latex_name(st->text, true);
-		xbuf_printf(&buf, "\\mathrm{d}%s = %s", name, body);
-		free(name);
-		free(body);
-		break;
-	}
-	case FORMAT_C: {
-		xbuf_printf(&buf, "/* %s d%s */\n", convention, st->text);
-		c_declaration(s, &buf, "drift", d.dt);
-		for (size_t k = 0; k < d.n; k++) {
-			if (expr_is_zero(d.dw[k]))
-				continue;
-			char *name = xasprintf("diffusion_%s", expr_sym_name(noise_name(s, k)));
-			c_declaration(s, &buf, name, d.dw[k]);
-			free(name);
-		}
-		buf.data[--buf.length] = '\0';
-		break;
-	}
-	case FORMAT_JSON: {
-		xbuf_put(&buf, "{\"kind\":\"sde\"");
-		json_field(&buf, "state", st->text);
-		json_field(&buf, "convention", convention);
-		json_field(&buf, "measure", measure_label(s));
-		char *drift = text_expr(s, d.dt);
-		json_field(&buf, "drift", drift);
-		free(drift);
-		json_diffusion(s, &buf, &d);
-		json_lets(s, &buf);
-		xbuf_putc(&buf, '}');
-		break;
-	}
-	}
-	put_line(s, buf.data);
-	xbuf_free(&buf);
+	pending p;
+	result_start(s, &p, RESULT_SDE, st);
+	p.r.name = st->text;
+	result_set_diff(&p, &d);
+	p.r.diff.stratonovich = stratonovich;
+	bool ok = result_emit(s, &p, st);
 	ito_diff_free(&d);
-	return true;
+	return ok;
 }
 
 static bool run_expr_statement(session *s, const ast_node *st)
@@ -2330,48 +1997,69 @@ static bool run_expr_statement(session *s, const ast_node *st)
 		value_free(&v);
 		return false;
 	}
-	char *query = node_text(s, st);
+	bool ok;
 	if (!v.is_diff) {
-		output_scalar(s, "value", query, NULL, v.e);
+		ok = output_scalar(s, st, RESULT_VALUE, NULL, NULL, v.e);
 	} else {
 		bool product = true;
 		for (size_t k = 0; k < v.d.n; k++)
 			product &= expr_is_zero(v.d.dw[k]);
-		if (product && s->format == FORMAT_JSON)
-			output_scalar(s, "product", query, NULL, v.d.dt);
-		else
-			output_differential(s, product ? "product" : "differential", NULL, query, &v.d);
+		ok = output_differential(s, st, product ? RESULT_PRODUCT : RESULT_DIFFERENTIAL, NULL, &v.d);
 	}
-	free(query);
 	value_free(&v);
-	return true;
+	return ok;
 }
 
 static bool run_show(session *s, const ast_node *st)
 {
-	if (st->text && !model_lookup(&s->model, st->text)) {
+	model *m = &s->model;
+	if (st->text && !model_lookup(m, st->text)) {
 		unknown_name(s, &st->loc, st->text);
 		return false;
 	}
-	xbuf buf = {0};
-	dump_model(s, &buf, st->text);
-	if (s->format == FORMAT_JSON) {
-		/* one object per state */
-		for (size_t i = 0; i < s->model.nsdes; i++) {
-			model_sde *sde = &s->model.sdes[i];
-			if (st->text && strcmp(expr_sym_name(sde->state), st->text) != 0)
-				continue;
-			ast_node fake = *st;
-			fake.text = (char *)expr_sym_name(sde->state);
-			run_convention(s, &fake, sde->stratonovich);
+	xbuf script = {0};
+	dump_model(s, &script, st->text);
+	/* the states' SDEs as they were declared, for the formats that list them */
+	stmt_result *sdes = xcalloc(m->nsdes + 1, sizeof *sdes);
+	ito_diff *diffs = xcalloc(m->nsdes + 1, sizeof *diffs);
+	size_t n = 0;
+	bool ok = true;
+	for (size_t i = 0; i < m->nsdes && ok; i++) {
+		model_sde *sde = &m->sdes[i];
+		if (st->text && strcmp(expr_sym_name(sde->state), st->text) != 0)
+			continue;
+		model_entry *entry = model_lookup(m, expr_sym_name(sde->state));
+		if (!state_sde(s, st, entry, sde->stratonovich, &diffs[n])) {
+			ok = false;
+			break;
 		}
-	} else if (buf.length) {
-		if (buf.data[buf.length - 1] == '\n')
-			buf.data[--buf.length] = '\0';
-		put_line(s, buf.data);
+		stmt_result *r = &sdes[n];
+		r->kind = RESULT_SDE;
+		r->origin = s->origin;
+		r->line = s->fixed_line ? s->fixed_line : st->loc.first_line;
+		r->name = entry->name;
+		r->diff = (prn_diff){.dt = diffs[n].dt, .dw = diffs[n].dw, .n = diffs[n].n,
+				     .noises = s->measure ? s->measure->names : m->noises,
+				     .stratonovich = sde->stratonovich};
+		r->measure = s->measure ? s->measure->name : NULL;
+		n++;
 	}
-	xbuf_free(&buf);
-	return true;
+	if (ok) {
+		pending p;
+		result_start(s, &p, RESULT_MODEL, st);
+		p.r.script = script.data;
+		p.r.sdes = sdes;
+		p.r.nsdes = n;
+		for (size_t i = 0; i < n; i++)
+			sdes[i].statement = p.r.statement;
+		ok = result_emit(s, &p, st);
+	}
+	for (size_t i = 0; i < n; i++)
+		ito_diff_free(&diffs[i]);
+	free(diffs);
+	free(sdes);
+	xbuf_free(&script);
+	return ok;
 }
 
 static bool run_save(session *s, const ast_node *st)
@@ -2481,7 +2169,7 @@ static bool run_statement(session *s, const ast_node *st)
 		return false;
 	switch (st->kind) {
 	case AST_S_EXPR: case AST_S_D: case AST_S_DRIFT: case AST_S_DIFFUSION: case AST_S_GENERATOR:
-	case AST_S_QV: case AST_S_PDE: case AST_S_ITO: case AST_S_STRAT: case AST_S_CLAIM: case AST_S_CHECK:
+	case AST_S_QV: case AST_S_PDE: case AST_S_SDE_ITO: case AST_S_SDE_STRAT: case AST_S_CLAIM: case AST_S_CHECK:
 	case AST_S_STATE: case AST_S_MEASURE:
 		if (!model_complete(s, st))
 			return false;
@@ -2502,10 +2190,10 @@ static bool run_statement(session *s, const ast_node *st)
 		return run_qv(s, st);
 	case AST_S_PDE:
 		return run_pde(s, st);
-	case AST_S_ITO:
-		return run_convention(s, st, false);
-	case AST_S_STRAT:
-		return run_convention(s, st, true);
+	case AST_S_SDE_ITO:
+		return run_sde_display(s, st, false);
+	case AST_S_SDE_STRAT:
+		return run_sde_display(s, st, true);
 	case AST_S_PARAM:
 		return run_param(s, st);
 	case AST_S_ASSUME:
@@ -2642,60 +2330,14 @@ static bool run_claim(session *s, const ast_node *st)
 		}
 		verify_result result;
 		verify_claim(s->ctx, &s->model, &in, s->opt.seed + s->claim_count++, &result);
-		xbuf buf = {0};
-		char *part = NULL;
-		if (!result.holds && result.part >= 0) {
-			if (!in.is_diff)
-				part = xstrdup("the two sides differ");
-			else if (result.part == 0)
-				part = xstrdup("the dt part differs");
-			else
-				part = xasprintf("the d%s part differs", expr_sym_name(noise_name(s, (size_t)result.part - 1)));
-		}
-		if (s->format == FORMAT_JSON) {
-			xbuf_printf(&buf, "{\"kind\":\"claim\",\"holds\":%s", result.holds ? "true" : "false");
-			json_field(&buf, "method", result.method == VERIFY_EXACT ? "exact" : "numeric");
-			if (result.method == VERIFY_NUMERIC)
-				xbuf_printf(&buf, ",\"points\":%zu,\"max_relative_difference\":%.3g", result.points,
-					    result.max_relative);
-			if (!result.holds) {
-				json_field(&buf, "part", part ? part : "");
-				if (result.difference) {
-					char *diff_text = text_expr(s, result.difference);
-					json_field(&buf, "difference", diff_text);
-					free(diff_text);
-				}
-				if (result.point_text)
-					json_field(&buf, "at", result.point_text);
-			}
-			xbuf_putc(&buf, '}');
-		} else {
-			if (result.holds && result.method == VERIFY_EXACT)
-				xbuf_put(&buf, "holds (exact)");
-			else if (result.holds)
-				xbuf_printf(&buf, "holds (numeric: %zu points, max relative difference %.2g)", result.points,
-					    result.max_relative);
-			else {
-				char *diff_text = result.difference ? text_expr(s, result.difference) : xstrdup("?");
-				xbuf_printf(&buf, "fails: %s by %s", part ? part : "the sides differ", diff_text);
-				if (result.point_text)
-					xbuf_printf(&buf, result.point_text[0] == '(' ? " %s" : "; at %s", result.point_text);
-				free(diff_text);
-			}
-		}
-		if (s->format == FORMAT_C) {
-			/* keep C output compilable: the verdict as a comment */
-			for (char *c = buf.data; c && c[0] && c[1]; c++)
-				if (c[0] == '*' && c[1] == '/')
-					c[1] = ' ';
-			char *comment = xasprintf("/* claim %s */", buf.data);
-			put_line(s, comment);
-			free(comment);
-		} else {
-			put_line(s, buf.data);
-		}
-		xbuf_free(&buf);
-		free(part);
+		pending p;
+		result_start(s, &p, RESULT_CLAIM, st);
+		p.r.claim = &result;
+		if (!in.is_diff)
+			p.r.diff.noises = NULL; /* a claim of expressions has no parts to name */
+		else
+			p.r.diff.n = left.d.n;
+		ok = result_emit(s, &p, st);
 		if (!result.holds)
 			raise_status(s, SESSION_FAILED);
 		verify_result_free(&result);
@@ -2809,15 +2451,11 @@ static bool run_check(session *s, const ast_node *st)
 		} else if (result.error) {
 			report(s, result.limit_hit ? SESSION_LIMIT : SESSION_INPUT, &st->loc, "%s", result.error);
 			ok = false;
-		} else if (s->format == FORMAT_JSON) {
-			xbuf buf = {0};
-			xbuf_printf(&buf, "{\"kind\":\"check\",\"consistent\":%s%s%s}", result.consistent ? "true" : "false",
-				    result.json && *result.json ? "," : "", result.json ? result.json : "");
-			put_line(s, buf.data);
-			xbuf_free(&buf);
 		} else {
-			fputs(result.text ? result.text : "", s->opt.out);
-			fflush(s->opt.out);
+			pending p;
+			result_start(s, &p, RESULT_CHECK, st);
+			p.r.check = &result;
+			ok = result_emit(s, &p, st);
 		}
 		if (ok && !result.consistent)
 			raise_status(s, SESSION_FAILED);
@@ -2856,7 +2494,8 @@ void session_free(session *s)
 		return;
 	model_free(&s->model);
 	expr_ctx_free(s->ctx);
-	free(s->let_used);
+	for (int i = 0; i < 4; i++)
+		writer_free(s->writers[i]);
 	free(s->corr_before);
 	free(s->corr_text);
 	free(s->corr_origin);
@@ -2969,6 +2608,11 @@ int session_run(session *s, const char *source, size_t length, const char *origi
 int session_run_argument(session *s, const char *statement, int index)
 {
 	return run_source(s, statement, strlen(statement), "-e", index);
+}
+
+int session_run_numbered(session *s, const char *source, size_t length, const char *origin, int index)
+{
+	return run_source(s, source, length, origin, index);
 }
 
 int session_run_file(session *s, const char *path)

@@ -26,6 +26,7 @@ typedef struct session_options {
 	session_format format;
 	unsigned long seed;
 	bool quiet;
+	bool standalone;			/* LaTeX: one whole document at the end */
 	double time_limit;			/* seconds per statement; 0 for none */
 	volatile sig_atomic_t *interrupt;	/* 1: Ctrl-C, 2: time limit; may be NULL */
 	void (*before_statement)(void *data);	/* e.g. arm the time limit; may be NULL */
@@ -46,6 +47,8 @@ int session_run(session *s, const char *source, size_t length, const char *origi
 int session_run_file(session *s, const char *path);
 /* Run the index'th -e statement (messages are -e:INDEX:COLUMN). */
 int session_run_argument(session *s, const char *statement, int index);
+/* Run a source whose places are all ORIGIN:INDEX (the REPL's entries). */
+int session_run_numbered(session *s, const char *source, size_t length, const char *origin, int index);
 
 /* Does source end in the middle of a statement (open parenthesis, trailing
  * operator)?  The REPL then reads a continuation line. */

@@ -1,8 +1,10 @@
-/* simp.h - simplification rules that depend on assumptions.
+/* simp.h - the layer above the canonical core for rules that depend on
+ * assumptions.
  *
  * The rules are applied by the expression constructors themselves (expr_fun,
- * expr_pow), so every node is simplified when it is made; this header exposes
- * the sign oracle and the rule switches for tests.
+ * expr_pow), so every node is simplified when it is made; the sign oracle they
+ * consult is expr_sign (expr.h).  This header re-applies them to nodes made
+ * before an assumption, and tells printers how a node is written.
  */
 #ifndef ITOX_SIMP_H
 #define ITOX_SIMP_H

@@ -35,6 +35,7 @@ static void refute(verify_result *out, int part, const expr *difference, const e
 		   const double *values, double left, double right)
 {
 	out->holds = false;
+	out->verdict = VERIFY_FAILS;
 	out->part = part;
 	out->difference = difference;
 	xbuf text = {0};
@@ -148,7 +149,8 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 			out->holds = false;
 			out->part = (int)p;
 			out->difference = d;
-			out->point_text = xstrdup("(the difference involves an unknown function, so no point can be evaluated)");
+			out->verdict = VERIFY_UNDECIDED;
+			out->reason = "the difference involves an unknown function, so no point can be evaluated";
 			break;
 		}
 		expr_vec symbols = {0};
@@ -174,7 +176,8 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 			out->holds = false;
 			out->part = (int)p;
 			out->difference = d;
-			out->point_text = xstrdup("(cannot be evaluated numerically)");
+			out->verdict = VERIFY_UNDECIDED;
+			out->reason = "the difference cannot be evaluated numerically";
 			expr_vec_free(&symbols);
 			expr_vec_free(&outputs);
 			break;
@@ -225,7 +228,8 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 			out->holds = false;
 			out->part = (int)p;
 			out->difference = d;
-			out->point_text = xstrdup("(undecided: no point where both sides are defined was found in the declared domains)");
+			out->verdict = VERIFY_UNDECIDED;
+			out->reason = "no point where both sides are defined was found in the declared domains";
 		}
 		free(values);
 		free(results);

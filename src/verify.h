@@ -18,14 +18,18 @@ typedef struct verify_claim_input {
 
 typedef enum verify_method { VERIFY_EXACT, VERIFY_NUMERIC } verify_method;
 
+typedef enum verify_verdict { VERIFY_HOLDS, VERIFY_FAILS, VERIFY_UNDECIDED } verify_verdict;
+
 typedef struct verify_result {
-	bool holds;
+	bool holds;		/* verdict == VERIFY_HOLDS */
+	verify_verdict verdict;	/* undecided never passes */
+	const char *reason;	/* why undecided (a static string), or NULL */
 	verify_method method;
 	size_t points;		/* points tested (numeric) */
 	double max_relative;	/* largest relative difference seen */
 	int part;		/* the first part that differs, or -1 */
 	const expr *difference; /* lhs - rhs of that part, simplified */
-	char *point_text;	/* "S=1.2, mu=0.3: left 1.5, right 1.4", or NULL */
+	char *point_text;	/* fails: "S=1.2, mu=0.3: left 1.5, right 1.4", or NULL */
 } verify_result;
 
 /* Points tried and the relative tolerance of the numeric test. */

@@ -210,8 +210,8 @@ START_TEST(test_queries)
 	PARSES("pde V(t, S) discount r", "(S_PDE V (NAME t) (NAME S) (discount (NAME r)))");
 	PARSES("pde V(t, S, v) discount r0 + x",
 	       "(S_PDE V (NAME t) (NAME S) (NAME v) (discount (ADD (NAME r0) (NAME x))))");
-	PARSES("ito X", "(S_ITO X)");
-	PARSES("stratonovich X", "(S_STRAT X)");
+	PARSES("sde X", "(S_SDE_ITO X)");
+	PARSES("sde X stratonovich", "(S_SDE_STRAT X)");
 }
 END_TEST
 
@@ -276,12 +276,12 @@ START_TEST(test_under)
 {
 	static const char *const queries[] = {
 		"x*y", "d S", "drift S", "diffusion S", "generator S", "qv S", "qv S, v",
-		"pde V(t, S) discount r", "ito S", "stratonovich S", "claim d S = dS",
+		"pde V(t, S) discount r", "sde S", "sde S stratonovich", "claim d S = dS",
 		"check d S at S=1",
 	};
 	static const char *const kinds[] = {
 		"S_EXPR", "S_D", "S_DRIFT", "S_DIFFUSION", "S_GENERATOR", "S_QV", "S_QV",
-		"S_PDE", "S_ITO", "S_STRAT", "S_CLAIM", "S_CHECK",
+		"S_PDE", "S_SDE_ITO", "S_SDE_STRAT", "S_CLAIM", "S_CHECK",
 	};
 
 	for (size_t i = 0; i < sizeof queries / sizeof queries[0]; i++) {

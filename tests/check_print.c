@@ -197,7 +197,12 @@ START_TEST(test_latex)
 	expect_print("sqrt(2)*x", PRN_LATEX, "\\sqrt{2} x");
 	expect_print("Phi(d1)", PRN_LATEX, "\\Phi\\left(d_{1}\\right)");
 	expect_print("-a/(2*b)", PRN_LATEX, "-\\frac{a}{2 b}");
-	expect_print("x^(3/2)", PRN_LATEX, "x^{\\tfrac{3}{2}}");
+	/* exponents hold no stacked fraction; a function followed by a factor is bracketed */
+	expect_print("x^(3/2)", PRN_LATEX, "x^{3/2}");
+	expect_print("exp(-a*x/2)", PRN_LATEX, "e^{-a x/2}");
+	expect_print("x^(a/(a + b))", PRN_LATEX, "x^{a/(a + b)}");
+	expect_print("log(x)*sin(a)", PRN_LATEX, "\\log\\left(x\\right) \\sin a");
+	expect_print("log(x)*a", PRN_LATEX, "a \\log x");
 }
 END_TEST
 

@@ -1,10 +1,13 @@
 """The C output compiles with cc and evaluates to the same numbers as the text output.
 
 Each query of a stochastic-variance model is printed twice by itox: in C
-(--format=c, one `double NAME = ...;` per coefficient) and in JSON (text
-syntax).  The C declarations are compiled into a small program that prints
-every value at a fixed point; the text expressions are evaluated at the same
-point by SymPy (an independent parser and evaluator).  Every pair must agree.
+(--format=c, one translation unit with a function per result: a differential
+fills *drift and *diffusion_NOISE, a scalar is returned) and in JSON (text
+syntax).  The unit is compiled with cc -std=c99 -Wall -Werror, linked with a
+driver that calls every function at a fixed point (arguments found by name in
+each function's own signature); the text expressions are evaluated at the
+same point by SymPy (an independent parser and evaluator).  Every pair must
+agree.
 Common practice, no source: this only checks that two writers of one result
 agree numerically.
 """
@@ -41,7 +44,7 @@ QUERIES = [
 ]
 POINT = {"mu": 0.07, "kappa": 1.3, "theta": 0.04, "xi": 0.5, "r": 0.02, "K": 95.0,
          "sigma1": 0.25, "sigma2": 0.15, "rho": -0.6, "S": 101.5, "v": 0.035,
-         "S1": 12.0, "S2": 7.5, "t": 0.25}
+         "S1": 12.0, "S2": 7.5, "t": 0.25, "W": 0.3, "B": -0.2}
 
 
 def run(fmt):
@@ -70,32 +73,48 @@ def main():
     if len(blocks) != len(json_lines):
         print("block count differs:", len(blocks), len(json_lines))
         return 1
+    functions = re.findall(r"^(void|double) (\w+)\(([^)]*)\)$", c_text, flags=re.M)
+    if len(functions) != len(json_lines):
+        print("function count differs:", len(functions), len(json_lines))
+        return 1
     expected, program = [], []
-    for i, (block, obj) in enumerate(zip(blocks, json_lines)):
-        decls = re.findall(r"double (\w+) = (.*);", block)
-        texts = {}
-        if "drift" in obj:
-            texts["drift"] = obj["drift"]
-        for k, v in obj.get("diffusion", {}).items():
-            texts["diffusion_" + k] = v
+    for i, ((ret, fname, params), obj) in enumerate(zip(functions, json_lines)):
+        args, outputs = [], []
+        for param in params.split(", "):
+            ctype, name = param.rsplit(" ", 1)
+            if ctype == "double *":
+                ctype, name = "double *", name
+            if name.startswith("*"):
+                outputs.append(name[1:])
+                args.append("&" + name[1:])
+            else:
+                args.append(repr(POINT[name]))
+        texts = {"drift": obj.get("drift", "0")}  # a diffusion result fills a zero drift
+        for k in (o[len("diffusion_"):] for o in outputs if o.startswith("diffusion_")):
+            texts["diffusion_" + k] = obj.get("diffusion", {}).get(k, "0")
         if "value" in obj:
-            texts["value" if obj["kind"] != "product" else "drift"] = obj["value"]
+            texts["value"] = obj["value"]
         program.append("  {")
-        for name, code in decls:
-            program.append(f"    double {name} = {code};")
+        if ret == "void":
+            program.append("    double " + ", ".join(outputs) + ";")
+            program.append(f"    {fname}({', '.join(args)});")
+            names = outputs
+        else:
+            program.append(f"    double value = {fname}({', '.join(args)});")
+            names = ["value"]
+        for name in names:
             program.append(f'    printf("%.17g\\n", {name});')
             expected.append((QUERIES[i], name, sympy_value(texts[name])))
         program.append("  }")
-    decl_point = "\n".join(f"  double {k} = {v!r};" for k, v in POINT.items())
-    source = ("#include <math.h>\n#include <stdio.h>\nint main(void)\n{\n" + decl_point +
-              "\n" + "\n".join(program) + "\n  return 0;\n}\n")
+    source = ("#include <stdio.h>\n" + c_text + "\nint main(void)\n{\n" +
+              "\n".join(program) + "\n  return 0;\n}\n")
     with tempfile.TemporaryDirectory() as d:
         path = os.path.join(d, "coefficients.c")
         with open(path, "w") as f:
             f.write(source)
         exe = os.path.join(d, "coefficients")
         cc = subprocess.run(["cc", "-std=c99", "-D_XOPEN_SOURCE=700", "-Wall", "-Werror",
-                             "-Wno-unused-variable", path, "-o", exe, "-lm"],
+                             path, "-o", exe, "-lm"],
                             capture_output=True, text=True)
         if cc.returncode != 0:
             print(source)

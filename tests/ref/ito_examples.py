@@ -377,7 +377,7 @@ def group_gbm(tally):
 		        sympy.Derivative(V(t, S), t) + r * S * sympy.Derivative(V(t, S), S)
 		        + sigma**2 * S**2 / 2 * sympy.Derivative(V(t, S), S, 2) - r * V(t, S), "pde"),
 		Example(KP + ", Sec. 4.9, Ito to Stratonovich (from memory)",
-		        "stratonovich S", lambda: (mu * S - HALF * sigma * S * diff(sigma * S, S),
+		        "sde S stratonovich", lambda: (mu * S - HALF * sigma * S * diff(sigma * S, S),
 		                                   {"W": sigma * S}),
 		        ((mu - sigma**2 / 2) * S, {"W": sigma * S}), "sde"),
 	]
@@ -501,7 +501,7 @@ def group_cir(tally):
 	# the prelude of a second run): the SDE of d sqrt(r) above, written in y
 	in_y = [
 		Example("common practice, no source: `ito y` after state y = sqrt(r) where r = y^2",
-		        "ito y", lambda: (sq[0].subs(rr, y**2), sq[1]),
+		        "sde y", lambda: (sq[0].subs(rr, y**2), sq[1]),
 		        ((kappa * theta / 2 - sigma**2 / 8) / y - kappa * y / 2, {"W": sigma / 2}), "sde"),
 	]
 	run_group(tally, "CIR", n, pre, ex)
@@ -663,18 +663,18 @@ def group_stratonovich(tally):
 	       "stratonovich dU = a*U*dt + b*U*dW + c*U*dB", "assume U > 0"]
 	ex = [
 		Example(KP + ", Sec. 4.9; " + OKSENDAL + ", ch. 5: Stratonovich to Ito (from memory)",
-		        "ito X", lambda: m1.states[0][1:], ((a + b**2 / 2) * X, {"W": b * X}), "sde"),
+		        "sde X", lambda: m1.states[0][1:], ((a + b**2 / 2) * X, {"W": b * X}), "sde"),
 		Example(OKSENDAL + ", ch. 5: the Stratonovich chain rule, d log X = a dt + b o dW "
 		        "(from memory)",
 		        "d log(X)", lambda: m1.ito(log(X)), (a, {"W": b}), "differential"),
 		Example(KP + ", Sec. 4.9, non-linear Stratonovich correction (from memory)",
-		        "ito Y", lambda: m2.states[0][1:],
+		        "sde Y", lambda: m2.states[0][1:],
 		        (a + b**2 / 2 * sin(Y) * cos(Y), {"W": b * sin(Y)}), "sde"),
 		Example(KP + ", Sec. 4.9, two correlated noises (from memory)",
-		        "ito U", lambda: m3.states[0][1:],
+		        "sde U", lambda: m3.states[0][1:],
 		        ((a + (b**2 + c**2 + 2 * rho * b * c) / 2) * U, {"W": b * U, "B": c * U}), "sde"),
 		Example(KP + ", Sec. 4.9: `stratonovich X` gives the declared form back",
-		        "stratonovich X", lambda: (a * X, {"W": b * X}), None, "sde"),
+		        "sde X stratonovich", lambda: (a * X, {"W": b * X}), None, "sde"),
 	]
 	run_group(tally, "Stratonovich", n, pre, ex)
 
@@ -691,7 +691,7 @@ def group_change_of_state(tally):
 	       "state x = log(S) where S = exp(x)"]
 	ex = [
 		Example("common practice, no source: GBM in the log-price x = log(S)",
-		        "ito x", lambda: mx.states[0][1:], (mu - sigma**2 / 2, {"W": sigma}), "sde"),
+		        "sde x", lambda: mx.states[0][1:], (mu - sigma**2 / 2, {"W": sigma}), "sde"),
 		Example("common practice, no source: exp(x) is the GBM again",
 		        "d exp(x)", lambda: mx.ito(exp(x)),
 		        (mu * exp(x), {"W": sigma * exp(x)}), "differential"),

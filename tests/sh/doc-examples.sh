@@ -14,7 +14,10 @@ awk '/^\$ \.\/itox$/ { on = 1; next } on && /^```/ { exit } on' "$src/README.md"
 sed -n 's/^itox> //p' "$work/tour.txt" > "$work/tour.itox"
 grep -v '^itox> ' "$work/tour.txt" > "$work/expected.txt"
 [ -s "$work/tour.itox" ] || { echo "no tour found in README.md"; exit 1; }
-"$ITOX" "$work/tour.itox" > "$work/actual.txt" 2>&1
+# run as a file named repl from its folder: the REPL's places read repl:N for
+# its N-th entry, and the tour has one entry per line
+cp "$work/tour.itox" "$work/repl"
+(cd "$work" && "$ITOX" repl) > "$work/actual.txt" 2>&1
 status=$?
 # the tour contains one failing claim on purpose
 if [ $status -ne 1 ] || ! diff -u "$work/expected.txt" "$work/actual.txt"; then

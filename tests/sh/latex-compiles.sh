@@ -26,8 +26,8 @@ dS*dv
 qv log(S), v
 generator S^2
 pde V(t, S, v) discount r
-ito v
-stratonovich v
+sde v
+sde v stratonovich
 partial(Phi(log(S)/sqrt(v)), S)
 exp(-r*t)*abs(S - 1)
 measure Q: dW = dZ - (mu - r)/sqrt(v)*dt

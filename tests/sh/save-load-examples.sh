@@ -26,7 +26,7 @@ for example in "$src"/examples/*.itox; do
 	# the same answers: show, and the SDE of every state in both conventions
 	states=$(sed -n 's/^\(stratonovich \)\{0,1\}d\([A-Za-z][A-Za-z0-9_]*\) = .*/\2/p' "$work/$name.saved")
 	queries="-e 'format text' -e show"
-	for x in $states; do queries="$queries -e 'ito $x' -e 'stratonovich $x'"; done
+	for x in $states; do queries="$queries -e 'sde $x' -e 'sde $x stratonovich'"; done
 	(cd "$work" && eval "\"$ITOX\" -e 'load $name.saved' $queries" > "$work/$name.b" 2>&1)
 	(cd "$work" && eval "\"$ITOX\" -e 'load $name.again' $queries" > "$work/$name.c" 2>&1)
 	if ! diff -u "$work/$name.b" "$work/$name.c"; then

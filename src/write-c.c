@@ -1,0 +1,479 @@
+/* write-c.c - a whole script as one C99 translation unit for a model library.
+ *
+ * Each result is a function named after its statement (d log(S) -> d_log_S)
+ * taking t and the model's names (parameters, states, function arguments,
+ * noises, in declaration order) as doubles: a differential fills *drift and
+ * one *diffusion_NOISE per noise, a scalar result is returned.  A let
+ * abbreviation becomes a local variable computed once; generic partials are
+ * declared for the library to supply; claims and checks are comments.  Only
+ * <math.h> is needed.  A name that would clash with <math.h>, a C keyword or
+ * the generated code is refused with an error.
+ */
+#include <ctype.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "writer.h"
+
+typedef struct c_state {
+	char **functions; /* names given so far */
+	size_t nfunctions;
+	char **declared; /* generic partials declared so far */
+	size_t ndeclared;
+} c_state;
+
+/* Identifiers of C99 and of <math.h> that a model name must not take. */
+static const char *const reserved[] = {"auto",
+                                       "break",
+                                       "case",
+                                       "char",
+                                       "const",
+                                       "continue",
+                                       "default",
+                                       "do",
+                                       "double",
+                                       "else",
+                                       "enum",
+                                       "extern",
+                                       "float",
+                                       "for",
+                                       "goto",
+                                       "if",
+                                       "inline",
+                                       "int",
+                                       "long",
+                                       "register",
+                                       "restrict",
+                                       "return",
+                                       "short",
+                                       "signed",
+                                       "sizeof",
+                                       "static",
+                                       "struct",
+                                       "switch",
+                                       "typedef",
+                                       "union",
+                                       "unsigned",
+                                       "void",
+                                       "volatile",
+                                       "while",
+                                       "_Bool",
+                                       "_Complex",
+                                       "_Imaginary",
+                                       "acos",
+                                       "acosh",
+                                       "asin",
+                                       "asinh",
+                                       "atan",
+                                       "atan2",
+                                       "atanh",
+                                       "cbrt",
+                                       "ceil",
+                                       "copysign",
+                                       "cos",
+                                       "cosh",
+                                       "erf",
+                                       "erfc",
+                                       "exp",
+                                       "exp2",
+                                       "expm1",
+                                       "fabs",
+                                       "fdim",
+                                       "floor",
+                                       "fma",
+                                       "fmax",
+                                       "fmin",
+                                       "fmod",
+                                       "frexp",
+                                       "hypot",
+                                       "ilogb",
+                                       "ldexp",
+                                       "lgamma",
+                                       "llrint",
+                                       "llround",
+                                       "log",
+                                       "log10",
+                                       "log1p",
+                                       "log2",
+                                       "logb",
+                                       "lrint",
+                                       "lround",
+                                       "modf",
+                                       "nan",
+                                       "nearbyint",
+                                       "nextafter",
+                                       "nexttoward",
+                                       "pow",
+                                       "remainder",
+                                       "remquo",
+                                       "rint",
+                                       "round",
+                                       "scalbln",
+                                       "scalbn",
+                                       "sin",
+                                       "sinh",
+                                       "sqrt",
+                                       "tan",
+                                       "tanh",
+                                       "tgamma",
+                                       "trunc",
+                                       "gamma",
+                                       "j0",
+                                       "j1",
+                                       "jn",
+                                       "y0",
+                                       "y1",
+                                       "yn",
+                                       "signgam",
+                                       "isnan",
+                                       "isinf",
+                                       "isfinite",
+                                       "isnormal",
+                                       "signbit",
+                                       "fpclassify",
+                                       "INFINITY",
+                                       "NAN",
+                                       "HUGE_VAL",
+                                       "HUGE_VALF",
+                                       "HUGE_VALL",
+                                       "FP_NAN",
+                                       "FP_INFINITE",
+                                       "FP_ZERO",
+                                       "FP_NORMAL",
+                                       "FP_SUBNORMAL",
+                                       "FP_FAST_FMA",
+                                       "FP_ILOGB0",
+                                       "FP_ILOGBNAN",
+                                       "MATH_ERRNO",
+                                       "MATH_ERREXCEPT",
+                                       "math_errhandling",
+                                       "float_t",
+                                       "double_t",
+                                       "isgreater",
+                                       "isgreaterequal",
+                                       "isless",
+                                       "islessequal",
+                                       "islessgreater",
+                                       "isunordered",
+                                       "drift",
+                                       "main",
+                                       NULL};
+
+static bool is_reserved(const char *name)
+{
+	for (size_t i = 0; reserved[i]; i++)
+		if (strcmp(reserved[i], name) == 0)
+			return true;
+	return strncmp(name, "diffusion_", 10) == 0 || strncmp(name, "M_", 2) == 0 ||
+	       strncmp(name, "__", 2) == 0;
+}
+
+static bool is_argument(const model_entry *e)
+{
+	return e->kind == MODEL_PARAM || e->kind == MODEL_STATE || e->kind == MODEL_ARG ||
+	       e->kind == MODEL_NOISE;
+}
+
+/* The names a function would declare must be free in C: an error names the first that is not. */
+static bool names_free(const writer *w, const stmt_result *r, char **error)
+{
+	const model *m = w->model;
+	for (size_t i = 0; i < m->nentries; i++) {
+		const model_entry *e = &m->entries[i];
+		if ((is_argument(e) || e->kind == MODEL_LET || e->kind == MODEL_FUNC) &&
+		    is_reserved(e->name)) {
+			*error = xasprintf(
+			        "the name '%s' clashes with C (<math.h>, a keyword or the generated code) "
+			        "in the C output; declare it under another name (such as '%s_')",
+			        e->name, e->name);
+			return false;
+		}
+	}
+	(void)r;
+	return true;
+}
+
+static bool is_model_name(const writer *w, const char *name)
+{
+	const model *m = w->model;
+	for (size_t i = 0; i < m->nentries; i++)
+		if (strcmp(m->entries[i].name, name) == 0)
+			return true;
+	return strcmp(name, "t") == 0;
+}
+
+/* d log(S) under Q -> d_log_S_under_Q, unique in the unit and free in C. */
+static char *function_name(writer *w, const stmt_result *r)
+{
+	c_state *st = w->state;
+	xbuf buf = {0};
+	const char *text = r->statement ? r->statement : "result";
+	bool gap = false;
+	for (const char *c = text; *c; c++) {
+		if (isalnum((unsigned char)*c)) {
+			if (gap && buf.length)
+				xbuf_putc(&buf, '_');
+			xbuf_putc(&buf, *c);
+			gap = false;
+		} else {
+			gap = true;
+		}
+	}
+	if (r->measure)
+		xbuf_printf(&buf, "_under_%s", r->measure);
+	char *base = buf.length ? xbuf_take(&buf) : xstrdup("result");
+	xbuf_free(&buf);
+	if (isdigit((unsigned char)base[0]) || is_reserved(base) || is_model_name(w, base)) {
+		char *prefixed = xasprintf("result_%s", base);
+		free(base);
+		base = prefixed;
+	}
+	char *name = xstrdup(base);
+	for (int n = 2;; n++) {
+		bool taken = false;
+		for (size_t i = 0; i < st->nfunctions && !taken; i++)
+			taken = strcmp(st->functions[i], name) == 0;
+		for (size_t i = 0; i < st->ndeclared && !taken; i++)
+			taken = strcmp(st->declared[i], name) == 0;
+		if (!taken)
+			break;
+		free(name);
+		name = xasprintf("%s_%d", base, n);
+	}
+	free(base);
+	st->functions = xreallocarray(st->functions, st->nfunctions + 1, sizeof *st->functions);
+	st->functions[st->nfunctions++] = xstrdup(name);
+	return name;
+}
+
+/* A comment: the text with any end-of-comment sequence broken. */
+static void comment(xbuf *buf, const char *text)
+{
+	xbuf_put(buf, "/* ");
+	for (const char *c = text; *c; c++) {
+		xbuf_putc(buf, *c);
+		if (c[0] == '*' && c[1] == '/')
+			xbuf_putc(buf, ' ');
+		if (*c == '\n' && c[1])
+			xbuf_put(buf, " * ");
+	}
+	xbuf_put(buf, " */\n");
+}
+
+typedef struct c_body {
+	prn_abbrev abbrev; /* the result's lets, with a used flag of our own */
+	prn_c_calls calls;
+	xbuf code; /* the statements of the body */
+} c_body;
+
+static char *c_expr(writer *w, c_body *b, const expr *e)
+{
+	return prn_expr_c(w->ctx, e, PRN_C, b->abbrev.n ? &b->abbrev : NULL, &b->calls);
+}
+
+/* The let locals the body uses, each once and before its first use. */
+static void let_locals(writer *w, c_body *b, xbuf *out)
+{
+	size_t n = b->abbrev.n;
+	if (!n)
+		return;
+	bool *done = xcalloc(n, sizeof *done);
+	char **text = xcalloc(n, sizeof *text);
+	bool **deps = xcalloc(n, sizeof *deps);
+	bool *outer = b->abbrev.used;
+	/* the closure: a let used by a used let is used */
+	for (bool grew = true; grew;) {
+		grew = false;
+		for (size_t i = 0; i < n; i++) {
+			if (!outer[i] || text[i])
+				continue;
+			deps[i] = xcalloc(n, sizeof **deps);
+			b->abbrev.used = deps[i];
+			text[i] = c_expr(w, b, b->abbrev.nodes[i]);
+			for (size_t j = 0; j < n; j++)
+				if (deps[i][j] && !outer[j])
+					outer[j] = grew = true;
+		}
+	}
+	b->abbrev.used = outer;
+	/* definitions in dependency order */
+	for (size_t emitted = 0, pass = 0; pass < n; pass++)
+		for (size_t i = 0; i < n; i++) {
+			if (!outer[i] || done[i])
+				continue;
+			bool ready = true;
+			for (size_t j = 0; j < n && ready; j++)
+				ready = !deps[i][j] || done[j] || j == i;
+			if (!ready)
+				continue;
+			xbuf_printf(out, "\tconst double %s = %s;\n", b->abbrev.names[i], text[i]);
+			done[i] = true;
+			emitted++;
+		}
+	for (size_t i = 0; i < n; i++) {
+		free(text[i]);
+		free(deps[i]);
+	}
+	free(text);
+	free(deps);
+	free(done);
+}
+
+static void arguments(writer *w, xbuf *out)
+{
+	const model *m = w->model;
+	xbuf_put(out, "double t");
+	for (size_t i = 0; i < m->nentries; i++)
+		if (is_argument(&m->entries[i]))
+			xbuf_printf(out, ", double %s", m->entries[i].name);
+}
+
+static void declare_calls(writer *w, const prn_c_calls *calls, xbuf *out)
+{
+	c_state *st = w->state;
+	for (size_t i = 0; i < calls->n; i++) {
+		bool seen = false;
+		for (size_t j = 0; j < st->ndeclared && !seen; j++)
+			seen = strcmp(st->declared[j], calls->names[i]) == 0;
+		if (seen)
+			continue;
+		xbuf_printf(out, "double %s(", calls->names[i]);
+		for (size_t k = 0; k < calls->nargs[i]; k++)
+			xbuf_put(out, k ? ", double" : "double");
+		xbuf_put(out, "); /* a generic partial derivative: supplied by the library */\n");
+		st->declared = xreallocarray(st->declared, st->ndeclared + 1, sizeof *st->declared);
+		st->declared[st->ndeclared++] = xstrdup(calls->names[i]);
+	}
+}
+
+static bool is_differential(const stmt_result *r)
+{
+	return r->kind == RESULT_DIFFERENTIAL || r->kind == RESULT_DIFFUSION || r->kind == RESULT_SDE;
+}
+
+static void function(writer *w, const stmt_result *r, xbuf *out)
+{
+	c_body b = {0};
+	bool *used = NULL;
+	if (r->abbrev && r->abbrev->n) {
+		used = xcalloc(r->abbrev->n, sizeof *used);
+		b.abbrev = *r->abbrev;
+		b.abbrev.used = used;
+	}
+	char *name = function_name(w, r);
+	if (is_differential(r)) {
+		char *drift = c_expr(w, &b, r->kind == RESULT_DIFFUSION ? expr_int(w->ctx, 0) : r->diff.dt);
+		xbuf_printf(&b.code, "\t*drift = %s;\n", drift);
+		free(drift);
+		for (size_t k = 0; k < r->diff.n; k++) {
+			char *text = c_expr(w, &b, r->diff.dw[k]);
+			xbuf_printf(&b.code, "\t*diffusion_%s = %s;\n", expr_sym_name(r->diff.noises[k]),
+			            text);
+			free(text);
+		}
+	} else {
+		char *text = c_expr(w, &b, r->value);
+		xbuf_printf(&b.code, "\treturn %s;\n", text);
+		free(text);
+	}
+	xbuf locals = {0};
+	let_locals(w, &b, &locals);
+	declare_calls(w, &b.calls, out);
+	char *place = result_place(r);
+	char *title = xasprintf("%s: %s%s%s%s", place, r->statement ? r->statement : "",
+	                        r->kind == RESULT_PDE ? " (left side of = 0)" : "",
+	                        r->measure ? " under " : "", r->measure ? r->measure : "");
+	comment(out, title);
+	free(title);
+	free(place);
+	xbuf_printf(out, "%s %s(", is_differential(r) ? "void" : "double", name);
+	arguments(w, out);
+	if (is_differential(r)) {
+		xbuf_put(out, ", double *drift");
+		for (size_t k = 0; k < r->diff.n; k++)
+			xbuf_printf(out, ", double *diffusion_%s", expr_sym_name(r->diff.noises[k]));
+	}
+	xbuf_printf(out, ")\n{\n%s%s}\n", locals.data ? locals.data : "", b.code.data);
+	xbuf_free(&locals);
+	xbuf_free(&b.code);
+	prn_c_calls_free(&b.calls);
+	free(used);
+	free(name);
+}
+
+static bool c_write(writer *w, const stmt_result *r, char **error)
+{
+	if (!w->state)
+		w->state = xcalloc(1, sizeof(c_state));
+	if (!names_free(w, r, error))
+		return false;
+	xbuf buf = {0};
+	if (!w->started)
+		xbuf_put(&buf,
+		         "/* C99 written by itox: each function takes t and the model's names (parameters,\n"
+		         " * states, function arguments, noises) in declaration order; a differential fills\n"
+		         " * *drift and one *diffusion_NOISE per noise.  It needs only <math.h>. */\n"
+		         "#include <math.h>\n\n");
+	char *place = result_place(r);
+	switch (r->kind) {
+	case RESULT_CLAIM: {
+		char *detail = writer_claim_detail(r, w->ctx);
+		char *text = xasprintf("%s: claim %s%s\n   %s", place, result_claim_verdict(r), detail,
+		                       r->statement ? r->statement : "");
+		comment(&buf, text);
+		free(text);
+		free(detail);
+		break;
+	}
+	case RESULT_CHECK: {
+		char *verdict = writer_check_verdict(r->check);
+		xbuf table = {0};
+		writer_check_table(w->ctx, r->check, &table);
+		char *text = xasprintf("%s: check %s\n%s", place, verdict, table.data);
+		xbuf_free(&table);
+		free(verdict);
+		size_t length = strlen(text);
+		while (length && text[length - 1] == '\n')
+			text[--length] = '\0';
+		comment(&buf, text);
+		free(text);
+		break;
+	}
+	case RESULT_MODEL: {
+		char *text = xasprintf("%s: the model\n%s", place, r->script ? r->script : "");
+		size_t length = strlen(text);
+		while (length && text[length - 1] == '\n')
+			text[--length] = '\0';
+		comment(&buf, text);
+		free(text);
+		break;
+	}
+	default:
+		function(w, r, &buf);
+		break;
+	}
+	free(place);
+	/* one blank line between results */
+	fputs(buf.data, w->out);
+	fputc('\n', w->out);
+	fflush(w->out);
+	xbuf_free(&buf);
+	return true;
+}
+
+static void c_free(writer *w)
+{
+	c_state *st = w->state;
+	if (!st)
+		return;
+	for (size_t i = 0; i < st->nfunctions; i++)
+		free(st->functions[i]);
+	for (size_t i = 0; i < st->ndeclared; i++)
+		free(st->declared[i]);
+	free(st->functions);
+	free(st->declared);
+	free(st);
+	w->state = NULL;
+}
+
+const writer_class writer_c = {.name = "c", .write = c_write, .free_state = c_free};

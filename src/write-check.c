@@ -1,0 +1,199 @@
+/* write-check.c - what the writers share of a check's report: its table for
+ * people (the text writer prints it, the LaTeX and C writers as comments),
+ * the names of its partials and the phrases of its reasons.  It reads only
+ * the check_result (crosscheck.h); nothing here decides anything.
+ */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "writer.h"
+
+/* f_S, f_SS for one-letter names; f_{S1}, f_{S1,S2} otherwise. */
+char *writer_check_fd_name(const check_fd_row *row)
+{
+	const char *a = expr_sym_name(row->first);
+	const char *b = row->second ? expr_sym_name(row->second) : "";
+	bool short_names = strlen(a) == 1 && strlen(b) <= 1;
+	return short_names ? xasprintf("f_%s%s", a, b)
+	       : *b        ? xasprintf("f_{%s,%s}", a, b)
+	                   : xasprintf("f_{%s}", a);
+}
+
+static const char *noise_name(const check_result *r, size_t a)
+{
+	return expr_sym_name(r->noises[a].name);
+}
+
+/* One reason of an inconsistent verdict, as a phrase. */
+static void put_reason(const check_result *r, const check_reason *why, xbuf *out)
+{
+	switch (why->kind) {
+	case CHECK_REASON_FD: {
+		char *name = writer_check_fd_name(&r->fd[why->index]);
+		xbuf_printf(out, "the finite difference of %s disagrees", name);
+		free(name);
+		break;
+	}
+	case CHECK_REASON_QV:
+		xbuf_put(out, "the quadratic variation disagrees with the diffusion");
+		break;
+	case CHECK_REASON_RESIDUAL:
+		xbuf_put(out, "the martingale residual is not zero (the drift)");
+		break;
+	case CHECK_REASON_COVARIATION: {
+		const char *name = noise_name(r, why->index);
+		xbuf_printf(out, "the covariation with %s disagrees with the d%s coefficient", name, name);
+		break;
+	}
+	case CHECK_REASON_BAD_PATHS:
+		xbuf_printf(out, "%ld of %ld paths (over 1%%) left the domain", r->sim.bad_paths,
+		            r->setup.paths);
+		break;
+	}
+}
+
+/* The reasons joined by "; " (the caller frees). */
+char *writer_check_reasons(const check_result *r)
+{
+	xbuf text = {0};
+	for (size_t i = 0; i < r->nreasons; i++) {
+		if (i)
+			xbuf_put(&text, "; ");
+		put_reason(r, &r->reasons[i], &text);
+	}
+	return xbuf_take(&text);
+}
+
+/* ------------------------------------------------------------------ the table */
+
+static void text_zstat(xbuf *out, const check_zstat *z)
+{
+	if (z->n < 2) {
+		xbuf_put(out, "n/a (too few valid paths)  <-- off\n");
+		return;
+	}
+	xbuf_printf(out, "%.6g (se %.3g, z = %.2f)%s\n", z->mean, z->se, z->z, z->ok ? "" : "  <-- off");
+}
+
+static void text_header(expr_ctx *ctx, const check_result *r, xbuf *out)
+{
+	const check_setup *s = &r->setup;
+	char *f = prn_expr(ctx, s->f, PRN_TEXT);
+	xbuf_printf(out, "check d(%s) at ", f);
+	free(f);
+	for (size_t i = 0; i < s->nvalues; i++)
+		xbuf_printf(out, "%s%s=%.10g", i ? ", " : "", expr_sym_name(s->symbols[i]), s->values[i]);
+	xbuf_printf(out, " (%s, T=%g, %ld steps, %ld paths, seed %lu)\n",
+	            s->milstein ? "Milstein" : "Euler-Maruyama", s->horizon, s->steps, s->paths, s->seed);
+	if (s->hand_derived) {
+		char *drift = prn_expr(ctx, s->drift, PRN_TEXT);
+		xbuf_printf(out, "  differential tested (by hand): drift %s", drift);
+		free(drift);
+		for (size_t a = 0; a < r->nnoise; a++) {
+			const expr *coefficient = r->noises[a].coefficient;
+			if (!coefficient || expr_is_zero(coefficient))
+				continue;
+			char *b = prn_expr(ctx, coefficient, PRN_TEXT);
+			xbuf_printf(out, "; d%s: %s", noise_name(r, a), b);
+			free(b);
+		}
+		xbuf_put(out, "\n");
+	}
+	if (s->note)
+		xbuf_printf(out, "  note: %s\n", s->note);
+}
+
+static void text_fd(const check_result *r, xbuf *out)
+{
+	if (r->setup.hand_derived) {
+		xbuf_put(out, "  finite differences: skipped (differential derived by hand)\n");
+		return;
+	}
+	if (r->nfd == 0)
+		xbuf_put(out, "  finite differences: none (f has no partial derivatives to check)\n");
+	else
+		xbuf_printf(out,
+		            "  finite differences (central; tolerance %g relative to max(1, |value|), "
+		            "plus rounding):\n"
+		            "    %-12s %-16s %-16s %s\n",
+		            r->setup.fd_tolerance, "partial", "engine", "difference", "rel. error");
+	for (size_t i = 0; i < r->nfd; i++) {
+		const check_fd_row *row = &r->fd[i];
+		char *name = writer_check_fd_name(row);
+		xbuf_printf(out, "    %-12s %-16.10g %-16.10g %.2g%s\n", name, row->engine, row->difference,
+		            row->error, row->ok ? "" : "  <-- off");
+		free(name);
+	}
+}
+
+static void text_sim(const check_result *r, xbuf *out)
+{
+	const check_simulation *sim = &r->sim;
+	if (sim->bad_paths)
+		xbuf_printf(
+		        out,
+		        "  warning: %ld of %ld paths gave NaN or Inf in f or its coefficients; left out\n",
+		        sim->bad_paths, r->setup.paths);
+	if (sim->truncated_paths)
+		xbuf_printf(out,
+		            "  note: full truncation used on %ld paths "
+		            "(a state assumed nonnegative went below 0)\n",
+		            sim->truncated_paths);
+	xbuf_printf(out, "  quadratic variation: mean QV = %.6g, predicted I = %.6g; mean(QV - I) = ",
+	            sim->qv_realised, sim->qv_predicted);
+	text_zstat(out, &sim->qv);
+	xbuf_put(out, "  martingale residual: mean(f(T) - f(0) - sum drift*dt - sum b*dW) = ");
+	text_zstat(out, &sim->residual);
+	for (size_t a = 0; a < r->nnoise; a++) {
+		const char *name = noise_name(r, a);
+		xbuf_printf(out, "  covariation with %s: mean(sum df*d%s - sum (rho b)*dt) = ", name, name);
+		text_zstat(out, &r->noises[a].covariation);
+	}
+	xbuf_printf(out, "  f at T: mean = %.8g (se %.3g)\n", sim->terminal.mean, sim->terminal.se);
+	if (sim->coarse_steps)
+		xbuf_printf(out,
+		            "  discretisation: O(dt) bias removed by extrapolation "
+		            "2*S(%ld steps) - S(%ld steps); fine-grid means: QV - I %.3g, residual %.3g\n",
+		            r->setup.steps, sim->coarse_steps, sim->qv.fine, sim->residual.fine);
+	else
+		xbuf_put(out, "  discretisation: one step, no extrapolation (bias of order dt remains)\n");
+}
+
+static void text_conv(const check_result *r, xbuf *out)
+{
+	xbuf_printf(out,
+	            "  convergence (%zu paths, one set of Brownian paths on every grid; "
+	            "QV -> I, first variation ~ sqrt(steps)):\n"
+	            "    %-7s %-12s %-12s %-12s %-14s %s\n",
+	            r->conv_paths, "steps", "mean QV", "mean I", "sd(QV - I)", "first var.",
+	            "first var./sqrt(steps)");
+	for (size_t i = 0; i < r->nconv; i++) {
+		const check_conv_row *row = &r->conv[i];
+		xbuf_printf(out, "    %-7ld %-12.6g %-12.6g %-12.4g %-14.6g %.4g\n", row->steps, row->qv,
+		            row->predicted, row->gap_sd, row->first_variation,
+		            row->first_variation / sqrt((double)row->steps));
+	}
+	if (r->conv_bad)
+		xbuf_printf(out, "    (%ld paths with NaN/Inf left out of the table)\n", r->conv_bad);
+}
+
+void writer_check_table(expr_ctx *ctx, const check_result *r, xbuf *out)
+{
+	text_header(ctx, r, out);
+	text_fd(r, out);
+	text_sim(r, out);
+	if (r->nconv)
+		text_conv(r, out);
+}
+
+char *writer_check_verdict(const check_result *r)
+{
+	if (r->consistent)
+		return xasprintf("consistent (tolerance |z| < %g%s)", r->setup.z_tolerance,
+		                 r->setup.hand_derived ? "" : ", finite differences within tolerance");
+	char *reasons = writer_check_reasons(r);
+	char *text = xasprintf("inconsistent: %s (tolerance |z| < %g)", reasons, r->setup.z_tolerance);
+	free(reasons);
+	return text;
+}

@@ -1,0 +1,292 @@
+/* write-latex.c - results as LaTeX.
+ *
+ * Each result is display-math content for \[ ... \] or an amsmath align
+ * (claims and checks, which are sentences, become % comments).  With
+ * --standalone the writer keeps every result and writes, at the end, one
+ * document: the model (SDEs, correlations, assumptions), then each result in
+ * order with its place, claims and checks as sentences with their verdicts.
+ */
+#include <stdlib.h>
+#include <string.h>
+
+#include "writer.h"
+
+typedef struct latex_state {
+	xbuf body; /* the results section of a standalone document */
+} latex_state;
+
+/* Text for \texttt{...}: LaTeX's special characters spelled out. */
+static void put_escaped(xbuf *buf, const char *text)
+{
+	for (const char *c = text; *c; c++) {
+		switch (*c) {
+		case '\\':
+			xbuf_put(buf, "\\textbackslash{}");
+			break;
+		case '{':
+		case '}':
+		case '$':
+		case '&':
+		case '#':
+		case '_':
+		case '%':
+			xbuf_putc(buf, '\\');
+			xbuf_putc(buf, *c);
+			break;
+		case '^':
+			xbuf_put(buf, "\\^{}");
+			break;
+		case '~':
+			xbuf_put(buf, "\\~{}");
+			break;
+		case '\n':
+			xbuf_putc(buf, ' ');
+			break;
+		default:
+			xbuf_putc(buf, *c);
+		}
+	}
+}
+
+static void sde_line(writer *w, const stmt_result *r, xbuf *buf)
+{
+	char *name = prn_latex_name(r->name, true);
+	char *body = writer_diff(r, w->ctx, PRN_LATEX);
+	xbuf_printf(buf, "\\mathrm{d}%s = %s", name, body);
+	free(name);
+	free(body);
+}
+
+/* The display-math form of a result that has one; false for sentences. */
+static bool math(writer *w, const stmt_result *r, xbuf *buf)
+{
+	char *text;
+	switch (r->kind) {
+	case RESULT_VALUE:
+	case RESULT_DRIFT:
+	case RESULT_GENERATOR:
+	case RESULT_QV:
+		text = writer_expr(r, w->ctx, r->value, PRN_LATEX);
+		xbuf_put(buf, text);
+		free(text);
+		return true;
+	case RESULT_DIFFERENTIAL:
+	case RESULT_DIFFUSION:
+	case RESULT_PRODUCT:
+		if (r->kind == RESULT_DIFFERENTIAL && r->of) {
+			char *label = writer_diff_label(w->ctx, r->of, PRN_LATEX);
+			xbuf_printf(buf, "%s = ", label);
+			free(label);
+		}
+		text = writer_diff(r, w->ctx, PRN_LATEX);
+		xbuf_put(buf, text);
+		free(text);
+		return true;
+	case RESULT_PDE:
+		/* a PDE is in the variables S, v, not in the processes S_t, v_t */
+		text = writer_expr(r, w->ctx, r->value, PRN_LATEX_PLAIN);
+		xbuf_printf(buf, "%s = 0", text);
+		free(text);
+		return true;
+	case RESULT_SDE:
+		sde_line(w, r, buf);
+		return true;
+	case RESULT_MODEL:
+		for (size_t i = 0; i < r->nsdes; i++) {
+			if (i)
+				xbuf_put(buf, w->standalone ? " \\\\\n" : "\n");
+			sde_line(w, &r->sdes[i], buf);
+		}
+		return r->nsdes > 0;
+	case RESULT_CLAIM:
+	case RESULT_CHECK:
+		return false;
+	}
+	return false;
+}
+
+/* A claim's or check's verdict: "holds (exact)", "consistent". New string. */
+static char *verdict(writer *w, const stmt_result *r)
+{
+	if (r->kind == RESULT_CLAIM) {
+		char *detail = writer_claim_detail(r, w->ctx);
+		char *text = xasprintf("%s%s", result_claim_verdict(r), detail);
+		free(detail);
+		return text;
+	}
+	return writer_check_verdict(r->check);
+}
+
+/* Plain LaTeX output: the verdict as % comments (the check's table too). */
+static void comment(writer *w, const stmt_result *r, xbuf *buf)
+{
+	char *place = result_place(r);
+	char *text = verdict(w, r);
+	xbuf_printf(buf, "%% %s: %s %s", place, r->kind == RESULT_CLAIM ? "claim" : "check", text);
+	free(text);
+	free(place);
+	if (r->kind != RESULT_CHECK)
+		return;
+	xbuf table = {0};
+	writer_check_table(w->ctx, r->check, &table);
+	for (const char *line = table.data; line && *line;) {
+		const char *end = strchr(line, '\n');
+		size_t length = end ? (size_t)(end - line) : strlen(line);
+		xbuf_printf(buf, "\n%% %.*s", (int)length, line);
+		line += length + (end != NULL);
+	}
+	xbuf_free(&table);
+}
+
+/* A standalone document: "the claim \texttt{...} holds (exact)." */
+static void sentence(writer *w, const stmt_result *r, xbuf *buf)
+{
+	char *text = verdict(w, r);
+	xbuf_printf(buf, "the %s \\texttt{", r->kind == RESULT_CLAIM ? "claim" : "check");
+	put_escaped(buf, r->statement ? r->statement : "");
+	xbuf_put(buf, r->kind == RESULT_CLAIM ? "} " : "} is ");
+	put_escaped(buf, text);
+	xbuf_put(buf, ".\n");
+	free(text);
+}
+
+static bool latex_write(writer *w, const stmt_result *r, char **error)
+{
+	(void)error;
+	xbuf buf = {0};
+	if (!w->standalone) {
+		if (!math(w, r, &buf))
+			comment(w, r, &buf);
+		if (buf.length)
+			writer_line(w, buf.data);
+		xbuf_free(&buf);
+		return true;
+	}
+	latex_state *st = w->state;
+	if (!st)
+		st = w->state = xcalloc(1, sizeof *st);
+	char *place = result_place(r);
+	xbuf_put(&st->body, "\\noindent ");
+	put_escaped(&st->body, place);
+	free(place);
+	if (math(w, r, &buf)) {
+		xbuf_put(&st->body, ": \\texttt{");
+		put_escaped(&st->body, r->statement ? r->statement : "");
+		xbuf_printf(&st->body, "}\n\\begin{align*}\n%s\n\\end{align*}\n\n", buf.data);
+	} else {
+		xbuf_put(&st->body, ": ");
+		sentence(w, r, &st->body);
+		xbuf_putc(&st->body, '\n');
+	}
+	xbuf_free(&buf);
+	return true;
+}
+
+/* "x > 0", "\rho \in [-1, 1]" */
+static void assumption(writer *w, const model_entry *e, xbuf *buf)
+{
+	char *name = prn_latex_name(e->name, false);
+	char *lo = e->lo ? prn_expr(w->ctx, e->lo, PRN_LATEX_PLAIN) : NULL;
+	char *hi = e->hi ? prn_expr(w->ctx, e->hi, PRN_LATEX_PLAIN) : NULL;
+	if (lo && hi && !e->lo_strict && !e->hi_strict)
+		xbuf_printf(buf, "$%s \\in [%s, %s]$", name, lo, hi);
+	else if (lo && hi)
+		xbuf_printf(buf, "$%s %s %s %s %s$", lo, e->lo_strict ? "<" : "\\le", name,
+		            e->hi_strict ? "<" : "\\le", hi);
+	else if (lo)
+		xbuf_printf(buf, "$%s %s %s$", name, e->lo_strict ? ">" : "\\ge", lo);
+	else
+		xbuf_printf(buf, "$%s %s %s$", name, e->hi_strict ? "<" : "\\le", hi);
+	free(name);
+	free(lo);
+	free(hi);
+}
+
+static void model_section(writer *w, xbuf *doc)
+{
+	const model *m = w->model;
+	xbuf_put(doc, "\\section*{Model}\n");
+	if (m->nsdes) {
+		xbuf_put(doc, "\\begin{align*}\n");
+		for (size_t i = 0; i < m->nsdes; i++) {
+			const model_sde *sde = &m->sdes[i];
+			stmt_result r = {.kind = RESULT_SDE,
+			                 .name = expr_sym_name(sde->state),
+			                 .diff = {.dt = sde->drift,
+			                          .dw = sde->diffusion,
+			                          .noises = m->noises,
+			                          .n = sde->ndiffusion,
+			                          .stratonovich = sde->stratonovich}};
+			sde_line(w, &r, doc);
+			xbuf_put(doc, i + 1 < m->nsdes ? " \\\\\n" : "\n");
+		}
+		xbuf_put(doc, "\\end{align*}\n");
+		bool strat = false;
+		for (size_t i = 0; i < m->nsdes; i++)
+			strat |= m->sdes[i].stratonovich;
+		if (strat)
+			xbuf_put(doc, "Increments written $\\circ\\,\\mathrm{d}W$ are in the Stratonovich "
+			              "sense.\n\n");
+	}
+	bool any = false;
+	for (size_t i = 0; i < m->nnoises; i++)
+		for (size_t j = i + 1; j < m->nnoises; j++) {
+			const expr *rho = model_corr(m, i, j);
+			if (expr_is_zero(rho))
+				continue;
+			char *a = prn_latex_name(expr_sym_name(m->noises[i]), true);
+			char *b = prn_latex_name(expr_sym_name(m->noises[j]), true);
+			char *value = prn_expr(w->ctx, rho, PRN_LATEX_PLAIN);
+			xbuf_printf(doc, "%s$\\mathrm{d}%s\\,\\mathrm{d}%s = %s\\,\\mathrm{d}t$",
+			            any ? ", " : "Correlations: ", a, b, value);
+			free(a);
+			free(b);
+			free(value);
+			any = true;
+		}
+	if (any)
+		xbuf_put(doc, ".\n\n");
+	any = false;
+	for (size_t i = 0; i < m->nentries; i++) {
+		const model_entry *e = &m->entries[i];
+		if (!e->lo && !e->hi)
+			continue;
+		xbuf_put(doc, any ? ", " : "Assumptions: ");
+		assumption(w, e, doc);
+		any = true;
+	}
+	if (any)
+		xbuf_put(doc, ".\n\n");
+}
+
+static void latex_finish(writer *w)
+{
+	if (!w->standalone)
+		return;
+	latex_state *st = w->state;
+	xbuf doc = {0};
+	xbuf_put(&doc, "\\documentclass{article}\n\\usepackage{amsmath}\n\\usepackage[T1]{fontenc}\n"
+	               "\\allowdisplaybreaks\n\\begin{document}\n");
+	model_section(w, &doc);
+	xbuf_put(&doc, "\\section*{Results}\n");
+	if (st && st->body.length)
+		xbuf_put(&doc, st->body.data);
+	xbuf_put(&doc, "\\medskip\\noindent\\small These results are mathematics about the stated model, not "
+	               "advice: its assumptions must be validated and the results reviewed under your own "
+	               "model-risk policy before they are used to price or hedge anything.\n\\end{document}");
+	writer_line(w, doc.data);
+	xbuf_free(&doc);
+}
+
+static void latex_free(writer *w)
+{
+	latex_state *st = w->state;
+	if (!st)
+		return;
+	xbuf_free(&st->body);
+	free(st);
+	w->state = NULL;
+}
+
+const writer_class writer_latex = {
+        .name = "latex", .write = latex_write, .finish = latex_finish, .free_state = latex_free};

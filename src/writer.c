@@ -1,0 +1,135 @@
+/* writer.c - the writer interface and what the four writers share. */
+#include "writer.h"
+
+#include <stdlib.h>
+#include <string.h>
+
+writer *writer_new(const writer_class *cls, FILE *out, expr_ctx *ctx, const model *m, bool standalone)
+{
+	writer *w = xcalloc(1, sizeof *w);
+	w->cls = cls;
+	w->out = out;
+	w->ctx = ctx;
+	w->model = m;
+	w->standalone = standalone;
+	return w;
+}
+
+bool writer_write(writer *w, const stmt_result *r, char **error)
+{
+	*error = NULL;
+	bool ok = w->cls->write(w, r, error);
+	w->started = true;
+	return ok;
+}
+
+void writer_finish(writer *w)
+{
+	if (w && w->cls->finish)
+		w->cls->finish(w);
+}
+
+void writer_free(writer *w)
+{
+	if (!w)
+		return;
+	if (w->cls->free_state)
+		w->cls->free_state(w);
+	free(w);
+}
+
+void writer_line(writer *w, const char *text)
+{
+	fputs(text, w->out);
+	fputc('\n', w->out);
+	fflush(w->out);
+}
+
+char *writer_expr(const stmt_result *r, expr_ctx *ctx, const expr *e, prn_format format)
+{
+	return prn_expr_abbrev(ctx, e, format, format == PRN_C ? NULL : r->abbrev);
+}
+
+char *writer_diff(const stmt_result *r, expr_ctx *ctx, prn_format format)
+{
+	return prn_differential(ctx, &r->diff, format, r->abbrev);
+}
+
+char *result_place(const stmt_result *r)
+{
+	return xasprintf("%s:%d", r->origin ? r->origin : "<input>", r->line);
+}
+
+const char *result_claim_verdict(const stmt_result *r)
+{
+	switch (r->claim->verdict) {
+	case VERIFY_HOLDS:
+		return "holds";
+	case VERIFY_FAILS:
+		return "fails";
+	default:
+		return "undecided";
+	}
+}
+
+char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx)
+{
+	const verify_result *c = r->claim;
+	if (c->holds && c->method == VERIFY_EXACT)
+		return xstrdup(" (exact)");
+	if (c->holds)
+		return xasprintf(" (numeric: %zu points, max relative difference %.2g)", c->points,
+		                 c->max_relative);
+	xbuf buf = {0};
+	const char *part = "the sides differ";
+	char *named = NULL;
+	if (c->part >= 0 && r->diff.noises) {
+		if (c->part == 0)
+			part = "the dt part differs";
+		else
+			part = named =
+			        xasprintf("the d%s part differs", expr_sym_name(r->diff.noises[c->part - 1]));
+	} else if (c->part >= 0) {
+		part = "the two sides differ";
+	}
+	char *difference = c->difference ? prn_expr(ctx, c->difference, PRN_TEXT) : xstrdup("?");
+	if (c->verdict == VERIFY_UNDECIDED)
+		xbuf_printf(&buf, ": %s (%s in form by %s)", c->reason, part, difference);
+	else
+		xbuf_printf(&buf, ": %s by %s", part, difference);
+	if (c->point_text)
+		xbuf_printf(&buf, "; at %s", c->point_text);
+	free(difference);
+	free(named);
+	return xbuf_take(&buf);
+}
+
+char *writer_diff_label(expr_ctx *ctx, const expr *of, prn_format format)
+{
+	bool latex = format == PRN_LATEX;
+	char *body = prn_expr(ctx, of, format);
+	if (prn_fapp_declared(of)) {
+		/* d(g(t, S, v)), not d(g): name the arguments on the left of a differential */
+		xbuf named = {0};
+		xbuf_put(&named, body);
+		xbuf_put(&named, latex ? "\\left(" : "(");
+		for (size_t i = 0; i < expr_nops(of); i++) {
+			char *arg = prn_expr(ctx, expr_op(of, i), format);
+			xbuf_printf(&named, "%s%s", i ? ", " : "", arg);
+			free(arg);
+		}
+		xbuf_put(&named, latex ? "\\right)" : ")");
+		free(body);
+		body = xbuf_take(&named);
+	}
+	char *label;
+	bool symbol = expr_kind_of(of) == EXPR_SYM;
+	if (latex) {
+		bool plain = symbol || expr_kind_of(of) == EXPR_FUN;
+		label = xasprintf(plain ? "\\mathrm{d}%s" : "\\mathrm{d}\\left(%s\\right)", body);
+	} else {
+		label = xasprintf(symbol ? "d%s" : "d(%s)", body);
+	}
+	free(body);
+	return label;
+}
