@@ -267,7 +267,7 @@ class Gen:
 			return self.pick([(6, self.state), (1, self._param), (1, self.discount)])()
 		kind = self.pick([(4, "state"), (2, "prod"), (2, "quot"), (2, "rpow"), (1.5, "ipow"),
 		                  (2, "disc"), (1.5, "exp"), (1, "sqrt"), (1.5, "Phi"), (1, "plus"),
-		                  (0.5, "phi")])
+		                  (0.5, "phi"), (1.5, "fracexp")])
 		if kind == "state":
 			return self.state()
 		if kind == "disc":
@@ -300,6 +300,8 @@ class Gen:
 				return ("exp(-%s*%s)" % (t, st[0]), sympy.exp(-e * st[1]), 5)
 			t, e, _ = self.expr(depth - 1)
 			return ("exp((%s)/4)" % t, sympy.exp(e / 4), 5)
+		if kind == "fracexp":
+			return self.fraction_exponent(depth)
 		if kind == "sqrt":
 			t, e, _ = self.pos(depth - 1)
 			return ("sqrt(%s)" % t, sympy.sqrt(e), 5)
@@ -313,6 +315,31 @@ class Gen:
 		p1, e1 = self.wrap(self.pos(depth - 1), 1)
 		p2, e2 = self.wrap(self.pos(depth - 1), 2)
 		return ("%s + %s" % (p1, p2), e1 + e2, 1)
+
+	def fraction_exponent(self, depth):
+		"""Exponents that are quotients (written inline in LaTeX, v^{3/2}, so a sum
+		above the bar needs its brackets): exp(-(a + b)*t/2), exp((X - Y)/4),
+		X^(a/(a + b)), V^((a - b)/3)."""
+		kind = self.rng.randrange(4)
+		if kind == 0:
+			t, e = self.psum()
+			n = self.rng.choice([2, 3, 4])
+			return ("exp(-%s*t/%d)" % (t, n), sympy.exp(-e * S["t"] / n), 5)
+		if kind == 1:
+			t1, e1 = self.wrap(self.expr(max(0, depth - 2)), 1)
+			t2, e2 = self.wrap(self.expr(max(0, depth - 2)), 3)
+			op = self.rng.choice(["+", "-"])
+			n = self.rng.choice([2, 3, 4])
+			num = e1 + e2 if op == "+" else e1 - e2
+			return ("exp((%s %s %s)/%d)" % (t1, op, t2, n), sympy.exp(num / n), 5)
+		st = self.state()
+		if kind == 2:
+			p = self._param()
+			t, e = self.psum()
+			return ("%s^(%s/%s)" % (st[0], p[0], t), st[1] ** (p[1] / e), 4)
+		p1, p2 = self.rng.sample(self.PARAM_POOL, 2)
+		n = self.rng.choice([2, 3])
+		return ("%s^((%s - %s)/%d)" % (st[0], p1, p2, n), st[1] ** ((S[p1] - S[p2]) / n), 4)
 
 	def _param(self):
 		n = self.rng.choice(self.PARAM_POOL + ["L"])
@@ -386,6 +413,10 @@ PROBES = [
 	("-(a + b)*exp(-(r + h)*t)*Y^2", -(S["a"] + S["b"]) * sympy.exp(-(S["r"] + S["h"]) * S["t"]) * S["Y"] ** 2),
 	("exp(-(r + h)*t)*Phi(-(a + b)*X)", sympy.exp(-(S["r"] + S["h"]) * S["t"]) *
 	 Phi_sympy(-(S["a"] + S["b"]) * S["X"])),
+	("exp((X - Y)/4)", sympy.exp((S["X"] - S["Y"]) / 4)),
+	("exp(-(a + b)*t/2)*X", sympy.exp(-(S["a"] + S["b"]) * S["t"] / 2) * S["X"]),
+	("X^(a/(a + b))", S["X"] ** (S["a"] / (S["a"] + S["b"]))),
+	("V^((k - m)/3)", S["V"] ** ((S["k"] - S["m"]) / 3)),
 ]
 
 
@@ -816,6 +847,13 @@ def json_components(item, obj):
 		raise ValueError("kind %r, expected %r" % (obj.get("kind"), kind))
 	if obj.get("measure") != item.measure:
 		raise ValueError("measure %r, expected %r" % (obj.get("measure"), item.measure))
+	# where a result says it came from, it must be its own statement (common practice)
+	if "line" in obj and obj["line"] != item.line:
+		raise ValueError("line %r, the statement is on line %d" % (obj["line"], item.line))
+	# (the echo of `d EXPR under Q` may leave out its `under Q`: "measure" says it)
+	if "statement" in obj and obj["statement"] not in (item.statement,
+	                                                  item.statement.replace(" under Q", "")):
+		raise ValueError("statement %r, expected %r" % (obj["statement"], item.statement))
 	got = {"drift": text_value(obj["drift"])}
 	if item.kind == "sde":
 		if obj.get("state") != item.state or obj.get("convention") != item.convention:
@@ -1554,8 +1592,17 @@ def save_load(model_script, items, workdir, tag):
 	status2, second, err2, _ = run("load %s\n" % path + queries, "json")
 	if status2 != 0:
 		return False, "load failed (status %s): %s" % (status2, err2.strip()[:500])
-	a = [l for l in first.splitlines() if l.strip()]
-	b = [l for l in second.splitlines() if l.strip()]
+	def results(text):
+		"""The results without where their statements were (line, origin)."""
+		out = []
+		for l in text.splitlines():
+			if l.strip():
+				obj = json.loads(l)
+				obj.pop("line", None)
+				obj.pop("origin", None)
+				out.append(json.dumps(obj, ensure_ascii=False))
+		return out
+	a, b = results(first), results(second)
 	if a != b:
 		for x, y in zip(a, b):
 			if x != y:
