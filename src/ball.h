@@ -97,7 +97,8 @@ typedef struct ball_verdict {
 void ball_verdict_clear(ball_verdict *verdict); /* frees the texts */
 
 /* A claim lhs = rhs compiled once for many points; difference is its canonical
- * lhs - rhs (a second enclosure of the same number) or NULL. */
+ * lhs - rhs (a second enclosure of the same number) or NULL.  NULL (and *bad) when
+ * a side is NULL or an atom of it has no value. */
 typedef struct ball_claim ball_claim;
 ball_claim *ball_claim_new(expr_ctx *ctx, const expr *difference, const expr *lhs, const expr *rhs,
                            size_t natoms, const expr *const *atoms, const expr **bad);
