@@ -4,7 +4,8 @@
  * expression at the point.  Symbols and generic partials (EXPR_SYM, EXPR_FAPP)
  * are atoms: independent variables whose values the caller gives.
  *
- * Domains (one convention, shared with the rest of itox):
+ * Domains (the one convention for itox; the simplifier and the double evaluator
+ * of eval.h do not apply it yet: pow() there is NaN for a negative base):
  *   log x                  x > 0
  *   x^n, n integer         any x when n > 0; x != 0 when n < 0
  *   x^(p/q), q > 1 odd     the real root: x^(p/q) = (real q-th root of x)^p for
