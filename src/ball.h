@@ -1,0 +1,115 @@
+/* ball.h - certified evaluation of expressions in ball arithmetic (Arb).
+ *
+ * A value is a ball [m +/- r] that certainly contains the exact value of the
+ * expression at the point.  Symbols and generic partials (EXPR_SYM, EXPR_FAPP)
+ * are atoms: independent variables whose values the caller gives.
+ *
+ * Domains (the one convention for itox; the simplifier and the double evaluator
+ * of eval.h do not apply it yet: pow() there is NaN for a negative base):
+ *   log x                  x > 0
+ *   x^n, n integer         any x when n > 0; x != 0 when n < 0
+ *   x^(p/q), q > 1 odd     the real root: x^(p/q) = (real q-th root of x)^p for
+ *                          every real x, so (-8)^(1/3) = -2 and (-8)^(2/3) = 4;
+ *                          x != 0 when p < 0
+ *   x^(p/q), q even        x >= 0 (x > 0 when p < 0); undefined for x < 0
+ *   a^b, b not a number    exp(b log a), a > 0 only
+ *   tan x                  cos x != 0
+ *   exp sin cos sinh cosh tanh erf Phi phi abs: every real x, with
+ *   Phi(x) = erfc(-x/sqrt 2)/2 and phi(x) = exp(-x^2/2)/sqrt(2 pi).
+ * A ball certainly outside the domain makes the value BALL_UNDEFINED; a ball
+ * that straddles a boundary of it (or a result that is not finite) makes it
+ * BALL_UNKNOWN, which more precision may resolve.
+ */
+#ifndef ITOX_BALL_H
+#define ITOX_BALL_H
+
+#include <arb.h>
+#include <gmp.h>
+#include <stddef.h>
+
+#include "expr.h"
+
+typedef enum ball_status {
+	BALL_OK,        /* a finite ball containing the value */
+	BALL_UNDEFINED, /* certainly outside the domain (log of a ball <= 0, 1/0, ...) */
+	BALL_UNKNOWN,   /* the ball straddles a domain boundary: more precision may decide */
+	BALL_FAILED,    /* not evaluated: an atom without a value, or interrupted (or another
+	                 * error already in the context: expr_error) */
+} ball_status;
+
+/* Expressions compiled to a list of nodes in dependency order; a node shared
+ * by several roots or operands is evaluated once per run. */
+typedef struct ball_prog ball_prog;
+
+/* Compile roots over atoms; NULL (and *bad, if given, the node) when a symbol or
+ * generic partial in a root is not among the atoms. */
+ball_prog *ball_compile(expr_ctx *ctx, size_t nroots, const expr *const *roots, size_t natoms,
+                        const expr *const *atoms, const expr **bad);
+void ball_free(ball_prog *prog);
+/* Evaluate every root at prec bits with atom i = values[i] (balls); out[r] and
+ * status[r] per root.  BALL_FAILED (statuses unset) when interrupted. */
+ball_status ball_run(ball_prog *prog, arb_srcptr values, slong prec, arb_ptr out, ball_status *status);
+
+/* x := the rational q, rounded to prec bits (exact when q is a dyadic that fits). */
+void ball_set_mpq(arb_t x, const mpq_t q, slong prec);
+
+/* e at the exact rational point atom i = values[i], at prec bits (compiles each time). */
+ball_status ball_eval(expr_ctx *ctx, const expr *e, size_t natoms, const expr *const *atoms,
+                      const mpq_t *values, slong prec, arb_t out);
+
+/* --- is lhs - rhs zero at a point? --- */
+
+/* The precisions tried in turn are 64, 256, 1024 and BALL_MAX_PRECISION bits.  A
+ * difference whose ball contains 0 with radius <= 2^-BALL_ZERO_BITS * scale is zero
+ * within its bound, where the scale is max(|lhs|, |rhs|) when a side is certainly
+ * nonzero, else the largest magnitude of a top-level term of lhs, rhs and the
+ * difference (see ball.c). */
+#define BALL_MAX_PRECISION 4096
+#define BALL_ZERO_BITS     54
+
+typedef enum ball_decision {
+	BALL_NONZERO,           /* the difference's ball excludes 0, both sides defined: a counterexample */
+	BALL_ZERO_WITHIN_BOUND, /* zero within the bound at some precision */
+	BALL_UNDECIDED,         /* see the reason */
+} ball_decision;
+
+/* Why undecided: id and message. */
+#define BALL_REASONS(X)                                                                                      \
+	X(NONE, "decided")                                                                                   \
+	X(UNDEFINED, "a side is undefined at the point")                                                     \
+	X(UNKNOWN, "a side is at the boundary of its domain at the point, even at the largest precision")    \
+	X(CANCELLATION, "the difference contains 0 but is not within its bound at the largest precision")    \
+	X(UNBOUND, "a symbol or a partial derivative has no value at the point")                             \
+	X(INCONSISTENT, "the canonical difference disagrees with the two sides at the point")                \
+	X(INTERRUPTED, "interrupted")
+typedef enum ball_reason {
+#define BALL_REASON_ENUM(id, message) BALL_REASON_##id,
+	BALL_REASONS(BALL_REASON_ENUM)
+#undef BALL_REASON_ENUM
+} ball_reason;
+const char *ball_reason_message(ball_reason reason); /* static text */
+
+typedef struct ball_verdict {
+	ball_decision decision;
+	ball_reason reason;                          /* BALL_REASON_NONE when decided */
+	slong bits;                                  /* the last precision tried */
+	char *lhs_text, *rhs_text, *difference_text; /* BALL_NONZERO: decimal values, else NULL */
+} ball_verdict;
+void ball_verdict_clear(ball_verdict *verdict); /* frees the texts */
+
+/* A claim lhs = rhs compiled once for many points; difference is its canonical
+ * lhs - rhs (a second enclosure of the same number) or NULL.  NULL (and *bad) when
+ * a side is NULL or an atom of it has no value. */
+typedef struct ball_claim ball_claim;
+ball_claim *ball_claim_new(expr_ctx *ctx, const expr *difference, const expr *lhs, const expr *rhs,
+                           size_t natoms, const expr *const *atoms, const expr **bad);
+void ball_claim_free(ball_claim *claim);
+/* Decide at the point atom i = values[i], raising the precision until decided. */
+ball_decision ball_claim_decide(ball_claim *claim, const mpq_t *values, ball_verdict *out);
+
+/* ball_claim_new + ball_claim_decide + ball_claim_free for one point. */
+ball_decision ball_compare_zero(expr_ctx *ctx, const expr *difference, const expr *lhs, const expr *rhs,
+                                size_t natoms, const expr *const *atoms, const mpq_t *values,
+                                ball_verdict *out);
+
+#endif
