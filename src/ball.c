@@ -629,7 +629,8 @@ void ball_claim_free(ball_claim *claim)
  * the ball does not determine them: arb_get_str prints only correct digits). */
 static char *ball_text(const arb_t x, slong digits)
 {
-	char *text = arb_get_str(x, digits, 0);
+	/* no radius: the digits printed are correct (a counterexample reads as numbers) */
+	char *text = arb_get_str(x, digits, ARB_STR_NO_RADIUS);
 	char *copy = xstrdup(text);
 	flint_free(text);
 	return copy;
@@ -660,9 +661,9 @@ static void refute(ball_verdict *out, const arb_t lhs, const arb_t rhs, const ar
 	if (rsize > size)
 		size = rsize;
 	slong bits = size - magnitude_bits(d, true);
-	slong digits = 6 + (slong)((double)bits * 0.30103);
+	slong digits = 4 + (slong)((double)bits * 0.30103);
 	slong most = 2 + (slong)((double)prec * 0.30103);
-	digits = digits < 17 ? 17 : digits > most ? most : digits;
+	digits = digits < 10 ? 10 : digits > most ? most : digits;
 	out->decision = BALL_NONZERO;
 	out->lhs_text = ball_text(lhs, digits);
 	out->rhs_text = ball_text(rhs, digits);

@@ -4,8 +4,8 @@
  * expression at the point.  Symbols and generic partials (EXPR_SYM, EXPR_FAPP)
  * are atoms: independent variables whose values the caller gives.
  *
- * Domains (the one convention for itox; the simplifier and the double evaluator
- * of eval.h do not apply it yet: pow() there is NaN for a negative base):
+ * Domains (the one convention of itox, stated in expr.h; the simplifier and the
+ * double evaluator of eval.h apply it too):
  *   log x                  x > 0
  *   x^n, n integer         any x when n > 0; x != 0 when n < 0
  *   x^(p/q), q > 1 odd     the real root: x^(p/q) = (real q-th root of x)^p for

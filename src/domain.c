@@ -32,6 +32,7 @@ struct domain {
 	size_t n, cap;
 	double *values; /* the current point as doubles, for bounds */
 	sim_rng rng;
+	unsigned long draws; /* points drawn so far: the first ones stay near 1 */
 };
 
 static model_entry *entry_of(model *m, const expr *e)
@@ -147,9 +148,14 @@ static double scale(domain *d, double lo, double hi)
 	return pow(10.0, lo + (hi - lo) * sim_uniform(&d->rng));
 }
 
-/* A magnitude: mostly within 1e-4 .. 1e4, sometimes far out. */
+enum { DOMAIN_NEAR_ONE = 30 };
+
+/* A magnitude: the first points within 0.1 .. 10 (a counterexample there reads
+ * well), then mostly within 1e-4 .. 1e4 and sometimes far out. */
 static double magnitude(domain *d)
 {
+	if (d->draws < DOMAIN_NEAR_ONE)
+		return scale(d, -1, 1);
 	return sim_uniform(&d->rng) < 0.85 ? scale(d, -4, 4) : scale(d, -12, 12);
 }
 
@@ -161,7 +167,9 @@ static double above(domain *d, double lo, bool strict)
 	double u = sim_uniform(&d->rng);
 	if (!strict && u < 0.03)
 		return lo;
-	double offset = u < 0.2 ? s * scale(d, -9, -3) : s * scale(d, -4, 3);
+	double offset = d->draws < DOMAIN_NEAR_ONE ? s * scale(d, -1, 1)
+			: u < 0.2			   ? s * scale(d, -9, -3)
+							   : s * scale(d, -4, 3);
 	double x = lo + offset;
 	return x > lo || !strict ? x : nextafter(lo, INFINITY);
 }
@@ -246,6 +254,7 @@ static bool inside(domain *d)
 
 bool domain_draw(domain *d, mpq_t *values)
 {
+	d->draws++;
 	for (int attempt = 0; attempt < DOMAIN_TRIES; attempt++) {
 		for (size_t i = 0; i < d->n; i++)
 			d->atoms[i].drawn = false;

@@ -4,6 +4,8 @@
  */
 #include "expr-internal.h"
 
+#include <math.h>
+
 #include "rat.h"
 
 /* Sign of a product of two quantities given their possible-sign flags. */
@@ -34,10 +36,111 @@ static int sign_of_power(expr_ctx *ctx, const expr *base, const expr *exponent)
 			result &= ~EXPR_SIGN_ZERO;
 		return result ? result : EXPR_SIGN_POS;
 	}
-	/* x^f for non-integer f is real only for x >= 0 */
+	/* x^(p/q) with q odd is the real root (the convention of expr.h): the sign
+	 * of x for odd p, >= 0 for even p; with q even it is real only for x >= 0 */
+	bool odd_root = mpz_odd_p(mpq_denref(e));
+	if (odd_root && mpz_odd_p(mpq_numref(e)))
+		return mpq_sgn(e) < 0 ? (b & ~EXPR_SIGN_ZERO) ? (b & ~EXPR_SIGN_ZERO) : EXPR_SIGN_POS : b;
+	if (odd_root && (b & EXPR_SIGN_NEG) && !(b & EXPR_SIGN_ZERO) && mpq_sgn(e) > 0)
+		return EXPR_SIGN_POS;
 	if (mpq_sgn(e) < 0 || !(b & EXPR_SIGN_ZERO))
 		return EXPR_SIGN_POS;
 	return EXPR_SIGN_NONNEG;
+}
+
+/* An interval [lo, hi] with open or closed ends, for sums of bounded terms. */
+typedef struct bounds {
+	double lo, hi;
+	bool lo_open, hi_open;
+} bounds;
+
+/* The values a function of one argument can take (false when unbounded in
+ * a way the sign flags already say). */
+static bool function_bounds(expr_builtin fn, bounds *b)
+{
+	switch (fn) {
+	case EXPR_F_NCDF: /* Phi: (0, 1) */
+		*b = (bounds){0, 1, true, true};
+		return true;
+	case EXPR_F_NPDF: /* phi: (0, 1/sqrt(2 pi)], 1/sqrt(2 pi) < 0.4 */
+		*b = (bounds){0, 0.4, true, false};
+		return true;
+	case EXPR_F_ERF:
+	case EXPR_F_TANH: /* (-1, 1) */
+		*b = (bounds){-1, 1, true, true};
+		return true;
+	case EXPR_F_SIN:
+	case EXPR_F_COS: /* [-1, 1] */
+		*b = (bounds){-1, 1, false, false};
+		return true;
+	default:
+		return false;
+	}
+}
+
+/* Bounds of a term c*f(u)^k (f bounded, k = 1 or 2) or of a term whose
+ * sign is known; false otherwise. */
+static bool term_bounds(expr_ctx *ctx, const expr *t, bounds *b)
+{
+	if (t->kind == EXPR_NUM) {
+		double v = mpq_get_d(t->u.num);
+		*b = (bounds){v, v, false, false};
+		return true;
+	}
+	const expr *f = t;
+	double c = 1;
+	long k = 1;
+	if (t->kind == EXPR_MUL && t->nops == 1 && t->u.mul.exps[0]->kind == EXPR_NUM &&
+	    (mpq_cmp_ui(t->u.mul.exps[0]->u.num, 1, 1) == 0 || mpq_cmp_ui(t->u.mul.exps[0]->u.num, 2, 1) == 0)) {
+		c = mpq_get_d(t->u.mul.coef);
+		k = mpz_get_si(mpq_numref(t->u.mul.exps[0]->u.num));
+		f = t->u.mul.bases[0];
+	}
+	bounds fb;
+	if (f->kind == EXPR_FUN && function_bounds(f->u.fun.fn, &fb)) {
+		if (k == 2) { /* f^2 in [0, max(lo^2, hi^2)] */
+			double top = fmax(fb.lo * fb.lo, fb.hi * fb.hi);
+			bool top_open = fb.lo * fb.lo > fb.hi * fb.hi ? fb.lo_open : fb.hi_open;
+			fb = (bounds){0, top, fb.lo < 0 && fb.hi > 0 ? false : fb.lo_open, top_open};
+		}
+		*b = c > 0 ? (bounds){c * fb.lo, c * fb.hi, fb.lo_open, fb.hi_open}
+			   : (bounds){c * fb.hi, c * fb.lo, fb.hi_open, fb.lo_open};
+		return true;
+	}
+	int s = expr_sign(ctx, t);
+	if (s == EXPR_SIGN_POS)
+		*b = (bounds){0, INFINITY, true, true};
+	else if (s == EXPR_SIGN_NONNEG)
+		*b = (bounds){0, INFINITY, false, true};
+	else if (s == EXPR_SIGN_NEG)
+		*b = (bounds){-INFINITY, 0, true, true};
+	else if (s == EXPR_SIGN_NONPOS)
+		*b = (bounds){-INFINITY, 0, true, false};
+	else
+		return false;
+	return true;
+}
+
+/* The sign of a sum from bounds of its terms: 1 - Phi(x) > 0, 2 + sin(x) > 0.
+ * The bounds are doubles: a margin keeps rounding from deciding a sign. */
+static int sum_sign_by_bounds(expr_ctx *ctx, const expr *e)
+{
+	bounds total = {0, 0, false, false};
+	for (size_t i = 0; i < e->nops; i++) {
+		bounds b;
+		if (!term_bounds(ctx, e->u.add.terms[i], &b))
+			return EXPR_SIGN_UNKNOWN;
+		total.lo += b.lo;
+		total.hi += b.hi;
+		total.lo_open |= b.lo_open;
+		total.hi_open |= b.hi_open;
+	}
+	double margin = 1e-12 * (fabs(total.lo) + fabs(total.hi) + 1);
+	if (total.lo > margin || (total.lo == 0 && total.lo_open && isfinite(total.lo)))
+		return EXPR_SIGN_POS;
+	if (total.hi < -margin || (total.hi == 0 && total.hi_open && isfinite(total.hi)))
+		return EXPR_SIGN_NEG;
+	return EXPR_SIGN_UNKNOWN;
 }
 
 int expr_sign(expr_ctx *ctx, const expr *e)
@@ -89,7 +192,7 @@ int expr_sign(expr_ctx *ctx, const expr *e)
 			return some_pos ? EXPR_SIGN_POS : EXPR_SIGN_NONNEG;
 		if (all_nonpos)
 			return some_neg ? EXPR_SIGN_NEG : EXPR_SIGN_NONPOS;
-		return EXPR_SIGN_UNKNOWN;
+		return sum_sign_by_bounds(ctx, e);
 	}
 	}
 	return EXPR_SIGN_UNKNOWN;

@@ -1,124 +1,228 @@
-/* verify.c - claims: exact first, then randomized identity testing.
+/* verify.c - claims (verify.h).
  *
- * Two expressions whose canonical forms differ may still be equal (identities
- * the simplifier does not know, such as sin^2 + cos^2 = 1).  They are then
- * compared at random points inside the declared ranges and assumptions.  The
- * difference at a point is judged relative to the magnitude of the terms
- * (the sum of the absolute values of the terms of both sides), so that the
- * cancellation of large terms cannot hide a real difference or fake one.
+ * Each part of a claim (an expression, or the dt part and each noise's part
+ * of a differential) is decided on its own; the claim holds when every part
+ * holds, fails when one part fails, and is undecided otherwise.
  */
 #include "verify.h"
 
-#include <float.h>
-#include <math.h>
-#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
-#include "eval.h"
+#include <arb.h>
+
+#include "ball.h"
+#include "domain.h"
 #include "expr-internal.h"
-#include "rat.h"
-#include "sim.h"
 #include "xalloc.h"
 
-/* A number for a message: "undefined" for a NaN, which "-nan" would hide. */
-static void show_value(char *out, size_t size, double value)
+/* The atoms of e: symbols and generic partial applications (not their
+ * arguments: a partial at its arguments is one unknown value). */
+static void collect_atoms(const expr *e, expr_map *seen, expr_vec *out)
 {
-	if (isnan(value))
-		snprintf(out, size, "undefined");
-	else
-		snprintf(out, size, "%.10g", value);
-}
-
-/* Record a point where the sides differ: "S=1.2, mu=0.3: left side 1.5, right side 1.4". */
-static void refute(verify_result *out, int part, const expr *difference, const expr_vec *symbols, size_t nsym,
-		   const double *values, double left, double right)
-{
-	out->holds = false;
-	out->verdict = VERIFY_FAILS;
-	out->part = part;
-	out->difference = difference;
-	xbuf text = {0};
-	for (size_t i = 0; i < nsym; i++)
-		xbuf_printf(&text, "%s%s=%.6g", i ? ", " : "", expr_sym_name(symbols->items[i]), values[i]);
-	if (!nsym)
-		xbuf_put(&text, "every point (no symbols)");
-	char lt[32], rt[32];
-	show_value(lt, sizeof lt, left);
-	show_value(rt, sizeof rt, right);
-	xbuf_printf(&text, ": left side %s, right side %s", lt, rt);
-	out->point_text = xbuf_take(&text);
-}
-
-/* A value for a symbol inside its declared domain. */
-static double sample(sim_rng *rng, const model_entry *entry, int sign, bool force_positive)
-{
-	double lo = -2.0, hi = 2.0;
-	if (entry && entry->lo && expr_is_num(entry->lo))
-		lo = rat_to_double(expr_num_value(entry->lo));
-	if (entry && entry->hi && expr_is_num(entry->hi))
-		hi = rat_to_double(expr_num_value(entry->hi));
-	if (entry && entry->lo && !entry->hi)
-		hi = lo + 3.0;
-	if (entry && entry->hi && !entry->lo)
-		lo = hi - 3.0;
-	if (sign == EXPR_SIGN_POS || sign == EXPR_SIGN_NONNEG || force_positive) {
-		if (lo < 0.05)
-			lo = 0.05;
-		if (hi <= lo)
-			hi = lo + 3.0;
-	}
-	if (sign == EXPR_SIGN_NEG || sign == EXPR_SIGN_NONPOS) {
-		if (hi > -0.05)
-			hi = -0.05;
-		if (lo >= hi)
-			lo = hi - 3.0;
-	}
-	double u = sim_uniform(rng);
-	double x = lo + (hi - lo) * (0.02 + 0.96 * u);
-	if ((entry && entry->lo_strict && x <= lo) || (entry && entry->hi_strict && x >= hi))
-		x = 0.5 * (lo + hi);
-	return x;
-}
-
-static bool has_generic(const expr *e)
-{
+	if (expr_map_get(seen, e))
+		return;
+	expr_map_put(seen, e, e);
 	switch (expr_kind_of(e)) {
-	case EXPR_FAPP:
-		return true;
 	case EXPR_NUM:
+		return;
 	case EXPR_SYM:
-		return false;
+	case EXPR_FAPP:
+		expr_vec_push(out, e);
+		return;
 	case EXPR_MUL:
-		for (size_t i = 0; i < expr_nops(e); i++)
-			if (has_generic(expr_mul_base(e, i)) || has_generic(expr_mul_exponent(e, i)))
-				return true;
-		return false;
+		for (size_t i = 0; i < expr_nops(e); i++) {
+			collect_atoms(expr_mul_base(e, i), seen, out);
+			collect_atoms(expr_mul_exponent(e, i), seen, out);
+		}
+		return;
 	default:
 		for (size_t i = 0; i < expr_nops(e); i++)
-			if (has_generic(expr_op(e, i)))
-				return true;
-		return false;
+			collect_atoms(expr_op(e, i), seen, out);
+		return;
 	}
 }
 
-static model_entry *entry_of(model *m, const expr *sym)
+/* Is e a polynomial in its atoms (no function application, no negative or
+ * fractional power)?  Products over sums are expanded, so a polynomial's
+ * canonical form is unique: nonzero in form is nonzero as a function. */
+static bool is_polynomial(const expr *e, expr_map *seen)
 {
-	for (size_t i = 0; i < m->nentries; i++)
-		if (m->entries[i].sym == sym)
-			return &m->entries[i];
-	return NULL;
+	if (expr_map_get(seen, e))
+		return true;
+	expr_map_put(seen, e, e);
+	switch (expr_kind_of(e)) {
+	case EXPR_NUM:
+	case EXPR_SYM:
+	case EXPR_FAPP:
+		return true;
+	case EXPR_FUN:
+		return false;
+	case EXPR_MUL:
+		for (size_t i = 0; i < expr_nops(e); i++) {
+			const expr *x = expr_mul_exponent(e, i);
+			if (!expr_is_integer(x) || mpq_sgn(expr_num_value(x)) < 0 ||
+			    !is_polynomial(expr_mul_base(e, i), seen))
+				return false;
+		}
+		return true;
+	default:
+		for (size_t i = 0; i < expr_nops(e); i++)
+			if (!is_polynomial(expr_op(e, i), seen))
+				return false;
+		return true;
+	}
 }
 
-/* Sum of |terms| of both sides, as outputs to evaluate. */
-static void push_terms(expr_ctx *ctx, const expr *e, expr_vec *out)
+/* The state of deciding one part. */
+typedef struct part_run {
+	expr_ctx *ctx;
+	model *m;
+	const expr *lhs, *rhs, *difference;
+	expr_vec atoms;
+	domain *dom;
+	mpq_t *values;
+	size_t nvalues;
+} part_run;
+
+static void record_point(verify_result *out, part_run *r, ball_verdict *v)
 {
-	if (expr_kind_of(e) == EXPR_ADD)
-		for (size_t i = 0; i < expr_nops(e); i++)
-			expr_vec_push(out, expr_op(e, i));
-	else
-		expr_vec_push(out, e);
-	(void)ctx;
+	size_t n = domain_size(r->dom);
+	out->natoms = n;
+	out->atoms = xcalloc(n + 1, sizeof *out->atoms);
+	out->values = xcalloc(n + 1, sizeof *out->values);
+	for (size_t i = 0; i < n; i++) {
+		out->atoms[i] = domain_atom(r->dom, i);
+		out->values[i] = mpq_get_d(r->values[i]);
+	}
+	if (v) {
+		out->left = v->lhs_text ? xstrdup(v->lhs_text) : NULL;
+		out->right = v->rhs_text ? xstrdup(v->rhs_text) : NULL;
+	}
+}
+
+/* Is the side e defined at the point (at 64 bits: only certainly undefined counts)? */
+static bool defined_at(part_run *r, const expr *e)
+{
+	size_t n = domain_size(r->dom);
+	const expr **atoms = xcalloc(n + 1, sizeof *atoms);
+	for (size_t i = 0; i < n; i++)
+		atoms[i] = domain_atom(r->dom, i);
+	arb_t value;
+	arb_init(value);
+	ball_status status = ball_eval(r->ctx, e, n, atoms, (const mpq_t *)r->values, 64, value);
+	arb_clear(value);
+	free(atoms);
+	return status != BALL_UNDEFINED;
+}
+
+/* A nonzero rational function fails on a domain with interior: find a point
+ * of the domain where its value is certainly not zero, for the message. */
+static bool rational_counterexample(part_run *r, verify_result *out, int part)
+{
+	size_t n = domain_size(r->dom);
+	const expr **atoms = xcalloc(n + 1, sizeof *atoms);
+	for (size_t i = 0; i < n; i++)
+		atoms[i] = domain_atom(r->dom, i);
+	bool found = false;
+	for (int attempt = 0; attempt < 50 && !found && domain_draw(r->dom, r->values); attempt++) {
+		ball_verdict v = {0};
+		if (ball_compare_zero(r->ctx, r->difference, r->lhs, r->rhs, n, atoms, (const mpq_t *)r->values,
+				      &v) == BALL_NONZERO) {
+			out->part = part;
+			out->difference = r->difference;
+			out->bits = v.bits;
+			record_point(out, r, &v);
+			found = true;
+		}
+		ball_verdict_clear(&v);
+	}
+	free(atoms);
+	return found;
+}
+
+/* Decide one part numerically; returns its verdict and fills out on failure. */
+static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, unsigned long seed,
+				     const char **reason)
+{
+	size_t n = domain_size(r->dom);
+	const expr **atoms = xcalloc(n + 1, sizeof *atoms);
+	for (size_t i = 0; i < n; i++)
+		atoms[i] = domain_atom(r->dom, i);
+	const expr *bad = NULL;
+	ball_claim *claim = ball_claim_new(r->ctx, r->difference, r->lhs, r->rhs, n, atoms, &bad);
+	free(atoms);
+	if (!claim) {
+		*reason = "a side cannot be evaluated in ball arithmetic";
+		return VERIFY_UNDECIDED;
+	}
+	(void)seed;
+	verify_verdict verdict = VERIFY_HOLDS;
+	size_t tested = 0, skipped = 0;
+	*reason = NULL;
+	for (size_t attempt = 0; tested < VERIFY_POINTS && attempt < 6 * VERIFY_POINTS; attempt++) {
+		if (expr_poll_interrupt(r->ctx)) {
+			verdict = VERIFY_UNDECIDED;
+			*reason = "interrupted";
+			break;
+		}
+		if (!domain_draw(r->dom, r->values)) {
+			if (!*reason)
+				*reason = "no point of the declared domain could be drawn";
+			verdict = VERIFY_UNDECIDED;
+			break;
+		}
+		ball_verdict v = {0};
+		ball_decision decision = ball_claim_decide(claim, (const mpq_t *)r->values, &v);
+		if (v.bits > out->bits)
+			out->bits = v.bits;
+		if (decision == BALL_NONZERO) {
+			out->part = part;
+			out->difference = r->difference;
+			record_point(out, r, &v);
+			ball_verdict_clear(&v);
+			verdict = VERIFY_FAILS;
+			tested++;
+			break;
+		}
+		if (decision == BALL_ZERO_WITHIN_BOUND) {
+			tested++;
+		} else if (v.reason == BALL_REASON_UNDEFINED && !defined_at(r, r->lhs) && !defined_at(r, r->rhs)) {
+			skipped++; /* outside the domain of both sides: another point */
+		} else if (v.reason == BALL_REASON_CANCELLATION || v.reason == BALL_REASON_UNKNOWN) {
+			/* no precision decides this point (exp of a huge argument, a
+			 * domain boundary): it is evidence neither way; another point */
+			out->skipped++;
+			if (out->skipped > VERIFY_POINTS && verdict == VERIFY_HOLDS) {
+				verdict = VERIFY_UNDECIDED;
+				*reason = ball_reason_message(v.reason);
+				out->part = part;
+				out->difference = r->difference;
+				ball_verdict_clear(&v);
+				break;
+			}
+		} else {
+			/* one side undefined, or no decision at the largest precision */
+			tested++;
+			if (verdict == VERIFY_HOLDS) {
+				verdict = VERIFY_UNDECIDED;
+				*reason = v.reason == BALL_REASON_UNDEFINED
+						  ? "one side is undefined on part of the domain where the other is defined"
+						  : ball_reason_message(v.reason);
+				out->part = part;
+				out->difference = r->difference;
+			}
+		}
+		ball_verdict_clear(&v);
+	}
+	ball_claim_free(claim);
+	out->points += tested;
+	if (verdict == VERIFY_HOLDS && tested == 0) {
+		verdict = VERIFY_UNDECIDED;
+		*reason = "no point where both sides are defined was found in the declared domain";
+	}
+	(void)skipped;
+	return verdict;
 }
 
 void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigned long seed,
@@ -126,122 +230,71 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 {
 	memset(out, 0, sizeof *out);
 	out->part = -1;
-	out->holds = true;
+	out->verdict = VERIFY_HOLDS;
 	out->method = VERIFY_EXACT;
-	const expr **difference = xcalloc(in->nparts, sizeof *difference);
+	const expr **difference = xcalloc(in->nparts + 1, sizeof *difference);
 	bool all_zero = true;
 	for (size_t p = 0; p < in->nparts; p++) {
 		difference[p] = expr_sub(ctx, in->lhs[p], in->rhs[p]);
 		if (!difference[p] || !expr_is_zero(difference[p]))
 			all_zero = false;
 	}
-	if (all_zero) {
-		free(difference);
-		return;
-	}
-	out->method = VERIFY_NUMERIC;
-	for (size_t p = 0; p < in->nparts && out->holds; p++) {
+	const char *undecided_reason = NULL;
+	int undecided_part = -1;
+	for (size_t p = 0; p < in->nparts && !all_zero && out->verdict != VERIFY_FAILS; p++) {
 		if (!difference[p] || expr_is_zero(difference[p]))
 			continue;
-		const expr *d = difference[p];
-		if (has_generic(d)) {
-			/* an unknown function cannot be evaluated: the forms differ, and that is all we know */
-			out->holds = false;
-			out->part = (int)p;
-			out->difference = d;
-			out->verdict = VERIFY_UNDECIDED;
-			out->reason = "the difference involves an unknown function, so no point can be evaluated";
-			break;
-		}
-		expr_vec symbols = {0};
-		expr_free_symbols(ctx, in->lhs[p], &symbols);
-		expr_free_symbols(ctx, in->rhs[p], &symbols);
-		/* distinct symbols */
-		size_t nsym = 0;
-		for (size_t i = 0; i < symbols.n; i++) {
-			bool seen = false;
-			for (size_t j = 0; j < nsym && !seen; j++)
-				seen = symbols.items[j] == symbols.items[i];
-			if (!seen)
-				symbols.items[nsym++] = symbols.items[i];
-		}
-		expr_vec outputs = {0};
-		expr_vec_push(&outputs, in->lhs[p]);
-		expr_vec_push(&outputs, in->rhs[p]);
-		push_terms(ctx, in->lhs[p], &outputs);
-		push_terms(ctx, in->rhs[p], &outputs);
-		const expr *bad = NULL;
-		eval_prog *prog = eval_compile(ctx, outputs.n, outputs.items, nsym, symbols.items, &bad);
-		if (!prog) {
-			out->holds = false;
-			out->part = (int)p;
-			out->difference = d;
-			out->verdict = VERIFY_UNDECIDED;
-			out->reason = "the difference cannot be evaluated numerically";
-			expr_vec_free(&symbols);
-			expr_vec_free(&outputs);
-			break;
-		}
-		sim_rng rng;
-		sim_rng_seed(&rng, seed * 1000003u + p);
-		double *values = xcalloc(nsym ? nsym : 1, sizeof *values);
-		double *results = xcalloc(outputs.n, sizeof *results);
-		size_t tested = 0, attempts = 0;
-		while (tested < VERIFY_POINTS && attempts < VERIFY_POINTS * 20) {
-			bool force_positive = attempts >= VERIFY_POINTS * 2 && (attempts % 2);
-			attempts++;
-			for (size_t i = 0; i < nsym; i++) {
-				model_entry *entry = entry_of(m, symbols.items[i]);
-				values[i] = sample(&rng, entry, expr_sym_sign(symbols.items[i]), force_positive);
-			}
-			eval_run(prog, 1, values, results);
-			double left = results[0], right = results[1];
-			if (!isfinite(left) && !isfinite(right))
-				continue; /* outside the domain of both sides: try another point */
-			if (isfinite(left) != isfinite(right)) {
-				/* defined on one side only: the identity fails there
-				 * (log(x^2) = 2*log(x) for x < 0) */
-				tested++;
-				refute(out, (int)p, d, &symbols, nsym, values, left, right);
-				break;
-			}
-			double scale = 0;
-			for (size_t i = 2; i < outputs.n; i++)
-				scale += fabs(results[i]);
-			if (scale < 1e-300)
-				scale = 1e-300;
-			double relative = fabs(left - right) / scale;
-			tested++;
-			if (relative > out->max_relative)
-				out->max_relative = relative;
-			/* the sides may differ by rounding: a relative part for the values
-			 * themselves, and a few hundred ulps of the largest terms for
-			 * cancellation (1e12*(sin^2 + cos^2) - 1e12 + x = x + 1 must fail) */
-			double tolerance = VERIFY_TOLERANCE * fmax(fabs(left), fabs(right)) + 256 * DBL_EPSILON * scale;
-			if (fabs(left - right) > tolerance) {
-				refute(out, (int)p, d, &symbols, nsym, values, left, right);
-				break;
+		part_run r = {.ctx = ctx, .m = m, .lhs = in->lhs[p], .rhs = in->rhs[p], .difference = difference[p]};
+		expr_map seen = {0};
+		collect_atoms(r.lhs, &seen, &r.atoms);
+		collect_atoms(r.rhs, &seen, &r.atoms);
+		expr_map_free(&seen);
+		r.dom = domain_new(ctx, m, r.atoms.n, r.atoms.items, seed * 1000003u + p);
+		r.nvalues = domain_size(r.dom);
+		r.values = xcalloc(r.nvalues + 1, sizeof *r.values);
+		for (size_t i = 0; i < r.nvalues; i++)
+			mpq_init(r.values[i]);
+		expr_map polynomial_seen = {0};
+		bool polynomial = is_polynomial(r.difference, &polynomial_seen);
+		expr_map_free(&polynomial_seen);
+		if (polynomial && domain_has_interior(r.dom) && rational_counterexample(&r, out, (int)p)) {
+			/* a nonzero polynomial: a certain failure (the point is for the message) */
+			out->verdict = VERIFY_FAILS;
+			out->method = VERIFY_EXACT;
+		} else {
+			out->method = VERIFY_NUMERIC;
+			const char *reason = NULL;
+			verify_verdict v = decide_numeric(&r, out, (int)p, seed, &reason);
+			if (v == VERIFY_FAILS) {
+				out->verdict = VERIFY_FAILS;
+			} else if (v == VERIFY_UNDECIDED && undecided_part < 0) {
+				undecided_part = (int)p;
+				undecided_reason = reason;
 			}
 		}
-		out->points += tested;
-		if (out->holds && tested == 0) {
-			out->holds = false;
-			out->part = (int)p;
-			out->difference = d;
-			out->verdict = VERIFY_UNDECIDED;
-			out->reason = "no point where both sides are defined was found in the declared domains";
-		}
-		free(values);
-		free(results);
-		eval_free(prog);
-		expr_vec_free(&symbols);
-		expr_vec_free(&outputs);
+		for (size_t i = 0; i < r.nvalues; i++)
+			mpq_clear(r.values[i]);
+		free(r.values);
+		domain_free(r.dom);
+		expr_vec_free(&r.atoms);
 	}
+	if (out->verdict != VERIFY_FAILS && undecided_part >= 0) {
+		out->verdict = VERIFY_UNDECIDED;
+		out->reason = undecided_reason;
+		out->part = undecided_part;
+		out->difference = difference[undecided_part];
+	}
+	out->holds = out->verdict == VERIFY_HOLDS;
 	free(difference);
 }
 
 void verify_result_free(verify_result *result)
 {
-	free(result->point_text);
-	result->point_text = NULL;
+	free(result->atoms);
+	free(result->values);
+	free(result->left);
+	free(result->right);
+	result->atoms = NULL;
+	result->values = NULL;
+	result->left = result->right = NULL;
 }

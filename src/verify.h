@@ -1,6 +1,16 @@
-/* verify.h - is an identity true?  Exact comparison of canonical forms, then
- * randomized identity testing at points sampled inside the declared domains
- * (Schwartz, JACM 1980; Zippel 1979). */
+/* verify.h - is an identity true?  Exact first, then certified numbers.
+ *
+ * The claim is decided on the canonical difference of its two sides.  A zero
+ * difference holds exactly.  A nonzero difference that is a rational function
+ * of symbols and generic partials alone (no function application, which
+ * identities such as sin^2 + cos^2 = 1 could tie) fails on any domain with
+ * interior, however small it is.  Otherwise both sides are evaluated in ball
+ * arithmetic (ball.h) at points drawn from the declared domain (domain.h):
+ * fails needs a certified counterexample where both sides are defined, holds
+ * needs every point's difference zero within its bound, anything else is
+ * undecided, which never passes (Schwartz, JACM 1980; Zippel 1979 for the
+ * randomized identity test; Johansson 2017 for ball arithmetic).
+ */
 #ifndef ITOX_VERIFY_H
 #define ITOX_VERIFY_H
 
@@ -12,29 +22,32 @@
 
 typedef struct verify_claim_input {
 	bool is_diff;
-	size_t nparts;	    /* 1 for expressions; 1 + nnoises for differentials (dt first) */
+	size_t nparts; /* 1 for expressions; 1 + nnoises for differentials (dt first) */
 	const expr **lhs, **rhs;
 } verify_claim_input;
 
 typedef enum verify_method { VERIFY_EXACT, VERIFY_NUMERIC } verify_method;
-
 typedef enum verify_verdict { VERIFY_HOLDS, VERIFY_FAILS, VERIFY_UNDECIDED } verify_verdict;
 
 typedef struct verify_result {
-	bool holds;		/* verdict == VERIFY_HOLDS */
-	verify_verdict verdict;	/* undecided never passes */
-	const char *reason;	/* why undecided (a static string), or NULL */
-	verify_method method;
-	size_t points;		/* points tested (numeric) */
-	double max_relative;	/* largest relative difference seen */
-	int part;		/* the first part that differs, or -1 */
-	const expr *difference; /* lhs - rhs of that part, simplified */
-	char *point_text;	/* fails: "S=1.2, mu=0.3: left 1.5, right 1.4", or NULL */
+	bool holds;		 /* verdict == VERIFY_HOLDS */
+	verify_verdict verdict;	 /* undecided never passes */
+	verify_method method;	 /* exact: decided on the canonical difference */
+	const char *reason;	 /* why undecided (a static string), or NULL */
+	size_t points;		 /* points tested (numeric) */
+	size_t skipped;		 /* points no precision could decide (cancellation, a domain boundary) */
+	long bits;		 /* the largest precision a point needed (numeric) */
+	int part;		 /* the first part that differs or is undecided, or -1 */
+	const expr *difference;	 /* lhs - rhs of that part, in normal form */
+	/* fails: the point (atoms and their values) and the two sides there */
+	size_t natoms;
+	const expr **atoms;
+	double *values;
+	char *left, *right;	 /* decimal values, enough digits to differ */
 } verify_result;
 
-/* Points tried and the relative tolerance of the numeric test. */
+/* Points tried for a numeric decision. */
 #define VERIFY_POINTS 200
-#define VERIFY_TOLERANCE 1e-9
 
 void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigned long seed,
 		  verify_result *out);

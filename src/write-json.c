@@ -214,8 +214,7 @@ static void claim_fields(xbuf *buf, const stmt_result *r, expr_ctx *ctx)
 	xbuf_printf(buf, ",\"holds\":%s", c->holds ? "true" : "false");
 	field(buf, "method", c->method == VERIFY_EXACT ? "exact" : "numeric");
 	if (c->method == VERIFY_NUMERIC)
-		xbuf_printf(buf, ",\"points\":%zu,\"max_relative_difference\":%.3g", c->points,
-		            c->max_relative);
+		xbuf_printf(buf, ",\"points\":%zu,\"bits\":%ld,\"skipped\":%zu", c->points, c->bits, c->skipped);
 	if (c->holds)
 		return;
 	const char *part = "";
@@ -233,8 +232,10 @@ static void claim_fields(xbuf *buf, const stmt_result *r, expr_ctx *ctx)
 		field(buf, "difference", text);
 		free(text);
 	}
-	if (c->point_text)
-		field(buf, "at", c->point_text);
+	char *point = c->verdict == VERIFY_FAILS ? writer_claim_point(r, ctx) : NULL;
+	if (point)
+		field(buf, "at", point);
+	free(point);
 	if (c->reason)
 		field(buf, "reason", c->reason);
 }

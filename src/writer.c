@@ -72,16 +72,36 @@ const char *result_claim_verdict(const stmt_result *r)
 	}
 }
 
+char *writer_claim_point(const stmt_result *r, expr_ctx *ctx)
+{
+	const verify_result *c = r->claim;
+	if (!c->atoms && !c->left)
+		return NULL;
+	xbuf buf = {0};
+	for (size_t i = 0; i < c->natoms; i++) {
+		char *name = prn_expr(ctx, c->atoms[i], PRN_TEXT);
+		xbuf_printf(&buf, "%s%s=%.6g", i ? ", " : "", name, c->values[i]);
+		free(name);
+	}
+	if (!c->natoms)
+		xbuf_put(&buf, "every point (no symbols)");
+	if (c->left && c->right)
+		xbuf_printf(&buf, ": left side %s, right side %s", c->left, c->right);
+	return xbuf_take(&buf);
+}
+
 char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx)
 {
 	const verify_result *c = r->claim;
 	if (c->holds && c->method == VERIFY_EXACT)
 		return xstrdup(" (exact)");
 	if (c->holds)
-		return xasprintf(" (numeric: %zu points, max relative difference %.2g)", c->points,
-		                 c->max_relative);
+		return c->skipped ? xasprintf(" (numeric: %zu points, %ld bits; %zu points no precision could "
+					      "decide were skipped)",
+					      c->points, c->bits, c->skipped)
+				  : xasprintf(" (numeric: %zu points, %ld bits)", c->points, c->bits);
 	xbuf buf = {0};
-	const char *part = "the sides differ";
+	const char *part = "the two sides differ";
 	char *named = NULL;
 	if (c->part >= 0 && r->diff.noises) {
 		if (c->part == 0)
@@ -89,16 +109,16 @@ char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx)
 		else
 			part = named =
 			        xasprintf("the d%s part differs", expr_sym_name(r->diff.noises[c->part - 1]));
-	} else if (c->part >= 0) {
-		part = "the two sides differ";
 	}
 	char *difference = c->difference ? prn_expr(ctx, c->difference, PRN_TEXT) : xstrdup("?");
 	if (c->verdict == VERIFY_UNDECIDED)
 		xbuf_printf(&buf, ": %s (%s in form by %s)", c->reason, part, difference);
 	else
 		xbuf_printf(&buf, ": %s by %s", part, difference);
-	if (c->point_text)
-		xbuf_printf(&buf, "; at %s", c->point_text);
+	char *point = writer_claim_point(r, ctx);
+	if (point && c->verdict == VERIFY_FAILS)
+		xbuf_printf(&buf, "; at %s", point);
+	free(point);
 	free(difference);
 	free(named);
 	return xbuf_take(&buf);
