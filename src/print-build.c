@@ -104,7 +104,6 @@ static int factor_rank(printer *p, const expr *base)
 
 /* ------------------------------------------------------------------ building */
 
-
 static int compare_dfactors(const void *x, const void *y)
 {
 	const dfactor *a = x, *b = y;
@@ -147,7 +146,7 @@ typedef struct factor_count {
 	int sign, rank;
 	size_t count;
 	const expr *exponent; /* the exponent in the first term that has the base */
-	bool uniform;	      /* the same exponent in every term that has the base */
+	bool uniform;         /* the same exponent in every term that has the base */
 } factor_count;
 
 static size_t factor_slot(const factor_count *table, size_t capacity, const expr *base, int sign)
@@ -162,7 +161,7 @@ static size_t factor_slot(const factor_count *table, size_t capacity, const expr
 /* The entry of (base, sign), new and zeroed if absent; the table grows so it
  * stays at most half full (it is sized by distinct bases, not by terms). */
 static factor_count *factor_entry(factor_count **table, size_t *capacity, size_t *used, const expr *base,
-				  int sign)
+                                  int sign)
 {
 	size_t slot = factor_slot(*table, *capacity, base, sign);
 	if ((*table)[slot].base)
@@ -172,7 +171,8 @@ static factor_count *factor_entry(factor_count **table, size_t *capacity, size_t
 		factor_count *bigger = xcalloc(grown, sizeof *bigger);
 		for (size_t i = 0; i < *capacity; i++)
 			if ((*table)[i].base)
-				bigger[factor_slot(bigger, grown, (*table)[i].base, (*table)[i].sign)] = (*table)[i];
+				bigger[factor_slot(bigger, grown, (*table)[i].base, (*table)[i].sign)] =
+				        (*table)[i];
 		free(*table);
 		*table = bigger;
 		*capacity = grown;
@@ -212,7 +212,7 @@ static const expr *common_factor(printer *p, const expr *sum)
 		const expr *t = sum->u.add.terms[i];
 		const __mpq_struct *c = t->kind == EXPR_MUL ? t->u.mul.coef : NULL;
 		same_fraction = c && first_coef && mpz_cmpabs(mpq_numref(c), mpq_numref(first_coef)) == 0 &&
-				mpz_cmp(mpq_denref(c), mpq_denref(first_coef)) == 0;
+		                mpz_cmp(mpq_denref(c), mpq_denref(first_coef)) == 0;
 	}
 	if (same_fraction) {
 		mpq_t q;
@@ -241,7 +241,8 @@ static const expr *common_factor(printer *p, const expr *sum)
 				bool found = false;
 				if (t->kind == EXPR_MUL)
 					for (size_t j = 0; j < t->nops; j++)
-						found |= t->u.mul.bases[j] == base && t->u.mul.exps[j] == exponent;
+						found |= t->u.mul.bases[j] == base &&
+						         t->u.mul.exps[j] == exponent;
 				everywhere = found;
 			}
 			if (everywhere)
@@ -264,8 +265,9 @@ static const expr *common_factor(printer *p, const expr *sum)
 				everywhere = false;
 				break;
 			}
-			if (found != best && (mpq_sgn(best->u.num) > 0 ? rat_cmp(found->u.num, best->u.num) < 0
-								: rat_cmp(found->u.num, best->u.num) > 0))
+			if (found != best &&
+			    (mpq_sgn(best->u.num) > 0 ? rat_cmp(found->u.num, best->u.num) < 0
+			                              : rat_cmp(found->u.num, best->u.num) > 0))
 				best = found;
 		}
 		if (everywhere)

@@ -13,11 +13,11 @@
 
 /* ------------------------------------------------------------------ names */
 
-static const char *const greek[] = {
-	"alpha", "beta", "gamma", "delta", "epsilon", "zeta", "eta", "theta", "iota", "kappa",
-	"lambda", "mu", "nu", "xi", "pi", "rho", "sigma", "tau", "upsilon", "phi", "chi", "psi",
-	"omega", "Gamma", "Delta", "Theta", "Lambda", "Xi", "Pi", "Sigma", "Upsilon", "Phi", "Psi",
-	"Omega", NULL};
+static const char *const greek[] = {"alpha", "beta",  "gamma",   "delta",  "epsilon", "zeta",   "eta",
+                                    "theta", "iota",  "kappa",   "lambda", "mu",      "nu",     "xi",
+                                    "pi",    "rho",   "sigma",   "tau",    "upsilon", "phi",    "chi",
+                                    "psi",   "omega", "Gamma",   "Delta",  "Theta",   "Lambda", "Xi",
+                                    "Pi",    "Sigma", "Upsilon", "Phi",    "Psi",     "Omega",  NULL};
 
 static bool is_greek(const char *word, size_t length)
 {

@@ -26,7 +26,8 @@ static int precedence(const dnode *d)
 	case D_NEG:
 		return P_NEG;
 	case D_PROD: {
-		if (d->nfactors == 1 && mpq_cmp_ui(d->num, 1, 1) == 0 && d->factors[0].exponent->kind == EXPR_NUM &&
+		if (d->nfactors == 1 && mpq_cmp_ui(d->num, 1, 1) == 0 &&
+		    d->factors[0].exponent->kind == EXPR_NUM &&
 		    mpq_cmp_ui(d->factors[0].exponent->u.num, 1, 1) == 0)
 			return precedence(d->factors[0].base); /* a lone factor reads as its base */
 		if (d->nfactors == 1 && mpq_cmp_ui(d->num, 1, 1) == 0 &&
@@ -99,8 +100,8 @@ static void emit_symbol(printer *p, xbuf *out, const expr *sym)
 {
 	if (p->format == PRN_LATEX) {
 		int rank = sym->u.sym.rank;
-		char *name = prn_latex_name(sym->u.sym.name,
-					    !p->plain_states && (rank == PRN_RANK_STATE || rank == PRN_RANK_NOISE));
+		char *name = prn_latex_name(sym->u.sym.name, !p->plain_states && (rank == PRN_RANK_STATE ||
+		                                                                  rank == PRN_RANK_NOISE));
 		xbuf_put(out, name);
 		free(name);
 		return;
@@ -294,7 +295,8 @@ static void emit_power(printer *p, xbuf *out, const dfactor *f, bool absolute)
 	if (absolute)
 		mpq_abs(e, e);
 	if (mpq_cmp_ui(e, 1, 1) == 0) {
-		bool paren = precedence(base) < P_PROD + (p->format == PRN_LATEX ? 0 : 1) && base->kind != D_FUN;
+		bool paren =
+		        precedence(base) < P_PROD + (p->format == PRN_LATEX ? 0 : 1) && base->kind != D_FUN;
 		emit_paren(p, out, base, paren && !bare);
 	} else if (mpq_cmp_ui(e, 1, 2) == 0) {
 		if (p->format == PRN_LATEX) {
@@ -307,7 +309,8 @@ static void emit_power(printer *p, xbuf *out, const dfactor *f, bool absolute)
 			xbuf_putc(out, ')');
 		}
 	} else if (p->format == PRN_C) {
-		if (rat_is_integer(e) && mpz_cmp_ui(mpq_numref(e), 4) <= 0 && mpq_sgn(e) > 0 && is_atomic(base)) {
+		if (rat_is_integer(e) && mpz_cmp_ui(mpq_numref(e), 4) <= 0 && mpq_sgn(e) > 0 &&
+		    is_atomic(base)) {
 			unsigned long n = mpz_get_ui(mpq_numref(e));
 			for (unsigned long i = 0; i < n; i++) {
 				if (i)
@@ -323,7 +326,7 @@ static void emit_power(printer *p, xbuf *out, const dfactor *f, bool absolute)
 		}
 	} else {
 		bool base_paren = !is_atomic(base) || (base->kind == D_FUN && p->format == PRN_LATEX &&
-						      base->e->u.fun.fn != EXPR_F_ABS);
+		                                       base->e->u.fun.fn != EXPR_F_ABS);
 		emit_paren(p, out, base, base_paren);
 		if (p->format == PRN_LATEX) {
 			/* v^{3/2}: an exponent holds no stacked fraction */
@@ -375,8 +378,8 @@ static int side(const printer *p, const dfactor *f)
 	return 1;
 }
 
-static void emit_factor_list(printer *p, xbuf *out, const dnode *d, bool denominator,
-			     const char *coef_text, size_t *count)
+static void emit_factor_list(printer *p, xbuf *out, const dnode *d, bool denominator, const char *coef_text,
+                             size_t *count)
 {
 	const char *times = p->format == PRN_LATEX ? " " : "*";
 	if (coef_text) {
@@ -440,7 +443,8 @@ static void emit_prod(printer *p, xbuf *out, const dnode *d)
 	if (nden == 0 && !integer && count_side(p, d, 2) == 1 && p->format == PRN_TEXT) {
 		/* x/(2*(a + b)) reads back the same: a sum's rational content is pulled out */
 		char *top = mpz_cmp_ui(mpq_numref(d->num), 1) != 0 || nnum == 0
-				    ? number_text(p, mpq_numref(d->num)) : NULL;
+		                    ? number_text(p, mpq_numref(d->num))
+		                    : NULL;
 		size_t count = 0;
 		emit_factor_list(p, out, d, false, top, &count);
 		free(top);
@@ -469,8 +473,8 @@ static void emit_prod(printer *p, xbuf *out, const dnode *d)
 		return;
 	}
 	/* a fraction: numerator (with the coefficient's numerator) over denominator */
-	char *top = mpz_cmp_ui(mpq_numref(d->num), 1) != 0 || nnum == 0
-			    ? number_text(p, mpq_numref(d->num)) : NULL;
+	char *top = mpz_cmp_ui(mpq_numref(d->num), 1) != 0 || nnum == 0 ? number_text(p, mpq_numref(d->num))
+	                                                                : NULL;
 	char *bottom = integer ? NULL : number_text(p, mpq_denref(d->num));
 	xbuf num = {0}, den = {0};
 	size_t count = 0;
@@ -567,7 +571,8 @@ char *prn_expr_abbrev(expr_ctx *ctx, const expr *e, prn_format format, const prn
 	return prn_expr_c(ctx, e, format, abbrev, NULL);
 }
 
-char *prn_expr_c(expr_ctx *ctx, const expr *e, prn_format format, const prn_abbrev *abbrev, prn_c_calls *calls)
+char *prn_expr_c(expr_ctx *ctx, const expr *e, prn_format format, const prn_abbrev *abbrev,
+                 prn_c_calls *calls)
 {
 	if (!e)
 		return xstrdup("<error>");
@@ -638,7 +643,8 @@ char *prn_differential(expr_ctx *ctx, const prn_diff *diff, prn_format format, c
 		char *increment;
 		if (latex) {
 			char *l = prn_latex_name(name, true);
-			increment = xasprintf(diff->stratonovich ? "\\circ\\mathrm{d}%s" : "\\mathrm{d}%s", l);
+			increment =
+			        xasprintf(diff->stratonovich ? "\\circ\\mathrm{d}%s" : "\\mathrm{d}%s", l);
 			free(l);
 		} else {
 			increment = xasprintf("d%s", name);
