@@ -424,6 +424,132 @@ static void emit_lone_divisions(printer *p, xbuf *out, const dnode *d)
 	}
 }
 
+/* |q| = n/d? */
+static bool abs_equals(const mpq_t q, unsigned long n, unsigned long d)
+{
+	return mpz_cmpabs_ui(mpq_numref(q), n) == 0 && mpz_cmp_ui(mpq_denref(q), d) == 0;
+}
+
+/* The factor a node is written as, when it is a product of one factor with
+ * coefficient 1 (possibly a sum of one term), or NULL. */
+static const dfactor *lone_factor(const dnode *d)
+{
+	while (d->kind == D_SUM && d->n == 1)
+		d = d->items[0];
+	if (d->kind == D_PROD && d->nfactors == 1 && mpq_cmp_ui(d->num, 1, 1) == 0)
+		return &d->factors[0];
+	return NULL;
+}
+
+/* The questions below follow emit_power and emit for a factor written with
+ * |exponent| (one of a denominator, or of a numerator, where exponents are
+ * positive). */
+
+/* C: is the factor written as a product?  A small integer power of an atom
+ * is one (S*S); pow(S, 5), sqrt(S) and names are not. */
+static bool c_written_product(const dfactor *f)
+{
+	if (f->exp_display)
+		return false; /* pow(S, b) */
+	const __mpq_struct *e = f->exponent->u.num;
+	if (abs_equals(e, 1, 1)) {
+		/* S^1 is its base: bracketed when below a power, else what it is written as */
+		if (precedence(f->base) < P_POW && f->base->kind != D_FUN)
+			return false;
+		const dfactor *inner = lone_factor(f->base);
+		return inner && c_written_product(inner);
+	}
+	return rat_is_integer(e) && mpz_cmpabs_ui(mpq_numref(e), 4) <= 0 && is_atomic(f->base);
+}
+
+static bool latex_unbroken_factor(const printer *p, const dfactor *f, bool bare);
+
+/* LaTeX in an exponent: is d written as one unbroken group, with no space,
+ * product or slash outside brackets?  Braces are not brackets here: S^{b t},
+ * \sqrt{b + c} and \frac{\partial f}{\partial S} are broken. */
+static bool latex_unbroken(const printer *p, const dnode *d)
+{
+	switch (d->kind) {
+	case D_NUM:
+		return rat_is_integer(d->num); /* 3/2 in an exponent */
+	case D_SYM:
+		return true;
+	case D_FUN: {
+		expr_builtin fn = d->e->u.fun.fn;
+		if (fn == EXPR_F_EXP || fn == EXPR_F_ABS)
+			return latex_unbroken(p, d->child); /* e^{...}, \left|...\right| */
+		/* \log v (nothing follows it here: a factor that has another after
+		 * it is in a product, which is broken already) */
+		bool plain = fn == EXPR_F_LOG || fn == EXPR_F_SIN || fn == EXPR_F_COS;
+		return !(plain && d->child->kind == D_SYM);
+	}
+	case D_FAPP:
+		for (size_t i = 0; i < d->e->nops; i++)
+			if (d->e->u.fapp.counts[i])
+				return false; /* a partial: \frac{\partial f}{\partial S} */
+		return true;
+	case D_NEG:
+		return precedence(d->child) < P_PROD || latex_unbroken(p, d->child);
+	case D_SUM:
+		return d->n == 1 ? latex_unbroken(p, d->items[0]) : d->n == 0;
+	case D_PROD: {
+		/* in an exponent a fraction is written a/b; factors are spaced */
+		size_t nnum = count_side(p, d, 0);
+		if (count_side(p, d, 1) > 0 || !rat_is_integer(d->num))
+			return false;
+		bool coef = mpq_cmp_ui(d->num, 1, 1) != 0 || nnum == 0;
+		if (coef + nnum != 1)
+			return false;
+		if (coef)
+			return true;
+		for (size_t i = 0; i < d->nfactors; i++)
+			if (side(p, &d->factors[i]) == 0)
+				return latex_unbroken_factor(p, &d->factors[i], false);
+		return true;
+	}
+	}
+	return true;
+}
+
+/* bare: the only factor of a fraction's part, whose base drops its brackets. */
+static bool latex_unbroken_factor(const printer *p, const dfactor *f, bool bare)
+{
+	const dnode *base = f->base;
+	if (f->exp_display) {
+		const dnode *ex = f->exp_display->kind == D_NEG ? f->exp_display->child : f->exp_display;
+		return (!is_atomic(base) || latex_unbroken(p, base)) && latex_unbroken(p, ex);
+	}
+	const __mpq_struct *e = f->exponent->u.num;
+	if (abs_equals(e, 1, 1))
+		return (!bare && precedence(base) < P_PROD && base->kind != D_FUN) || latex_unbroken(p, base);
+	if (abs_equals(e, 1, 2))
+		return latex_unbroken(p, base); /* \sqrt{...} */
+	bool bracketed = !is_atomic(base) || (base->kind == D_FUN && base->e->u.fun.fn != EXPR_F_ABS);
+	return (bracketed || latex_unbroken(p, base)) && rat_is_integer(e); /* S^{3/2} */
+}
+
+/* The one factor of a denominator written after a slash (x/S^2) stands bare
+ * unless it is written as a product: in C a small power is one (x/(S*S));
+ * in a LaTeX exponent so is anything with a space or a slash in it, even in
+ * a superscript or under a root, where it would blur where the denominator
+ * ends (e^{a/(S^{b t})}, e^{a/(\sqrt{b + c})}, e^{a/(\log v)}).  Text writes
+ * every factor as one unit: a name, a call, or a power whose base and
+ * exponent are bracketed when compound. */
+static bool bare_denominator(const printer *p, const dnode *d)
+{
+	for (size_t i = 0; i < d->nfactors; i++) {
+		const dfactor *f = &d->factors[i];
+		if (side(p, f) != 1)
+			continue;
+		if (p->format == PRN_C)
+			return !c_written_product(f);
+		if (p->format == PRN_LATEX)
+			return latex_unbroken_factor(p, f, true);
+		return true;
+	}
+	return true;
+}
+
 static char *number_text(printer *p, const mpz_t z)
 {
 	mpq_t q;
@@ -498,20 +624,9 @@ static void emit_prod(printer *p, xbuf *out, const dnode *d)
 		if (num_paren)
 			xbuf_putc(out, ')');
 		xbuf_putc(out, '/');
-		bool single = nden_parts == 1;
-		if (single && nden == 1) {
-			/* one factor: parenthesize only a product or sum at the top level
-			 * (x/S^2 is x/(S^2) since ^ binds tighter) */
-			int depth = 0;
-			for (const char *c = den.data; *c && single; c++) {
-				if (*c == '(')
-					depth++;
-				else if (*c == ')')
-					depth--;
-				else if (depth == 0 && (*c == '*' || *c == '/' || *c == ' '))
-					single = false;
-			}
-		}
+		/* one part (a number, or one factor that is not written as a
+		 * product) stands bare: x/S^2 is x/(S^2) since ^ binds tighter */
+		bool single = nden_parts == 1 && (nden == 0 || bare_denominator(p, d));
 		if (!single)
 			xbuf_putc(out, '(');
 		xbuf_put(out, den.data);
