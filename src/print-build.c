@@ -112,6 +112,18 @@ static int compare_dfactors(const void *x, const void *y)
 	return 0;
 }
 
+/* Stable insertion sort by rank: canonical order is kept within a rank.
+ * Inline: every product built passes here. */
+static inline void sort_factors(dnode *d)
+{
+	for (size_t i = 1; i < d->nfactors; i++)
+		for (size_t j = i; j > 0 && compare_dfactors(&d->factors[j - 1], &d->factors[j]) > 0; j--) {
+			dfactor t = d->factors[j - 1];
+			d->factors[j - 1] = d->factors[j];
+			d->factors[j] = t;
+		}
+}
+
 static dnode *build_mul(printer *p, const expr *e)
 {
 	dnode *d = dnew(p, D_PROD);
@@ -126,13 +138,7 @@ static dnode *build_mul(printer *p, const expr *e)
 		f->exp_display = f->exponent->kind == EXPR_NUM ? NULL : prn_build(p, f->exponent);
 		f->rank = factor_rank(p, e->u.mul.bases[i]);
 	}
-	/* stable sort keeps the canonical order within a rank */
-	for (size_t i = 1; i < d->nfactors; i++)
-		for (size_t j = i; j > 0 && compare_dfactors(&d->factors[j - 1], &d->factors[j]) > 0; j--) {
-			dfactor t = d->factors[j - 1];
-			d->factors[j - 1] = d->factors[j];
-			d->factors[j] = t;
-		}
+	sort_factors(d);
 	if (mpq_sgn(e->u.mul.coef) < 0) {
 		dnode *neg = dnew(p, D_NEG);
 		neg->child = d;
@@ -288,17 +294,6 @@ static bool has_sum_base(const expr *m)
 		if (m->u.mul.bases[i]->kind == EXPR_ADD)
 			return true;
 	return false;
-}
-
-static void sort_factors(dnode *d)
-{
-	/* stable insertion sort: canonical order is kept within a rank */
-	for (size_t i = 1; i < d->nfactors; i++)
-		for (size_t j = i; j > 0 && compare_dfactors(&d->factors[j - 1], &d->factors[j]) > 0; j--) {
-			dfactor t = d->factors[j - 1];
-			d->factors[j - 1] = d->factors[j];
-			d->factors[j] = t;
-		}
 }
 
 /* Append the display of e to the factors of product d (flattening products). */
