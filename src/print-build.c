@@ -35,6 +35,14 @@ static dnode *dnew(printer *p, dkind kind)
 	return d;
 }
 
+/* The display of -d. */
+static dnode *negated(printer *p, dnode *d)
+{
+	dnode *neg = dnew(p, D_NEG);
+	neg->child = d;
+	return neg;
+}
+
 void prn_printer_free(printer *p)
 {
 	for (size_t b = 0, size = 8; b < p->nblocks; b++, size *= 2) {
@@ -139,12 +147,7 @@ static dnode *build_mul(printer *p, const expr *e)
 		f->rank = factor_rank(p, e->u.mul.bases[i]);
 	}
 	sort_factors(d);
-	if (mpq_sgn(e->u.mul.coef) < 0) {
-		dnode *neg = dnew(p, D_NEG);
-		neg->child = d;
-		return neg;
-	}
-	return d;
+	return mpq_sgn(e->u.mul.coef) < 0 ? negated(p, d) : d;
 }
 
 typedef struct factor_count {
@@ -342,9 +345,7 @@ static dnode *product_display(printer *p, const expr *factor, const expr *inner)
 	sort_factors(d);
 	if (mpq_sgn(d->num) < 0) {
 		mpq_neg(d->num, d->num);
-		dnode *neg = dnew(p, D_NEG);
-		neg->child = d;
-		return neg;
+		return negated(p, d);
 	}
 	return d;
 }
@@ -709,12 +710,7 @@ dnode *prn_build(printer *p, const expr *e)
 	case EXPR_NUM:
 		d = dnew(p, D_NUM);
 		mpq_abs(d->num, e->u.num);
-		if (mpq_sgn(e->u.num) < 0) {
-			dnode *neg = dnew(p, D_NEG);
-			neg->child = d;
-			return neg;
-		}
-		return d;
+		return mpq_sgn(e->u.num) < 0 ? negated(p, d) : d;
 	case EXPR_SYM:
 		d = dnew(p, D_SYM);
 		d->e = e;
