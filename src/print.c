@@ -462,7 +462,7 @@ static bool c_written_product(const dfactor *f)
 	return rat_is_integer(e) && mpz_cmpabs_ui(mpq_numref(e), 4) <= 0 && is_atomic(f->base);
 }
 
-static bool latex_unbroken_factor(const printer *p, const dfactor *f, bool bare);
+static bool latex_unbroken_factor(const printer *p, const dfactor *f);
 
 /* LaTeX in an exponent: is d written as one unbroken group, with no space,
  * product or slash outside brackets?  Braces are not brackets here: S^{b t},
@@ -504,15 +504,15 @@ static bool latex_unbroken(const printer *p, const dnode *d)
 			return true;
 		for (size_t i = 0; i < d->nfactors; i++)
 			if (side(p, &d->factors[i]) == 0)
-				return latex_unbroken_factor(p, &d->factors[i], false);
+				return latex_unbroken_factor(p, &d->factors[i]);
 		return true;
 	}
 	}
 	return true;
 }
 
-/* bare: the only factor of a fraction's part, whose base drops its brackets. */
-static bool latex_unbroken_factor(const printer *p, const dfactor *f, bool bare)
+/* A factor written inline (its base keeps its brackets: no \\frac{}{} here). */
+static bool latex_unbroken_factor(const printer *p, const dfactor *f)
 {
 	const dnode *base = f->base;
 	if (f->exp_display) {
@@ -521,7 +521,7 @@ static bool latex_unbroken_factor(const printer *p, const dfactor *f, bool bare)
 	}
 	const __mpq_struct *e = f->exponent->u.num;
 	if (abs_equals(e, 1, 1))
-		return (!bare && precedence(base) < P_PROD && base->kind != D_FUN) || latex_unbroken(p, base);
+		return (precedence(base) < P_PROD && base->kind != D_FUN) || latex_unbroken(p, base);
 	if (abs_equals(e, 1, 2))
 		return latex_unbroken(p, base); /* \sqrt{...} */
 	bool bracketed = !is_atomic(base) || (base->kind == D_FUN && base->e->u.fun.fn != EXPR_F_ABS);
@@ -544,7 +544,7 @@ static bool bare_denominator(const printer *p, const dnode *d)
 		if (p->format == PRN_C)
 			return !c_written_product(f);
 		if (p->format == PRN_LATEX)
-			return latex_unbroken_factor(p, f, true);
+			return latex_unbroken_factor(p, f);
 		return true;
 	}
 	return true;
@@ -604,11 +604,13 @@ static void emit_prod(printer *p, xbuf *out, const dnode *d)
 	char *bottom = integer ? NULL : number_text(p, mpq_denref(d->num));
 	xbuf num = {0}, den = {0};
 	size_t count = 0;
-	p->frac_part = p->format == PRN_LATEX && nnum + (top != NULL) == 1;
+	/* only \frac{}{} may drop a lone factor's brackets: e^{(a - b)/4} inline */
+	bool bar = p->format == PRN_LATEX && !inline_fraction;
+	p->frac_part = bar && nnum + (top != NULL) == 1;
 	emit_factor_list(p, &num, d, false, top, &count);
 	size_t nnum_parts = count;
 	count = 0;
-	p->frac_part = p->format == PRN_LATEX && nden + (bottom != NULL) == 1;
+	p->frac_part = bar && nden + (bottom != NULL) == 1;
 	emit_factor_list(p, &den, d, true, bottom, &count);
 	p->frac_part = false;
 	size_t nden_parts = count;
