@@ -11,5 +11,6 @@ Suite *print_suite(void);
 Suite *grammar_suite(void);
 Suite *props_suite(void);
 Suite *sim_suite(void);
+Suite *ratform_suite(void);
 
 #endif
