@@ -417,3 +417,52 @@ bool ratform_set_relations(ratform_job *j)
 	free(order);
 	return ok;
 }
+
+/* Clear the square roots (relations of degree 2, abs included) out of the
+ * denominator: with den = D0 + D1 w, (D0 - D1 w)(D0 + D1 w) = D0^2 - D1^2 w^2
+ * and w^2 = P/Q, from the tallest root down (a conjugate in a lower root
+ * brings back no taller one), then cancel.  Over the basis 1, w of each root
+ * num/den is then unique.  false when a root of higher degree stays in the
+ * denominator or a conjugate is 0 (a zero divisor: sqrt(u^2) - u), or on
+ * error. */
+bool ratform_rationalise(ratform_job *j, ratform_frac *f)
+{
+	bool ok = true;
+	fmpq_mpoly_univar_t by_power;
+	fmpq_mpoly_t conjugate, w;
+	fmpq_mpoly_univar_init(by_power, j->ring);
+	fmpq_mpoly_init(conjugate, j->ring);
+	fmpq_mpoly_init(w, j->ring);
+	for (size_t r = j->nrelations; r-- > 0 && ok;) {
+		const ratform_group *g = &j->groups[j->relations[r]];
+		slong degree = fmpq_mpoly_degree_si(f->den, g->var, j->ring);
+		if (degree < 1)
+			continue;
+		if (g->degree != 2 || degree != 1) {
+			ok = false;
+			break;
+		}
+		/* conjugate = D0 - D1 w */
+		fmpq_mpoly_to_univar(by_power, f->den, g->var, j->ring);
+		fmpq_mpoly_zero(conjugate, j->ring);
+		for (slong i = 0; i < fmpq_mpoly_univar_length(by_power, j->ring); i++) {
+			fmpq_mpoly_univar_get_term_coeff(w, by_power, i, j->ring);
+			if (fmpq_mpoly_univar_get_term_exp_si(by_power, i, j->ring) == 1) {
+				fmpq_mpoly_t gen;
+				fmpq_mpoly_init(gen, j->ring);
+				fmpq_mpoly_gen(gen, g->var, j->ring);
+				fmpq_mpoly_mul(w, w, gen, j->ring);
+				fmpq_mpoly_clear(gen, j->ring);
+				fmpq_mpoly_neg(w, w, j->ring);
+			}
+			fmpq_mpoly_add(conjugate, conjugate, w, j->ring);
+		}
+		ok = mul_into(j, f->num, conjugate) && mul_into(j, f->den, conjugate) && reduce(j, f) &&
+		     fmpq_mpoly_degree_si(f->den, g->var, j->ring) < 1 &&
+		     !fmpq_mpoly_is_zero(f->den, j->ring);
+	}
+	fmpq_mpoly_univar_clear(by_power, j->ring);
+	fmpq_mpoly_clear(conjugate, j->ring);
+	fmpq_mpoly_clear(w, j->ring);
+	return ok && cancel(j, f);
+}

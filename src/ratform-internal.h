@@ -84,5 +84,7 @@ slong ratform_piece_var(ratform_job *j, const ratform_piece *p, slong *exponent)
 const ratform_frac *ratform_fraction(ratform_job *j, const expr *e);
 /* Set up the relations of the candidate groups; false on error. */
 bool ratform_set_relations(ratform_job *j);
+/* Clear square roots out of f's denominator; false when it cannot (or on error). */
+bool ratform_rationalise(ratform_job *j, ratform_frac *f);
 
 #endif

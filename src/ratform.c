@@ -28,6 +28,12 @@
  * symbolic exponent, a root index over MAX_ROOT) is a free atom.  Each
  * rewrite holds wherever both sides are defined.
  *
+ * An exponent that is a fraction, e = N/Q (in lowest terms, with square
+ * roots cleared out of Q by their conjugates), is split as e = S + R/Q by
+ * dividing N by Q in the lex order: the remainder by one polynomial is
+ * unique, so exp(e + v) = exp(e) exp(v) for a polynomial v gives the atoms
+ * of exp(e) and exp(v), and x^(e + 1) those of x^e and x.
+ *
  * At the end every atom's exponents are divided by their gcd (w^2 -> w with
  * u doubled), so the form does not depend on which roots the input showed,
  * the denominator is made monic and factored over Q, and the result is
@@ -45,8 +51,9 @@
 #include "ratform-internal.h"
 #include "xalloc.h"
 
-/* Memo tag e -> ratform_normal(e) (negative: never one of expr_memo_new_tag's). */
-enum { RATFORM_TAG = -13 };
+/* Memo tags (negative: never one of expr_memo_new_tag's): e -> normal(e);
+ * an exponent u -> the parts S, F and c of its split u = S + c F. */
+enum { RATFORM_TAG = -13, SPLIT_POLY_TAG = -14, SPLIT_FRACTION_TAG = -15, SPLIT_SCALE_TAG = -16 };
 
 enum {
 	MAX_ROOT = 1000,        /* largest L of a relation w^L = b */
@@ -92,6 +99,9 @@ void ratform_pair_put(ratform_pair_map *map, const void *a, const void *b, size_
 
 /* ------------------------------------------------------------------ pieces */
 
+static void exponent_split(expr_ctx *ctx, const expr *u, const expr **poly, const expr **fraction,
+                           mpq_t scale);
+
 static void push_piece(ratform_job *j, const expr *base, const expr *monomial, mpq_srcptr power)
 {
 	if (j->npieces == j->piece_cap) {
@@ -107,9 +117,12 @@ static void push_piece(ratform_job *j, const expr *base, const expr *monomial, m
 	mpq_set(p->power, power);
 }
 
-/* exp(u)^scale = prod exp(m_i)^(scale c_i) for u = sum c_i m_i (a number
- * term c0 is c0 * 1). */
-static void exp_pieces(ratform_job *j, const expr *u, mpq_srcptr scale)
+/* The terms c_i m_i of a sum (or the one term of anything else) as pieces
+ * (base, m_i, scale c_i); a number term is c * 1.  With numbers_apart,
+ * b^(number term) goes through numeric_power_pieces instead. */
+static void numeric_power_pieces(ratform_job *j, const expr *b, mpq_srcptr c);
+
+static void term_pieces(ratform_job *j, const expr *base, const expr *u, mpq_srcptr scale, bool numbers_apart)
 {
 	size_t n = u->kind == EXPR_ADD ? u->nops : 1;
 	mpq_t c;
@@ -118,7 +131,25 @@ static void exp_pieces(ratform_job *j, const expr *u, mpq_srcptr scale)
 		const expr *term = u->kind == EXPR_ADD ? u->u.add.terms[i] : u;
 		const expr *m = expr_split_coef(j->ctx, term, c);
 		mpq_mul(c, c, scale);
-		push_piece(j, NULL, m, c);
+		if (numbers_apart && m == j->ctx->one)
+			numeric_power_pieces(j, base, c);
+		else if (mpq_sgn(c))
+			push_piece(j, base, m, c);
+	}
+	mpq_clear(c);
+}
+
+/* base^(scale u) (base NULL: exp) for u = S + c F split canonically. */
+static void exponent_pieces(ratform_job *j, const expr *base, const expr *u, mpq_srcptr scale)
+{
+	const expr *poly, *fraction;
+	mpq_t c;
+	mpq_init(c);
+	exponent_split(j->ctx, u, &poly, &fraction, c);
+	term_pieces(j, base, poly, scale, base != NULL);
+	if (fraction) {
+		mpq_mul(c, c, scale);
+		push_piece(j, base, fraction, c);
 	}
 	mpq_clear(c);
 }
@@ -128,7 +159,7 @@ static void exp_pieces(ratform_job *j, const expr *u, mpq_srcptr scale)
 static void numeric_power_pieces(ratform_job *j, const expr *b, mpq_srcptr c)
 {
 	if (expr_is_fun(b, EXPR_F_EXP))
-		exp_pieces(j, b->u.fun.arg, c);
+		exponent_pieces(j, NULL, b->u.fun.arg, c);
 	else if (rat_is_integer(c) && (b->kind == EXPR_ADD || b->kind == EXPR_MUL || b->kind == EXPR_NUM))
 		push_piece(j, b, NULL, c);
 	else
@@ -142,18 +173,11 @@ static void power_pieces(ratform_job *j, const expr *b, const expr *x)
 		numeric_power_pieces(j, b, x->u.num);
 		return;
 	}
-	size_t n = x->kind == EXPR_ADD ? x->nops : 1;
-	mpq_t c;
-	mpq_init(c);
-	for (size_t i = 0; i < n; i++) {
-		const expr *term = x->kind == EXPR_ADD ? x->u.add.terms[i] : x;
-		const expr *m = expr_split_coef(j->ctx, term, c);
-		if (m == j->ctx->one)
-			numeric_power_pieces(j, b, c);
-		else
-			push_piece(j, b, m, c);
-	}
-	mpq_clear(c);
+	mpq_t one;
+	mpq_init(one);
+	mpq_set_ui(one, 1, 1);
+	exponent_pieces(j, b, x, one);
+	mpq_clear(one);
 }
 
 /* The parts of one factor of a product, or of an atom on its own. */
@@ -374,7 +398,8 @@ static void add_var(ratform_job *j, size_t group_index, mpq_srcptr unit)
  * distinct |c| in increasing order (atom x^(|c| m)). */
 static void number_atoms(ratform_job *j)
 {
-	qsort(j->groups, j->ngroups, sizeof *j->groups, compare_groups);
+	if (j->ngroups > 1) /* (qsort's array may not be NULL, even when empty) */
+		qsort(j->groups, j->ngroups, sizeof *j->groups, compare_groups);
 	for (size_t k = 0; k < j->ngroups; k++) {
 		ratform_group *g = &j->groups[k];
 		ratform_pair_put(&j->group_of, g->base, g->monomial, k + 1);
@@ -595,42 +620,140 @@ static void job_free(ratform_job *j)
 	free(j->frac_of.slots);
 }
 
+/* Start a job on e: its atoms, their ring and relations, and the fraction
+ * of e (NULL on error; the job is freed by the caller either way). */
+static const ratform_frac *run_job(ratform_job *j, expr_ctx *ctx, const expr *e)
+{
+	memset(j, 0, sizeof *j);
+	j->ctx = ctx;
+	j->max_terms = ctx->limits.max_terms;
+	const expr *prepared = prepare(j, e);
+	if (!prepared)
+		return NULL;
+	collect(j, prepared);
+	number_atoms(j);
+	fmpq_mpoly_ctx_init(j->ring, j->nvars > 0 ? j->nvars : 1, ORD_LEX);
+	j->ring_ready = true;
+	if (!ratform_set_relations(j))
+		return NULL;
+	return ratform_fraction(j, prepared);
+}
+
 /* The normal form of e: *zero tells whether its numerator is 0; the node is
  * built only when asked.  NULL on error (or when not built). */
 static const expr *normal_form(expr_ctx *ctx, const expr *e, bool *zero, bool want_node)
 {
 	ratform_job j;
-	memset(&j, 0, sizeof j);
-	j.ctx = ctx;
-	j.max_terms = ctx->limits.max_terms;
 	const expr *result = NULL;
-	const expr *prepared = prepare(&j, e);
-	if (!prepared)
-		goto done;
-	collect(&j, prepared);
-	number_atoms(&j);
-	fmpq_mpoly_ctx_init(j.ring, j.nvars > 0 ? j.nvars : 1, ORD_LEX);
-	j.ring_ready = true;
-	if (!ratform_set_relations(&j))
-		goto done;
-	const ratform_frac *top = ratform_fraction(&j, prepared);
-	if (!top)
-		goto done;
-	*zero = fmpq_mpoly_is_zero(top->num, j.ring);
-	if (!want_node)
-		goto done;
-	ratform_frac f;
-	fmpq_mpoly_init(f.num, j.ring);
-	fmpq_mpoly_init(f.den, j.ring);
-	fmpq_mpoly_set(f.num, top->num, j.ring);
-	fmpq_mpoly_set(f.den, top->den, j.ring);
-	deflate(&j, &f);
-	result = build(&j, &f);
-	fmpq_mpoly_clear(f.num, j.ring);
-	fmpq_mpoly_clear(f.den, j.ring);
-done:
+	const ratform_frac *top = run_job(&j, ctx, e);
+	if (top) {
+		*zero = fmpq_mpoly_is_zero(top->num, j.ring);
+		if (want_node) {
+			ratform_frac f;
+			fmpq_mpoly_init(f.num, j.ring);
+			fmpq_mpoly_init(f.den, j.ring);
+			fmpq_mpoly_set(f.num, top->num, j.ring);
+			fmpq_mpoly_set(f.den, top->den, j.ring);
+			deflate(&j, &f);
+			result = build(&j, &f);
+			fmpq_mpoly_clear(f.num, j.ring);
+			fmpq_mpoly_clear(f.den, j.ring);
+		}
+	}
 	job_free(&j);
 	return result;
+}
+
+/* Is u a polynomial in its atoms as written (no negative or symbolic exponent)? */
+static bool polynomial_form(const expr *u)
+{
+	size_t n = u->kind == EXPR_ADD ? u->nops : 1;
+	for (size_t i = 0; i < n; i++) {
+		const expr *term = u->kind == EXPR_ADD ? u->u.add.terms[i] : u;
+		if (term->kind != EXPR_MUL)
+			continue;
+		for (size_t k = 0; k < term->nops; k++)
+			if (term->u.mul.exps[k]->kind != EXPR_NUM || mpq_sgn(term->u.mul.exps[k]->u.num) < 0)
+				return false;
+	}
+	return true;
+}
+
+/* An exponent u = N/Q (exp's argument, a symbolic power) split as
+ * u = S + c F with N = S Q + R the division of N by Q in the lex order,
+ * F = R/(c Q), c the leading coefficient of R: the remainder by a single
+ * polynomial is unique, so equal u give equal S and F, and
+ * exp(u + v) = exp(u) exp(v) for a polynomial v gives the same atoms as
+ * exp(u) and exp(v).  *fraction is NULL when R = 0. */
+static void exponent_split(expr_ctx *ctx, const expr *u, const expr **poly, const expr **fraction,
+                           mpq_t scale)
+{
+	*poly = u;
+	*fraction = NULL;
+	if (polynomial_form(u))
+		return;
+	const expr *known = expr_memo_get(ctx, SPLIT_POLY_TAG, u, NULL);
+	if (!known) {
+		ratform_job j;
+		const ratform_frac *top = run_job(&j, ctx, u);
+		const expr *quotient = NULL, *rest = NULL, *lead = ctx->zero;
+		if (top && !fmpq_mpoly_is_fmpq(top->den, j.ring)) {
+			ratform_frac f;
+			fmpq_mpoly_init(f.num, j.ring);
+			fmpq_mpoly_init(f.den, j.ring);
+			fmpq_mpoly_set(f.num, top->num, j.ring);
+			fmpq_mpoly_set(f.den, top->den, j.ring);
+			fmpq_mpoly_t s;
+			fmpq_mpoly_init(s, j.ring);
+			if (ratform_rationalise(&j, &f)) {
+				fmpq_mpoly_t remainder;
+				fmpq_mpoly_init(remainder, j.ring);
+				fmpq_mpoly_divrem(s, remainder, f.num, f.den, j.ring);
+				fmpq_mpoly_swap(remainder, f.num, j.ring);
+				fmpq_mpoly_clear(remainder, j.ring);
+				quotient = poly_expr(&j, s);
+			} else if (!expr_error(ctx)) {
+				/* not split: u is one atom of its own */
+				quotient = ctx->zero;
+				rest = u;
+				lead = ctx->one;
+			}
+			if (quotient && !rest && !fmpq_mpoly_is_zero(f.num, j.ring)) {
+				fmpq_t c;
+				fmpq_init(c);
+				fmpq_mpoly_get_term_coeff_fmpq(c, f.num, 0, j.ring);
+				fmpq_mpoly_scalar_div_fmpq(f.num, f.num, c, j.ring);
+				mpq_t value;
+				mpq_init(value);
+				fmpq_get_mpq(value, c);
+				lead = expr_num(ctx, value);
+				mpq_clear(value);
+				fmpq_clear(c);
+				deflate(&j, &f);
+				rest = build(&j, &f);
+			}
+			fmpq_mpoly_clear(s, j.ring);
+			fmpq_mpoly_clear(f.num, j.ring);
+			fmpq_mpoly_clear(f.den, j.ring);
+		} else if (top) {
+			quotient = u; /* a constant denominator */
+		}
+		if (quotient && !rest)
+			rest = ctx->zero;
+		job_free(&j);
+		if (!quotient || !rest || !lead)
+			return; /* the error is in the context: the caller stops */
+		expr_memo_put(ctx, SPLIT_POLY_TAG, u, NULL, quotient);
+		expr_memo_put(ctx, SPLIT_FRACTION_TAG, u, NULL, rest);
+		expr_memo_put(ctx, SPLIT_SCALE_TAG, u, NULL, lead);
+		known = quotient;
+	}
+	*poly = known;
+	const expr *rest = expr_memo_get(ctx, SPLIT_FRACTION_TAG, u, NULL);
+	if (!expr_is_zero(rest)) {
+		*fraction = rest;
+		mpq_set(scale, expr_memo_get(ctx, SPLIT_SCALE_TAG, u, NULL)->u.num);
+	}
 }
 
 const expr *ratform_normal(expr_ctx *ctx, const expr *e)

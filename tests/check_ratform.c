@@ -157,6 +157,61 @@ START_TEST(test_function_atoms)
 }
 END_TEST
 
+/* Exponents that are fractions are split as polynomial + remainder, so
+ * exp(u + a) = exp(u) exp(a) and x^(u + 1) = x^u x (common practice, no
+ * source: exp and powers turn sums into products). */
+START_TEST(test_exponent_split)
+{
+	/* (exp(u + a) + exp(u))/(exp(a) + 1) = exp(u) for u = b/(1 + a) */
+	const expr *u = DIV(b, ADD(a, N(1)));
+	NORMALISES(DIV(ADD(FN(EXP, ADD(u, a)), FN(EXP, u)), ADD(FN(EXP, a), N(1))), FN(EXP, u));
+	/* the same with a square root in u's denominator: u = b/(1 + sqrt(a + b)) */
+	const expr *v = DIV(b, ADD(SQRT(ADD(a, b)), N(1)));
+	const expr *ev = FN(EXP, v);
+	ck_assert(ratform_is_zero(ctx, SUB(DIV(ADD(FN(EXP, ADD(v, a)), ev), ADD(FN(EXP, a), N(1))), ev)));
+	/* x^(u + 1) = x x^u: (x^(u+1) - x^u)/(x - 1) = x^u */
+	const expr *xu = POW(x, u);
+	NORMALISES(DIV(SUB(POW(x, ADD(u, N(1))), xu), SUB(x, N(1))), xu);
+}
+END_TEST
+
+/* The zero-coupon bond price of the square-root short rate
+ * dr = kappa (theta - r) dt + sigma sqrt(r) dW,
+ *   P = A exp(-B r), B = 2 (e^(g tau) - 1)/D, D = (g + kappa)(e^(g tau) - 1) + 2 g,
+ *   A = (2 g e^((kappa + g) tau/2)/D)^(2 kappa theta/sigma^2), g = sqrt(kappa^2 + 2 sigma^2),
+ * solves P_t + kappa (theta - r) P_r + 1/2 sigma^2 r P_rr - r P = 0 (Cox, Ingersoll,
+ * Ross, Econometrica 1985; D. Brigo, F. Mercurio, Interest Rate Models, 2nd ed.,
+ * sec. 3.2.3, from memory).  The residual, built with the diff module, is 0. */
+START_TEST(test_square_root_bond)
+{
+	const expr *kappa = expr_sym(ctx, "kappa"), *theta = expr_sym(ctx, "theta");
+	const expr *sigma = expr_sym(ctx, "sigma"), *T = expr_sym(ctx, "T"), *r = expr_sym(ctx, "r");
+	for (int assumed = 0; assumed < 2; assumed++) {
+		if (assumed) {
+			const expr *positive[] = {kappa, theta, sigma, T, r};
+			for (int i = 0; i < 5; i++)
+				expr_sym_set_sign(ctx, positive[i], EXPR_SIGN_POS);
+		}
+		const expr *gamma = SQRT(ADD(POW(kappa, N(2)), MUL(N(2), POW(sigma, N(2)))));
+		const expr *tau = SUB(T, t);
+		const expr *E1 = SUB(FN(EXP, MUL(gamma, tau)), N(1));
+		const expr *D = ADD(MUL(ADD(gamma, kappa), E1), MUL(N(2), gamma));
+		const expr *B = DIV(MUL(N(2), E1), D);
+		const expr *inside =
+		        DIV(MUL(MUL(N(2), gamma), FN(EXP, DIV(MUL(ADD(kappa, gamma), tau), N(2)))), D);
+		const expr *A = MUL(DIV(MUL(MUL(N(2), kappa), theta), POW(sigma, N(2))), FN(LOG, inside));
+		const expr *P = FN(EXP, SUB(A, MUL(B, r)));
+		const expr *Pr = diff(ctx, P, r);
+		const expr *L = ADD(diff(ctx, P, t), MUL(MUL(kappa, SUB(theta, r)), Pr));
+		L = ADD(L, MUL(MUL(Q(1, 2), MUL(POW(sigma, N(2)), r)), diff(ctx, Pr, r)));
+		L = SUB(L, MUL(r, P));
+		ck_assert_ptr_nonnull(L);
+		ck_assert(!expr_is_zero(L));
+		NORMALISES(L, N(0));
+	}
+}
+END_TEST
+
 /* d/dt 8/(3t/2 + 1)^3 = -36/(3t/2 + 1)^4 (the power rule and the chain rule,
  * common practice, no source), compared after the normal form. */
 START_TEST(test_derivative)
@@ -481,6 +536,8 @@ Suite *ratform_suite(void)
 	tcase_add_test(tc, test_cancellation);
 	tcase_add_test(tc, test_fractional_powers);
 	tcase_add_test(tc, test_function_atoms);
+	tcase_add_test(tc, test_exponent_split);
+	tcase_add_test(tc, test_square_root_bond);
 	tcase_add_test(tc, test_derivative);
 	tcase_add_test(tc, test_limits);
 	tcase_add_test(tc, test_random_expressions);
