@@ -57,7 +57,7 @@ enum { RATFORM_TAG = -13, SPLIT_POLY_TAG = -14, SPLIT_FRACTION_TAG = -15, SPLIT_
 
 enum {
 	MAX_ROOT = 1000,        /* largest L of a relation w^L = b */
-	MAX_RATIO = 1000,       /* largest c/u in one group before it splits into atoms */
+	MAX_RATIO = 10000,      /* largest c/u in one group before it splits into atoms */
 	MAX_FACTOR_TERMS = 2000 /* a larger denominator is kept whole (not factored) */
 };
 
