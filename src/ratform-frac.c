@@ -166,8 +166,9 @@ static bool reduce(ratform_job *j, ratform_frac *f)
 	return ok;
 }
 
-/* Apply the relations, divide num and den by their gcd and make den monic. */
-static bool cancel(ratform_job *j, ratform_frac *f)
+/* Apply the relations, divide num and den by their gcd (unless known to be
+ * 1) and make den monic. */
+static bool cancel_known(ratform_job *j, ratform_frac *f, bool coprime)
 {
 	if (j->nrelations && !reduce(j, f))
 		return false;
@@ -179,7 +180,7 @@ static bool cancel(ratform_job *j, ratform_frac *f)
 		fmpq_mpoly_one(f->den, j->ring);
 		return true;
 	}
-	if (!fmpq_mpoly_is_fmpq(f->den, j->ring)) {
+	if (!coprime && !fmpq_mpoly_is_fmpq(f->den, j->ring)) {
 		fmpq_mpoly_t g;
 		fmpq_mpoly_init(g, j->ring);
 		bool ok = fmpq_mpoly_gcd(g, f->num, f->den, j->ring);
@@ -201,8 +202,15 @@ static bool cancel(ratform_job *j, ratform_frac *f)
 	return !expr_poll_interrupt(j->ctx);
 }
 
-/* acc := acc + t: with g = gcd(d1, d2), n1/d1 + n2/d2 = (n1 d2/g + n2 d1/g) / (d1 d2/g). */
-static bool add_frac(ratform_job *j, ratform_frac *acc, const ratform_frac *t)
+static bool cancel(ratform_job *j, ratform_frac *f)
+{
+	return cancel_known(j, f, false);
+}
+
+/* acc := acc + t: with g = gcd(d1, d2), n1/d1 + n2/d2 = (n1 d2/g + n2 d1/g) / (d1 d2/g).
+ * *coprime stays true only when g = 1: then, both in lowest terms, so is
+ * the sum (a prime factor of d1 dividing n1 d2 + n2 d1 would divide n1). */
+static bool add_frac(ratform_job *j, ratform_frac *acc, const ratform_frac *t, bool *coprime)
 {
 	if (fmpq_mpoly_equal(acc->den, t->den, j->ring)) {
 		fmpq_mpoly_add(acc->num, acc->num, t->num, j->ring);
@@ -217,6 +225,7 @@ static bool add_frac(ratform_job *j, ratform_frac *acc, const ratform_frac *t)
 	          fmpq_mpoly_divides(d1, acc->den, g, j->ring) && fmpq_mpoly_divides(d2, t->den, g, j->ring);
 	if (!ok)
 		fail_exponents(j);
+	*coprime = *coprime && fmpq_mpoly_is_one(g, j->ring);
 	fmpq_mpoly_set(n2, t->num, j->ring);
 	ok = ok && mul_into(j, acc->num, d2) && mul_into(j, n2, d1) && mul_into(j, acc->den, d2);
 	if (ok) {
@@ -231,10 +240,13 @@ static bool add_frac(ratform_job *j, ratform_frac *acc, const ratform_frac *t)
 }
 
 /* A sum: the numerators of terms with the same denominator are added first
- * (a canonical sum has few distinct denominators), then the groups. */
+ * (a canonical sum has few distinct denominators) and cancelled, then the
+ * groups are added; the last gcd is skipped when the denominators were
+ * pairwise coprime (and no relation rewrote the result). */
 static bool sum_frac(ratform_job *j, const expr *e, ratform_frac *out)
 {
 	ratform_frac *groups = xmalloc(e->nops * sizeof *groups);
+	size_t *sizes = xcalloc(e->nops, sizeof *sizes);
 	size_t n = 0;
 	bool ok = true;
 	for (size_t i = 0; i < e->nops && ok; i++) {
@@ -252,21 +264,27 @@ static bool sum_frac(ratform_job *j, const expr *e, ratform_frac *out)
 			fmpq_mpoly_set(groups[n].den, t->den, j->ring);
 			n++;
 		}
+		sizes[k]++;
 		fmpq_mpoly_add(groups[k].num, groups[k].num, t->num, j->ring);
 		ok = checked(j, groups[k].num);
 	}
+	for (size_t k = 0; k < n && ok && n > 1; k++)
+		if (sizes[k] > 1)
+			ok = cancel(j, &groups[k]);
 	if (ok && n > 0) {
 		fmpq_mpoly_swap(out->num, groups[0].num, j->ring);
 		fmpq_mpoly_swap(out->den, groups[0].den, j->ring);
 	}
+	bool coprime = n > 1 && j->nrelations == 0;
 	for (size_t k = 1; k < n && ok; k++)
-		ok = add_frac(j, out, &groups[k]);
+		ok = add_frac(j, out, &groups[k], &coprime);
 	for (size_t k = 0; k < n; k++) {
 		fmpq_mpoly_clear(groups[k].num, j->ring);
 		fmpq_mpoly_clear(groups[k].den, j->ring);
 	}
 	free(groups);
-	return ok && cancel(j, out);
+	free(sizes);
+	return ok && cancel_known(j, out, coprime);
 }
 
 /* out := out * b^k for an integer k (b^-k puts b's denominator on top). */
