@@ -347,7 +347,9 @@ static bool product_frac(ratform_job *j, const expr *e, ratform_frac *out)
 			if (p->monomial) {
 				slong exponent;
 				slong var = ratform_piece_var(j, p, &exponent);
-				exps[var] += exponent;
+				ok = var >= 0;
+				if (ok)
+					exps[var] += exponent;
 				continue;
 			}
 			if (!mpz_fits_slong_p(mpq_numref(p->power))) {

@@ -78,7 +78,7 @@ typedef struct ratform_job {
 
 /* Push the pieces of factor i of the product e (or of the atom e) on the stack. */
 void ratform_factor_pieces(ratform_job *j, const expr *e, size_t i);
-/* The variable and exponent of the atom piece p. */
+/* The variable and exponent of the atom piece p (-1 on error). */
 slong ratform_piece_var(ratform_job *j, const ratform_piece *p, slong *exponent);
 /* The fraction of a node in the ring (memoized); NULL on error. */
 const ratform_frac *ratform_fraction(ratform_job *j, const expr *e);

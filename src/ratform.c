@@ -434,18 +434,31 @@ static void number_atoms(ratform_job *j)
 	}
 }
 
-/* The variable and exponent of group (base, monomial)^c. */
+/* The variable and exponent of group (base, monomial)^c; -1 (and an error)
+ * if the atom was not collected, which the two passes over the same nodes
+ * rule out. */
 slong ratform_piece_var(ratform_job *j, const ratform_piece *p, slong *exponent)
 {
-	const ratform_group *g = &j->groups[ratform_pair_get(&j->group_of, p->base, p->monomial) - 1];
+	size_t index = ratform_pair_get(&j->group_of, p->base, p->monomial);
+	if (!index) {
+		expr_fail(j->ctx, EXPR_ERR_TOO_LARGE, "rational normal form: an atom was missed (a bug)");
+		return -1;
+	}
+	const ratform_group *g = &j->groups[index - 1];
 	mpq_t ratio;
 	mpq_init(ratio);
 	slong var = g->var;
 	if (g->split) {
 		mpq_abs(ratio, p->power);
-		while (!mpq_equal(j->vars[var].unit, ratio))
+		while (var < j->nvars && j->vars[var].group == index - 1 &&
+		       !mpq_equal(j->vars[var].unit, ratio))
 			var++;
 		*exponent = mpq_sgn(p->power);
+		if (var == j->nvars || j->vars[var].group != index - 1) {
+			expr_fail(j->ctx, EXPR_ERR_TOO_LARGE,
+			          "rational normal form: an atom was missed (a bug)");
+			var = -1;
+		}
 	} else {
 		mpq_div(ratio, p->power, g->unit);
 		*exponent = mpz_get_si(mpq_numref(ratio)); /* |c/u| <= MAX_RATIO or < MAX_ROOT */
