@@ -730,6 +730,12 @@ static bool decide_at(ball_claim *claim, slong prec, arb_t d, ball_verdict *out,
 
 ball_decision ball_claim_decide(ball_claim *claim, const mpq_t *values, ball_verdict *out)
 {
+	return ball_claim_decide_from(claim, values, 64, out);
+}
+
+ball_decision ball_claim_decide_from(ball_claim *claim, const mpq_t *values, slong least,
+                                     ball_verdict *out)
+{
 	static const slong precisions[] = {64, 256, 1024, BALL_MAX_PRECISION};
 	*out = (ball_verdict){.decision = BALL_UNDECIDED, .reason = BALL_REASON_NONE};
 	ball_reason reason = BALL_REASON_NONE;
@@ -738,6 +744,8 @@ ball_decision ball_claim_decide(ball_claim *claim, const mpq_t *values, ball_ver
 	bool decided = false;
 	for (size_t k = 0; k < sizeof precisions / sizeof *precisions && !decided; k++) {
 		slong prec = precisions[k];
+		if (prec < least && prec != BALL_MAX_PRECISION)
+			continue;
 		out->bits = prec;
 		for (size_t i = 0; i < claim->natoms; i++)
 			ball_set_mpq(claim->values + i, values[i], prec);

@@ -107,6 +107,11 @@ void ball_claim_free(ball_claim *claim);
 /* Decide at the point atom i = values[i], raising the precision until decided. */
 ball_decision ball_claim_decide(ball_claim *claim, const mpq_t *values, ball_verdict *out);
 
+/* ball_claim_decide starting at the first precision of at least least bits: a
+ * difference smaller than 64-bit rounding (1/10^40) is seen at 1024 bits. */
+ball_decision ball_claim_decide_from(ball_claim *claim, const mpq_t *values, slong least,
+                                     ball_verdict *out);
+
 /* ball_claim_new + ball_claim_decide + ball_claim_free for one point. */
 ball_decision ball_compare_zero(expr_ctx *ctx, const expr *difference, const expr *lhs, const expr *rhs,
                                 size_t natoms, const expr *const *atoms, const mpq_t *values,

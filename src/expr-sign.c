@@ -135,12 +135,49 @@ static int sum_sign_by_bounds(expr_ctx *ctx, const expr *e)
 		total.lo_open |= b.lo_open;
 		total.hi_open |= b.hi_open;
 	}
-	double margin = 1e-12 * (fabs(total.lo) + fabs(total.hi) + 1);
+	double margin = 1e-12 * ((isfinite(total.lo) ? fabs(total.lo) : 0) +
+				 (isfinite(total.hi) ? fabs(total.hi) : 0) + 1);
 	if (total.lo > margin || (total.lo == 0 && total.lo_open && isfinite(total.lo)))
 		return EXPR_SIGN_POS;
 	if (total.hi < -margin || (total.hi == 0 && total.hi_open && isfinite(total.hi)))
 		return EXPR_SIGN_NEG;
 	return EXPR_SIGN_UNKNOWN;
+}
+
+/* The sign of a sum whose terms share a positive factor: 2*a + a*sin(x) is
+ * a*(2 + sin(x)), positive for a > 0.  The factor is the product of the
+ * positive bases of the first term that every term has, each to its least
+ * exponent. */
+static int sum_sign_by_factor(expr_ctx *ctx, const expr *e)
+{
+	const expr *first = e->u.add.terms[0];
+	if (first->kind != EXPR_MUL)
+		return EXPR_SIGN_UNKNOWN;
+	const expr *common = ctx->one;
+	for (size_t i = 0; i < first->nops; i++) {
+		const expr *base = first->u.mul.bases[i], *least = first->u.mul.exps[i];
+		if (least->kind != EXPR_NUM || expr_sign(ctx, base) != EXPR_SIGN_POS)
+			continue;
+		bool everywhere = true;
+		for (size_t t = 1; t < e->nops && everywhere; t++) {
+			const expr *term = e->u.add.terms[t];
+			everywhere = false;
+			for (size_t j = 0; term->kind == EXPR_MUL && j < term->nops; j++)
+				if (term->u.mul.bases[j] == base && term->u.mul.exps[j]->kind == EXPR_NUM) {
+					everywhere = true;
+					if (mpq_cmp(term->u.mul.exps[j]->u.num, least->u.num) < 0)
+						least = term->u.mul.exps[j];
+				}
+		}
+		if (everywhere)
+			common = expr_mul(ctx, common, expr_pow(ctx, base, least));
+	}
+	if (!common || common == ctx->one)
+		return EXPR_SIGN_UNKNOWN;
+	const expr *rest = expr_div_terms(ctx, e, common);
+	if (!rest || rest->kind != EXPR_ADD || rest == e)
+		return EXPR_SIGN_UNKNOWN;
+	return sum_sign_by_bounds(ctx, rest);
 }
 
 int expr_sign(expr_ctx *ctx, const expr *e)
@@ -192,7 +229,8 @@ int expr_sign(expr_ctx *ctx, const expr *e)
 			return some_pos ? EXPR_SIGN_POS : EXPR_SIGN_NONNEG;
 		if (all_nonpos)
 			return some_neg ? EXPR_SIGN_NEG : EXPR_SIGN_NONPOS;
-		return sum_sign_by_bounds(ctx, e);
+		int by_bounds = sum_sign_by_bounds(ctx, e);
+		return by_bounds != EXPR_SIGN_UNKNOWN ? by_bounds : sum_sign_by_factor(ctx, e);
 	}
 	}
 	return EXPR_SIGN_UNKNOWN;

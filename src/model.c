@@ -11,6 +11,8 @@ void model_init(model *m, expr_ctx *ctx)
 	memset(m, 0, sizeof *m);
 	m->ctx = ctx;
 	m->time = expr_sym(ctx, "t");
+	/* time runs from 0: log(S + t) is smooth where a positive S can go */
+	expr_sym_set_sign(ctx, m->time, EXPR_SIGN_NONNEG);
 }
 
 void model_free(model *m)

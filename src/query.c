@@ -7,6 +7,8 @@
  */
 #include "session-internal.h"
 
+#include "ratform.h"
+
 #include <stdlib.h>
 #include <string.h>
 
@@ -95,16 +97,45 @@ static void result_set_diff(pending *p, const ito_diff *d)
 	p->r.diff.n = d->n;
 }
 
+/* A coefficient that is identically zero as a rational function of its atoms
+ * is 0 (the rational normal form decides; the result keeps its own form
+ * otherwise, which is usually the shorter).  A normal form over the size
+ * limit leaves the coefficient as it is. */
+static const expr *settle_zero(session *s, const expr *e)
+{
+	/* a bound on the work: a large result is left in its own form (the
+	 * normal form of a 50,000-term sum would take longer than the query) */
+	enum { SETTLE_MAX_SIZE = 20000 };
+	if (!e || expr_is_num(e) || expr_kind_of(e) == EXPR_SYM || expr_kind_of(e) == EXPR_FAPP ||
+	    expr_size(e) > SETTLE_MAX_SIZE)
+		return e;
+	if (ratform_is_zero(s->ctx, e))
+		return expr_int(s->ctx, 0);
+	if (expr_error(s->ctx) == EXPR_ERR_TOO_LARGE)
+		expr_clear_error(s->ctx);
+	return e;
+}
+
 /* Hand the result to the writer; a format that cannot write it is an error
  * of the statement. */
 bool result_emit(session *s, pending *p, const ast_node *st)
 {
+	p->r.value = settle_zero(s, p->r.value);
+	const expr **dw = NULL;
+	if (p->r.diff.dw) {
+		p->r.diff.dt = settle_zero(s, p->r.diff.dt);
+		dw = xcalloc(p->r.diff.n + 1, sizeof *dw);
+		for (size_t k = 0; k < p->r.diff.n; k++)
+			dw[k] = settle_zero(s, p->r.diff.dw[k]);
+		p->r.diff.dw = dw;
+	}
 	char *error = NULL;
 	bool ok = writer_write(current_writer(s), &p->r, &error);
 	if (!ok) {
 		report(s, SESSION_INPUT, &st->loc, "%s", error);
 		free(error);
 	}
+	free(dw);
 	free(p->nodes);
 	free(p->names);
 	free(p->used);

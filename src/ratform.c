@@ -370,6 +370,8 @@ static void set_free_unit(ratform_group *g)
 		mpz_gcd(num, num, mpq_numref(g->coefs[i]));
 		mpz_lcm(den, den, mpq_denref(g->coefs[i]));
 	}
+	if (mpz_sgn(num) == 0)
+		mpz_set_ui(num, 1); /* every coefficient 0: any unit will do (it divided by 0) */
 	mpq_set_num(g->unit, num);
 	mpq_set_den(g->unit, den);
 	mpq_canonicalize(g->unit);

@@ -46,8 +46,10 @@ typedef struct verify_result {
 	char *left, *right;	 /* decimal values, enough digits to differ */
 } verify_result;
 
-/* Points tried for a numeric decision. */
+/* Points tried for a numeric decision; the first VERIFY_CONFIRM of them at
+ * 1024 bits or more. */
 #define VERIFY_POINTS 200
+#define VERIFY_CONFIRM 8
 
 void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigned long seed,
 		  verify_result *out);
