@@ -55,8 +55,9 @@
 		   "  example:  state x = log(S) where S = exp(x)\n")                                 \
 	X("claim", "claim LHS = RHS\n"                                                                \
 		   "  Verify an identity of expressions or differentials: exact comparison of\n"      \
-		   "  canonical forms, then a randomized test at points inside the declared\n"        \
-		   "  domains.  A failed claim makes the exit status 1.\n"                            \
+		   "  canonical forms, then certified ball arithmetic at points of the declared\n"    \
+		   "  domain.  Verdicts: holds, fails (with a counterexample) or undecided (with\n"   \
+		   "  the reason).  A failed or undecided claim makes the exit status 1.\n"          \
 		   "  example:  claim d log(S) = (mu - sigma^2/2)*dt + sigma*dW\n")                   \
 	X("check", "check [d] EXPR [= DIFFERENTIAL] at NAME=VALUE, ... [over T=1, steps=..., paths=...]\n" \
 		   "  A numerical cross-check by finite differences and simulation.\n"                \

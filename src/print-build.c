@@ -645,9 +645,24 @@ static dnode *build_add(printer *p, const expr *e)
 		}
 	}
 	dnode *sum = dnew(p, D_SUM);
-	if (sum_has_generic(e)) {
+	bool again = false;
+	for (size_t i = 0; i < p->nbuilding && !again; i++)
+		again = p->building[i] == e;
+	if (again || p->depth >= 64 || p->nbuilding == 64) {
+		/* grouping can hand a sum back to a grouping of another (two sums
+		 * whose collected coefficients contain each other): past the bound
+		 * the terms stand as they are, which prints the same value */
+		for (size_t i = 0; i < e->nops; i++)
+			push_sum_item(sum, prn_build(p, e->u.add.terms[i]));
+	} else if (sum_has_generic(e)) {
+		p->depth++;
+		p->building[p->nbuilding++] = e;
 		build_function_groups(p, sum, e->nops, (const expr *const *)e->u.add.terms);
+		p->nbuilding--;
+		p->depth--;
 	} else {
+		p->depth++;
+		p->building[p->nbuilding++] = e;
 		const expr *const *keep_terms = p->sum_terms;
 		size_t keep_n = p->nsum_terms;
 		expr_map keep_map = p->order_map;
@@ -668,6 +683,8 @@ static dnode *build_add(printer *p, const expr *e)
 		p->order_map = keep_map;
 		p->sum_terms = keep_terms;
 		p->nsum_terms = keep_n;
+		p->nbuilding--;
+		p->depth--;
 	}
 	/* flatten nested sums and start with a positive term: mu - 1/2*sigma^2 */
 	dnode *flat = dnew(p, D_SUM);

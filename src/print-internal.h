@@ -46,6 +46,8 @@ typedef struct printer {
 	const prn_abbrev *abbrev;
 	bool top;                     /* building the top-level node (never abbreviated) */
 	int depth;                    /* nesting of build_add: collection stops past a bound */
+	const expr *building[64]; /* the sums being built, innermost last (a cycle guard) */
+	size_t nbuilding;
 	bool plain_states;            /* LaTeX: S rather than S_t */
 	const expr *const *sum_terms; /* the terms of the sum being collected */
 	size_t nsum_terms;

@@ -13,6 +13,7 @@
 
 #include "ball.h"
 #include "domain.h"
+#include "ratform.h"
 #include "expr-internal.h"
 #include "xalloc.h"
 
@@ -43,10 +44,11 @@ static void collect_atoms(const expr *e, expr_map *seen, expr_vec *out)
 	}
 }
 
-/* Is e a polynomial in its atoms (no function application, no negative or
- * fractional power)?  Products over sums are expanded, so a polynomial's
- * canonical form is unique: nonzero in form is nonzero as a function. */
-static bool is_polynomial(const expr *e, expr_map *seen)
+/* Is e a rational function of its atoms: symbols and generic partials, with
+ * integer powers only (no function application, which identities such as
+ * sin^2 + cos^2 = 1 could tie, and no root, which relations tie)?  In the
+ * rational normal form such an e is zero only if it is 0. */
+static bool is_rational(const expr *e, expr_map *seen)
 {
 	if (expr_map_get(seen, e))
 		return true;
@@ -61,14 +63,13 @@ static bool is_polynomial(const expr *e, expr_map *seen)
 	case EXPR_MUL:
 		for (size_t i = 0; i < expr_nops(e); i++) {
 			const expr *x = expr_mul_exponent(e, i);
-			if (!expr_is_integer(x) || mpq_sgn(expr_num_value(x)) < 0 ||
-			    !is_polynomial(expr_mul_base(e, i), seen))
+			if (!expr_is_integer(x) || !is_rational(expr_mul_base(e, i), seen))
 				return false;
 		}
 		return true;
 	default:
 		for (size_t i = 0; i < expr_nops(e); i++)
-			if (!is_polynomial(expr_op(e, i), seen))
+			if (!is_rational(expr_op(e, i), seen))
 				return false;
 		return true;
 	}
@@ -236,6 +237,15 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 	bool all_zero = true;
 	for (size_t p = 0; p < in->nparts; p++) {
 		difference[p] = expr_sub(ctx, in->lhs[p], in->rhs[p]);
+		/* the rational normal form: 1/(x+1)^4 - (x+1)^(-4), a/(a+b) + b/(a+b) - 1
+		 * are 0 here; where it cannot be formed (a limit), the plain difference */
+		if (difference[p] && !expr_is_zero(difference[p])) {
+			const expr *normal = ratform_normal(ctx, difference[p]);
+			if (normal)
+				difference[p] = normal;
+			else
+				expr_clear_error(ctx);
+		}
 		if (!difference[p] || !expr_is_zero(difference[p]))
 			all_zero = false;
 	}
@@ -254,11 +264,12 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		r.values = xcalloc(r.nvalues + 1, sizeof *r.values);
 		for (size_t i = 0; i < r.nvalues; i++)
 			mpq_init(r.values[i]);
-		expr_map polynomial_seen = {0};
-		bool polynomial = is_polynomial(r.difference, &polynomial_seen);
-		expr_map_free(&polynomial_seen);
-		if (polynomial && domain_has_interior(r.dom) && rational_counterexample(&r, out, (int)p)) {
-			/* a nonzero polynomial: a certain failure (the point is for the message) */
+		expr_map rational_seen = {0};
+		bool rational = is_rational(r.difference, &rational_seen);
+		expr_map_free(&rational_seen);
+		if (rational && domain_has_interior(r.dom) && rational_counterexample(&r, out, (int)p)) {
+			/* a nonzero rational function in normal form: a certain failure
+			 * (the point is for the message) */
 			out->verdict = VERIFY_FAILS;
 			out->method = VERIFY_EXACT;
 		} else {

@@ -12,5 +12,6 @@ Suite *grammar_suite(void);
 Suite *props_suite(void);
 Suite *sim_suite(void);
 Suite *ball_suite(void);
+Suite *ratform_suite(void);
 
 #endif
