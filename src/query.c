@@ -7,6 +7,7 @@
  */
 #include "session-internal.h"
 
+#include "expr-internal.h"
 #include "ratform.h"
 
 #include <stdlib.h>
@@ -101,6 +102,33 @@ static void result_set_diff(pending *p, const ito_diff *d)
  * is 0 (the rational normal form decides; the result keeps its own form
  * otherwise, which is usually the shorter).  A normal form over the size
  * limit leaves the coefficient as it is. */
+/* Is e a polynomial in its atoms (every power a nonnegative integer, function
+ * arguments not looked into)?  Products over sums are expanded, so such an e
+ * is zero only if it is 0 already: the normal form has nothing to find. */
+static bool polynomial_in_atoms(const expr *e, expr_map *seen)
+{
+	if (expr_map_get(seen, e))
+		return true;
+	expr_map_put(seen, e, e);
+	switch (expr_kind_of(e)) {
+	case EXPR_ADD:
+		for (size_t i = 0; i < expr_nops(e); i++)
+			if (!polynomial_in_atoms(expr_op(e, i), seen))
+				return false;
+		return true;
+	case EXPR_MUL:
+		for (size_t i = 0; i < expr_nops(e); i++) {
+			const expr *x = expr_mul_exponent(e, i);
+			if (!expr_is_integer(x) || mpq_sgn(expr_num_value(x)) < 0 ||
+			    !polynomial_in_atoms(expr_mul_base(e, i), seen))
+				return false;
+		}
+		return true;
+	default:
+		return true;
+	}
+}
+
 static const expr *settle_zero(session *s, const expr *e)
 {
 	/* a bound on the work: a large result is left in its own form (the
@@ -108,6 +136,11 @@ static const expr *settle_zero(session *s, const expr *e)
 	enum { SETTLE_MAX_SIZE = 20000 };
 	if (!e || expr_is_num(e) || expr_kind_of(e) == EXPR_SYM || expr_kind_of(e) == EXPR_FAPP ||
 	    expr_size(e) > SETTLE_MAX_SIZE)
+		return e;
+	expr_map seen = {0};
+	bool polynomial = polynomial_in_atoms(e, &seen);
+	expr_map_free(&seen);
+	if (polynomial)
 		return e;
 	if (ratform_is_zero(s->ctx, e))
 		return expr_int(s->ctx, 0);
