@@ -134,13 +134,12 @@ static const expr *settle_zero(session *s, const expr *e)
 	/* a bound on the work: a large result is left in its own form (the
 	 * normal form of a 50,000-term sum would take longer than the query) */
 	enum { SETTLE_MAX_SIZE = 20000 };
-	if (!e || expr_is_num(e) || expr_kind_of(e) == EXPR_SYM || expr_kind_of(e) == EXPR_FAPP ||
-	    expr_size(e) > SETTLE_MAX_SIZE)
+	if (!e || (expr_kind_of(e) != EXPR_ADD && expr_kind_of(e) != EXPR_MUL))
 		return e;
 	expr_map seen = {0};
 	bool polynomial = polynomial_in_atoms(e, &seen);
 	expr_map_free(&seen);
-	if (polynomial)
+	if (polynomial || expr_size(e) > SETTLE_MAX_SIZE)
 		return e;
 	if (ratform_is_zero(s->ctx, e))
 		return expr_int(s->ctx, 0);
