@@ -249,12 +249,15 @@ static char *function_name(writer *w, const stmt_result *r)
 /* A comment: the text with any end-of-comment sequence broken. */
 static void comment(xbuf *buf, const char *text)
 {
+	size_t length = strlen(text);
+	while (length && text[length - 1] == '\n')
+		length--; /* a table's last newline ends the comment instead */
 	xbuf_put(buf, "/* ");
-	for (const char *c = text; *c; c++) {
-		xbuf_putc(buf, *c);
-		if (c[0] == '*' && c[1] == '/')
+	for (size_t i = 0; i < length; i++) {
+		xbuf_putc(buf, text[i]);
+		if (text[i] == '*' && text[i + 1] == '/')
 			xbuf_putc(buf, ' ');
-		if (*c == '\n' && c[1])
+		if (text[i] == '\n' && i + 1 < length)
 			xbuf_put(buf, " * ");
 	}
 	xbuf_put(buf, " */\n");
@@ -432,18 +435,12 @@ static bool c_write(writer *w, const stmt_result *r, char **error)
 		char *text = xasprintf("%s: check %s\n%s", place, verdict, table.data);
 		xbuf_free(&table);
 		free(verdict);
-		size_t length = strlen(text);
-		while (length && text[length - 1] == '\n')
-			text[--length] = '\0';
 		comment(&buf, text);
 		free(text);
 		break;
 	}
 	case RESULT_MODEL: {
 		char *text = xasprintf("%s: the model\n%s", place, r->script ? r->script : "");
-		size_t length = strlen(text);
-		while (length && text[length - 1] == '\n')
-			text[--length] = '\0';
 		comment(&buf, text);
 		free(text);
 		break;
