@@ -38,6 +38,27 @@ static void dump_assumption(session *s, xbuf *out, const model_entry *e)
 	}
 }
 
+/* "assume 2*kappa*theta > xi^2": a relation as it was declared. */
+static void dump_relation(session *s, xbuf *out, const model_relation *r)
+{
+	char *lhs = text_expr(s, r->lhs), *rhs = text_expr(s, r->rhs);
+	xbuf_printf(out, "assume %s %s %s\n", lhs, model_rel_text(r->op), rhs);
+	free(lhs);
+	free(rhs);
+}
+
+/* Does the relation use the name (show NAME lists the relations on it)? */
+static bool relation_uses(session *s, const model_relation *r, const char *name)
+{
+	expr_vec names = {0};
+	expr_free_symbols(s->ctx, r->difference, &names);
+	bool found = false;
+	for (size_t i = 0; i < names.n && !found; i++)
+		found = strcmp(expr_sym_name(names.items[i]), name) == 0;
+	expr_vec_free(&names);
+	return found;
+}
+
 /* The declarations of the model (only: those of one name) as statements. */
 static void dump_model_body(session *s, xbuf *out, const char *only)
 {
@@ -125,6 +146,11 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 		free(body);
 	}
 	s->measure = keep_measure;
+	/* relations after the SDEs: they may use states, which a script must
+	 * declare first */
+	for (size_t i = 0; i < m->nrelations; i++)
+		if (!only || relation_uses(s, &m->relations[i], only))
+			dump_relation(s, out, &m->relations[i]);
 	for (size_t i = 0; i < m->nentries; i++) {
 		model_entry *e = &m->entries[i];
 		if (e->kind != MODEL_LET || (only && strcmp(e->name, only) != 0))
