@@ -25,6 +25,24 @@ chstate_error chstate_check_inverse(expr_ctx *ctx, const chstate_change *change,
 	return *round == change->new_sym ? CHSTATE_OK : CHSTATE_NOT_INVERSE;
 }
 
+/* The old state's range (X > lo, X <= hi) as relations on inverse(x), but
+ * for those the sign oracle proves (S > 0 with S = exp(x)). */
+static void range_to_relations(model *m, const model_entry *old, const expr *inverse)
+{
+	expr_ctx *ctx = m->ctx;
+	const expr *bounds[2] = {old->lo, old->hi};
+	model_rel rels[2] = {old->lo_strict ? MODEL_REL_GT : MODEL_REL_GE,
+	                     old->hi_strict ? MODEL_REL_LT : MODEL_REL_LE};
+	for (int i = 0; i < 2; i++) {
+		if (!bounds[i])
+			continue;
+		const expr *difference = expr_sub(ctx, inverse, bounds[i]);
+		if (!difference || model_rel_certain(rels[i], expr_sign(ctx, difference)))
+			continue;
+		model_add_relation(m, inverse, bounds[i], difference, rels[i]);
+	}
+}
+
 chstate_error chstate_apply(model *m, const chstate_change *change)
 {
 	expr_ctx *ctx = m->ctx;
@@ -59,6 +77,27 @@ chstate_error chstate_apply(model *m, const chstate_change *change)
 		for (size_t k = 0; k < m->measures[i].nnoises; k++)
 			m->measures[i].shift[k] =
 			        expr_subst(ctx, m->measures[i].shift[k], 1, &old_sym, &inverse);
+	/* bounds and relations that use the old state, in the new one */
+	for (size_t i = 0; i < m->nentries; i++) {
+		model_entry *e = &m->entries[i];
+		if (e->sym == old_sym)
+			continue;
+		if (e->lo)
+			e->lo = expr_subst(ctx, e->lo, 1, &old_sym, &inverse);
+		if (e->hi)
+			e->hi = expr_subst(ctx, e->hi, 1, &old_sym, &inverse);
+	}
+	for (size_t i = 0; i < m->nrelations; i++) {
+		model_relation *r = &m->relations[i];
+		r->lhs = expr_subst(ctx, r->lhs, 1, &old_sym, &inverse);
+		r->rhs = expr_subst(ctx, r->rhs, 1, &old_sym, &inverse);
+		r->difference = expr_subst(ctx, r->difference, 1, &old_sym, &inverse);
+	}
+	model_entry *old = model_lookup(m, expr_sym_name(old_sym));
+	if (old && old->sym == old_sym) {
+		range_to_relations(m, old, inverse);
+		old->lo = old->hi = NULL; /* the old name becomes a derived process */
+	}
 	model_sde *sde = &m->sdes[position];
 	sde->state = change->new_sym;
 	sde->stratonovich = false;

@@ -31,7 +31,10 @@ int chstate_infer_sign(expr_ctx *ctx, const expr *new_sym, const expr *forward);
 chstate_error chstate_check_inverse(expr_ctx *ctx, const chstate_change *change, const expr **round);
 
 /* Rewrite the model in the new state: the old state's SDE becomes the Itô
- * SDE of x, everything else is substituted.  CHSTATE_ENGINE when Itô's
+ * SDE of x, everything else is substituted (coefficients, lets, measure
+ * shifts, bounds and relations), and the old state's own range becomes
+ * relations on inverse(x) (S > 1 with S = exp(x): exp(x) > 1), but for those
+ * the sign oracle already proves.  CHSTATE_ENGINE when Itô's
  * formula fails (the model unchanged); an engine error in the substitutions
  * stays in the context for the caller to check. */
 chstate_error chstate_apply(model *m, const chstate_change *change);
