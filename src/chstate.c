@@ -18,11 +18,48 @@ int chstate_infer_sign(expr_ctx *ctx, const expr *new_sym, const expr *forward)
 
 chstate_error chstate_check_inverse(expr_ctx *ctx, const chstate_change *change, const expr **round)
 {
-	/* the inverse must undo the forward map: forward(inverse(x)) = x */
+	/* the inverse must undo the forward map: forward(inverse(x)) = x for x
+	 * where the new state can go (its sign is the forward map's) */
 	*round = expr_subst(ctx, change->forward, 1, &change->old_sym, &change->inverse);
 	if (expr_error(ctx))
 		return CHSTATE_ENGINE;
-	return *round == change->new_sym ? CHSTATE_OK : CHSTATE_NOT_INVERSE;
+	if (*round != change->new_sym)
+		return CHSTATE_NOT_INVERSE;
+	/* and the forward map must be one-to-one where the old state can go:
+	 * inverse(forward(X)) = X under X's declared signs, so no point of X's
+	 * domain is lost (y = S^2 with S = sqrt(y) would silently make S >= 0) */
+	*round = expr_subst(ctx, change->inverse, 1, &change->new_sym, &change->forward);
+	if (expr_error(ctx))
+		return CHSTATE_ENGINE;
+	return *round == change->old_sym ? CHSTATE_OK : CHSTATE_NOT_ONE_TO_ONE;
+}
+
+int chstate_sign_that_helps(expr_ctx *ctx, const chstate_change *change)
+{
+	static const int tries[] = {EXPR_SIGN_POS, EXPR_SIGN_NEG};
+	const expr *old_sym = change->old_sym, *new_sym = change->new_sym;
+	int old_sign = expr_sym_sign(old_sym), new_sign = expr_sym_sign(new_sym);
+	int found = 0;
+	for (size_t i = 0; i < sizeof tries / sizeof tries[0] && !found; i++) {
+		int sign = old_sign & tries[i];
+		if (!sign || sign == old_sign)
+			continue; /* not a stronger assumption than the declared one */
+		/* the whole change again, as it would run under the assumption */
+		expr_sym_set_sign(ctx, old_sym, sign);
+		chstate_change again = *change;
+		again.forward = expr_rebuild(ctx, change->forward, NULL, NULL);
+		if (again.forward)
+			chstate_infer_sign(ctx, new_sym, again.forward);
+		again.inverse = expr_rebuild(ctx, change->inverse, NULL, NULL);
+		const expr *round;
+		if (again.forward && again.inverse &&
+		    chstate_check_inverse(ctx, &again, &round) == CHSTATE_OK)
+			found = sign;
+		expr_sym_set_sign(ctx, old_sym, old_sign);
+		expr_sym_set_sign(ctx, new_sym, new_sign);
+		expr_clear_error(ctx); /* a limit here only means no hint */
+	}
+	return found;
 }
 
 /* The old state's range (X > lo, X <= hi) as relations on inverse(x), but

@@ -929,6 +929,28 @@ bool run_state(session *s, const ast_node *st)
 		expr_sym_set_sign(ctx, new_sym, keep_sign);
 		return false;
 	}
+	if (error == CHSTATE_NOT_ONE_TO_ONE) {
+		/* accepting it would give the old state only the values the inverse
+		 * reaches (S = sqrt(y) >= 0): an assumption nobody declared */
+		int helps = chstate_sign_that_helps(ctx, &change);
+		char *text = text_expr(s, round), *forward_text = text_expr(s, forward),
+		     *inverse_text = text_expr(s, inverse);
+		const char *name = where->text;
+		char hint[64];
+		if (helps)
+			snprintf(hint, sizeof hint, "unless %s %s 0 is assumed", name,
+			         helps == EXPR_SIGN_POS ? ">" : "<");
+		else
+			snprintf(hint, sizeof hint, "where %s can go", name);
+		report(s, SESSION_INPUT, &where->a->loc,
+		       "the inverse does not give back the old state: %s = %s at %s = %s is %s, not %s, %s",
+		       name, inverse_text, st->text, forward_text, text, name, hint);
+		free(text);
+		free(forward_text);
+		free(inverse_text);
+		expr_sym_set_sign(ctx, new_sym, keep_sign);
+		return false;
+	}
 	if (chstate_apply(m, &change) != CHSTATE_OK) {
 		engine_failed(s, &st->loc);
 		return false;
@@ -937,7 +959,12 @@ bool run_state(session *s, const ast_node *st)
 	x->pending_state = false;
 	int sign = expr_sym_sign(new_sym);
 	if (!x->lo && (sign == EXPR_SIGN_POS || sign == EXPR_SIGN_NONNEG)) {
-		/* keep the inferred sign as an assumption, so show and save record it */
+		/* keep the inferred sign as an assumption, so show and save record
+		 * it.  It adds nothing the user did not declare: chstate_infer_sign
+		 * took it from the sign oracle on the forward map, that is from the
+		 * declared assumptions (y = S^2 > 0 because S > 0 is declared), and
+		 * the rest of the old state's range follows as relations on the
+		 * inverse (chstate_apply). */
 		x->lo = expr_int(ctx, 0);
 		x->lo_strict = sign == EXPR_SIGN_POS;
 	}
