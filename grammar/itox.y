@@ -85,6 +85,8 @@ ast_node *ast_finish(ast_node *holder, ast_kind kind, const ast_node *name, ast_
 		     const ast_loc *loc);
 ast_node *ast_cond(ast_list *list, const ast_node *name, ast_rel op, ast_node *bound,
 		   const ast_loc *loc);
+ast_node *ast_relation(ast_list *list, ast_node *lhs, ast_rel op, ast_node *rhs,
+		       const ast_loc *loc);
 ast_node *ast_param(ast_node *holder, ast_rel op, ast_node *bound, const ast_loc *loc);
 ast_node *ast_check(ast_list *list, bool with_d, ast_node *a, ast_node *b,
 		    ast_node *at, ast_node *over, bool verbose, const ast_loc *loc);
@@ -256,9 +258,11 @@ conds:
 	| conds "," cond	{ $$ = ast_append($1, $3); }
 	;
 
+/* A single name on the left is a range on that name (COND); any other
+ * left side is a relation between two expressions (see ast_relation). */
 cond:
-	  NAME relop expr	{ $$ = ast_cond(L, $1, $2, $3, &@$); }
-	| NAME "in" interval	{ $$ = ast_cond(L, $1, REL_IN, $3, &@$); }
+	  expr relop expr	{ $$ = ast_relation(L, $1, $2, $3, &@$); }
+	| expr "in" interval	{ $$ = ast_relation(L, $1, REL_IN, $3, &@$); }
 	;
 
 relop:

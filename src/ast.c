@@ -179,6 +179,38 @@ ast_node *ast_cond(ast_list *list, const ast_node *name, ast_rel op, ast_node *b
 	return node;
 }
 
+static ast_rel flipped(ast_rel op)
+{
+	switch (op) {
+	case REL_GT: return REL_LT;
+	case REL_GE: return REL_LE;
+	case REL_LT: return REL_GT;
+	case REL_LE: return REL_GE;
+	default: return op;
+	}
+}
+
+static bool is_number(const ast_node *node)
+{
+	return node->kind == AST_NUM || (node->kind == AST_NEG && node->a->kind == AST_NUM);
+}
+
+/* "x > 0" and "0 < x" are a range on the name x (a COND, as in param);
+ * anything else, "2*k*m > s^2", "T - t >= 1", is a RELATION between two
+ * expressions, which the session keeps as a constraint on sampling. */
+ast_node *ast_relation(ast_list *list, ast_node *lhs, ast_rel op, ast_node *rhs,
+		       const ast_loc *loc)
+{
+	if (lhs->kind == AST_NAME)
+		return ast_cond(list, lhs, op, rhs, loc);
+	if (op != REL_IN && is_number(lhs) && rhs->kind == AST_NAME)
+		return ast_cond(list, rhs, flipped(op), lhs, loc);
+	ast_node *node = ast_binary(list, AST_RELATION, lhs, rhs, loc);
+
+	node->op = op;
+	return node;
+}
+
 /* "param a, b > 0": every name gets the relation and the (shared) bound;
  * each COND then spans from its name to the end of the bound. */
 ast_node *ast_param(ast_node *holder, ast_rel op, ast_node *bound, const ast_loc *loc)
@@ -392,7 +424,7 @@ static void put_node(struct buffer *out, const ast_node *node)
 		put(out, " ");
 		put_text(out, node->text);
 	}
-	if (node->kind == AST_COND && node->op != REL_NONE) {
+	if ((node->kind == AST_COND || node->kind == AST_RELATION) && node->op != REL_NONE) {
 		put(out, " ");
 		put(out, rel_name(node->op));
 	}

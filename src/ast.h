@@ -35,6 +35,7 @@ typedef struct ast_loc {
 	X(ASSIGN)	  /* text = a   (at/over lists, measure shifts) */                      \
 	X(INTERVAL)	  /* [a, b] */                                                         \
 	X(COND)		  /* text: name; op: relation; a: bound or INTERVAL */                 \
+	X(RELATION)	  /* a op b: two expressions (op REL_IN: b is an INTERVAL) */         \
 	/* statements */                                                                       \
 	X(S_EXPR)	  /* a: a bare expression (may contain differentials) */              \
 	X(S_D)		  /* d a */                                                            \
@@ -46,7 +47,7 @@ typedef struct ast_loc {
 	X(S_SDE_ITO)	  /* sde text */                                                       \
 	X(S_SDE_STRAT)	  /* sde text stratonovich */                                          \
 	X(S_PARAM)	  /* param: items are COND nodes (op REL_NONE when unconstrained) */ \
-	X(S_ASSUME)	  /* assume: items are COND nodes */                                  \
+	X(S_ASSUME)	  /* assume: items are COND and RELATION nodes */                     \
 	X(S_NOISE)	  /* noise: items are NAME nodes */                                   \
 	X(S_CORR)	  /* corr(a, b) = c: a, b NAME nodes */                               \
 	X(S_FUNC)	  /* func text(items): items NAME nodes */                             \
@@ -80,7 +81,7 @@ struct ast_node {
 	ast_kind kind;
 	ast_loc loc;	/* the whole span of the node */
 	char *text;	/* name, literal or path; NULL when unused */
-	ast_rel op;	/* COND only */
+	ast_rel op;	/* COND and RELATION only */
 	ast_node *a, *b, *c;
 	ast_node **items; /* a list (arguments, declarations, at-assignments) */
 	size_t nitems;

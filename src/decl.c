@@ -160,28 +160,235 @@ bool run_param(session *s, const ast_node *st)
 	return true;
 }
 
+/* ------------------------------------------------------------------ relations */
+
+static model_rel model_rel_of(ast_rel op)
+{
+	switch (op) {
+	case REL_GE:
+		return MODEL_REL_GE;
+	case REL_LT:
+		return MODEL_REL_LT;
+	case REL_LE:
+		return MODEL_REL_LE;
+	default:
+		return MODEL_REL_GT;
+	}
+}
+
+/* The first node of the tree n that names name (as a NAME or a call), for
+ * the caret of a message; n itself when none does. */
+static const ast_node *name_node(const ast_node *n, const char *name)
+{
+	const ast_node *stack[256];
+	size_t top = 0;
+	stack[top++] = n;
+	while (top) {
+		const ast_node *node = stack[--top];
+		if (!node)
+			continue;
+		if ((node->kind == AST_NAME || node->kind == AST_CALL) && strcmp(node->text, name) == 0)
+			return node;
+		if (top + 3 + node->nitems < 256) {
+			for (size_t i = node->nitems; i-- > 0;)
+				stack[top++] = node->items[i];
+			stack[top++] = node->c;
+			stack[top++] = node->b;
+			stack[top++] = node->a;
+		}
+	}
+	return n;
+}
+
+/* The first application of a generic function in e, or NULL. */
+static const expr *function_application(const expr *e)
+{
+	switch (expr_kind_of(e)) {
+	case EXPR_FAPP:
+		return e;
+	case EXPR_MUL:
+		for (size_t i = 0; i < expr_nops(e); i++) {
+			const expr *found = function_application(expr_mul_base(e, i));
+			if (!found)
+				found = function_application(expr_mul_exponent(e, i));
+			if (found)
+				return found;
+		}
+		return NULL;
+	case EXPR_ADD:
+	case EXPR_FUN:
+		for (size_t i = 0; i < expr_nops(e); i++) {
+			const expr *found = function_application(expr_op(e, i));
+			if (found)
+				return found;
+		}
+		return NULL;
+	default:
+		return NULL;
+	}
+}
+
+/* A relation constrains the points where claims are tested, so it may use
+ * only names that take values there: parameters, states, function arguments
+ * and t (lets are spelled out by then).  A noise takes every real value and
+ * the values of a generic function are not drawn. */
+static bool relation_names_ok(session *s, const ast_node *written, const expr *difference)
+{
+	expr_vec names = {0};
+	expr_free_symbols(s->ctx, difference, &names);
+	bool ok = true;
+	for (size_t i = 0; i < names.n && ok; i++) {
+		if (model_noise_index(&s->model, names.items[i]) < 0)
+			continue;
+		const char *name = expr_sym_name(names.items[i]);
+		report(s, SESSION_INPUT, &name_node(written, name)->loc,
+		       "a relation cannot constrain the noise '%s': a Brownian motion takes every real value",
+		       name);
+		ok = false;
+	}
+	expr_vec_free(&names);
+	const expr *application = ok ? function_application(difference) : NULL;
+	if (application) {
+		const char *name = expr_sym_name(expr_fapp_func(application));
+		report(s, SESSION_INPUT, &name_node(written, name)->loc,
+		       "a relation cannot use the function '%s': its values are not drawn where claims "
+		       "are tested",
+		       name);
+		ok = false;
+	}
+	return ok;
+}
+
+/* Keep lhs op rhs as a relation of the model; written: its source, for
+ * messages.  A relation that cannot hold under the declared assumptions is
+ * an error; one that holds whatever the names are (1 > 0) is not kept. */
+static bool add_relation(session *s, const ast_node *written, const expr *lhs, ast_rel op, const expr *rhs)
+{
+	model_rel rel = model_rel_of(op);
+	const expr *difference = expr_sub(s->ctx, lhs, rhs);
+	if (engine_failed(s, &written->loc))
+		return false;
+	if (!relation_names_ok(s, written, difference))
+		return false;
+	int sign = expr_sign(s->ctx, difference);
+	if (model_rel_impossible(rel, sign)) {
+		char *left = text_expr(s, lhs), *right = text_expr(s, rhs);
+		report(s, SESSION_INPUT, &written->loc, "%s %s %s never holds%s", left, model_rel_text(rel),
+		       right, expr_is_num(difference) ? "" : " under the declared assumptions");
+		free(left);
+		free(right);
+		return false;
+	}
+	if (!expr_is_num(difference))
+		model_add_relation(&s->model, lhs, rhs, difference, rel);
+	return true;
+}
+
+/* lhs op bound, or lhs in [lo, hi] (two relations), for a left side already
+ * evaluated; bound: the COND's bound or the RELATION's right side. */
+static bool relation_with_bound(session *s, const ast_node *written, const expr *lhs, ast_rel op,
+                                const ast_node *bound)
+{
+	const expr *lo, *hi;
+	if (op != REL_IN)
+		return eval_scalar(s, bound, &hi) && add_relation(s, written, lhs, op, hi);
+	if (!eval_scalar(s, bound->a, &lo) || !eval_scalar(s, bound->b, &hi))
+		return false;
+	if (expr_is_num(lo) && expr_is_num(hi) && mpq_cmp(expr_num_value(lo), expr_num_value(hi)) > 0) {
+		report(s, SESSION_INPUT, &bound->loc,
+		       "empty range: the lower bound is above the upper bound");
+		return false;
+	}
+	return add_relation(s, written, lhs, REL_GE, lo) && add_relation(s, written, lhs, REL_LE, hi);
+}
+
+/* ------------------------------------------------------------------ assume */
+
+/* What an assume statement may change, to undo it when a later item fails. */
+typedef struct assume_undo {
+	size_t nentries, nrelations;
+	model_entry *entries; /* copies of the first nentries (their ranges) */
+	int *signs;           /* their symbols' signs */
+} assume_undo;
+
+static void assume_undo_save(session *s, assume_undo *undo)
+{
+	model *m = &s->model;
+	undo->nentries = m->nentries;
+	undo->nrelations = m->nrelations;
+	undo->entries = xmalloc((m->nentries + 1) * sizeof *undo->entries);
+	undo->signs = xmalloc((m->nentries + 1) * sizeof *undo->signs);
+	for (size_t i = 0; i < m->nentries; i++) {
+		undo->entries[i] = m->entries[i];
+		undo->signs[i] = m->entries[i].sym ? expr_sym_sign(m->entries[i].sym) : EXPR_SIGN_UNKNOWN;
+	}
+}
+
+static void assume_undo_apply(session *s, const assume_undo *undo)
+{
+	model *m = &s->model;
+	while (m->nentries > undo->nentries) {
+		model_entry *added = &m->entries[m->nentries - 1];
+		expr_sym_set_sign(s->ctx, added->sym, EXPR_SIGN_UNKNOWN);
+		model_forget(m, added);
+	}
+	for (size_t i = 0; i < undo->nentries; i++) {
+		model_entry *e = &m->entries[i];
+		e->lo = undo->entries[i].lo;
+		e->hi = undo->entries[i].hi;
+		e->lo_strict = undo->entries[i].lo_strict;
+		e->hi_strict = undo->entries[i].hi_strict;
+		if (e->sym)
+			expr_sym_set_sign(s->ctx, e->sym, undo->signs[i]);
+	}
+	model_drop_relations(m, undo->nrelations);
+}
+
+static void assume_undo_free(assume_undo *undo)
+{
+	free(undo->entries);
+	free(undo->signs);
+}
+
+/* One item of assume: a range on a name (COND) or a relation. */
+static bool assume_one(session *s, const ast_node *cond)
+{
+	if (cond->kind == AST_RELATION) {
+		const expr *lhs;
+		return eval_scalar(s, cond->a, &lhs) && relation_with_bound(s, cond, lhs, cond->op, cond->b);
+	}
+	/* t > 0 or tau > 0 (a let): a relation on time or on the definition */
+	if (strcmp(cond->text, "t") == 0)
+		return relation_with_bound(s, cond, s->model.time, cond->op, cond->a);
+	model_entry *entry = model_lookup(&s->model, cond->text);
+	if (entry && entry->kind == MODEL_LET)
+		return relation_with_bound(s, cond, entry->value, cond->op, cond->a);
+	if (entry && entry->kind != MODEL_PARAM && entry->kind != MODEL_STATE && entry->kind != MODEL_ARG) {
+		report(s, SESSION_INPUT, &cond->loc, "cannot assume anything about the %s '%s'",
+		       model_kind_name(entry->kind), cond->text);
+		return false;
+	}
+	if (!entry) {
+		/* an assumption about a state declared later: keep it as an argument-like name */
+		if (!check_new_name(s, &cond->loc, cond->text, false))
+			return false;
+		entry = model_add(&s->model, cond->text, MODEL_ARG, expr_sym(s->ctx, cond->text));
+		entry->pending_state = true;
+	}
+	return apply_condition(s, entry, cond);
+}
+
 bool run_assume(session *s, const ast_node *st)
 {
-	for (size_t i = 0; i < st->nitems; i++) {
-		const ast_node *cond = st->items[i];
-		model_entry *entry = model_lookup(&s->model, cond->text);
-		if (entry && entry->kind != MODEL_PARAM && entry->kind != MODEL_STATE &&
-		    entry->kind != MODEL_ARG) {
-			report(s, SESSION_INPUT, &cond->loc, "cannot assume anything about the %s '%s'",
-			       model_kind_name(entry->kind), cond->text);
-			return false;
-		}
-		if (!entry) {
-			/* an assumption about a state declared later: keep it as an argument-like name */
-			if (!check_new_name(s, &cond->loc, cond->text, false))
-				return false;
-			entry = model_add(&s->model, cond->text, MODEL_ARG, expr_sym(s->ctx, cond->text));
-			entry->pending_state = true;
-		}
-		if (!apply_condition(s, entry, cond))
-			return false;
-	}
-	return true;
+	assume_undo undo;
+	assume_undo_save(s, &undo);
+	bool ok = true;
+	for (size_t i = 0; i < st->nitems && ok; i++)
+		ok = assume_one(s, st->items[i]);
+	if (!ok)
+		assume_undo_apply(s, &undo);
+	assume_undo_free(&undo);
+	return ok;
 }
 
 bool run_noise(session *s, const ast_node *st)
@@ -722,6 +929,28 @@ bool run_state(session *s, const ast_node *st)
 		expr_sym_set_sign(ctx, new_sym, keep_sign);
 		return false;
 	}
+	if (error == CHSTATE_NOT_ONE_TO_ONE) {
+		/* accepting it would give the old state only the values the inverse
+		 * reaches (S = sqrt(y) >= 0): an assumption nobody declared */
+		int helps = chstate_sign_that_helps(ctx, &change);
+		char *text = text_expr(s, round), *forward_text = text_expr(s, forward),
+		     *inverse_text = text_expr(s, inverse);
+		const char *name = where->text;
+		char hint[64];
+		if (helps)
+			snprintf(hint, sizeof hint, "unless %s %s 0 is assumed", name,
+			         helps == EXPR_SIGN_POS ? ">" : "<");
+		else
+			snprintf(hint, sizeof hint, "where %s can go", name);
+		report(s, SESSION_INPUT, &where->a->loc,
+		       "the inverse does not give back the old state: %s = %s at %s = %s is %s, not %s, %s",
+		       name, inverse_text, st->text, forward_text, text, name, hint);
+		free(text);
+		free(forward_text);
+		free(inverse_text);
+		expr_sym_set_sign(ctx, new_sym, keep_sign);
+		return false;
+	}
 	if (chstate_apply(m, &change) != CHSTATE_OK) {
 		engine_failed(s, &st->loc);
 		return false;
@@ -730,7 +959,12 @@ bool run_state(session *s, const ast_node *st)
 	x->pending_state = false;
 	int sign = expr_sym_sign(new_sym);
 	if (!x->lo && (sign == EXPR_SIGN_POS || sign == EXPR_SIGN_NONNEG)) {
-		/* keep the inferred sign as an assumption, so show and save record it */
+		/* keep the inferred sign as an assumption, so show and save record
+		 * it.  It adds nothing the user did not declare: chstate_infer_sign
+		 * took it from the sign oracle on the forward map, that is from the
+		 * declared assumptions (y = S^2 > 0 because S > 0 is declared), and
+		 * the rest of the old state's range follows as relations on the
+		 * inverse (chstate_apply). */
 		x->lo = expr_int(ctx, 0);
 		x->lo_strict = sign == EXPR_SIGN_POS;
 	}

@@ -5,6 +5,11 @@
  * its declared bounds (evaluated at the values of the names they use, which
  * are drawn first) and its sign; a point that breaks a bound after all (two
  * bounds that refer to each other) is drawn again.
+ *
+ * The model's relations between expressions (2*kappa*theta > xi^2) that use
+ * any of the atoms apply too: their names become atoms, and a point is kept
+ * only when ball arithmetic certifies, at the exact rational point, that it
+ * keeps every one of them (a point it cannot certify is drawn again).
  */
 #include "domain.h"
 
@@ -12,6 +17,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "ball.h"
 #include "eval.h"
 #include "sim.h"
 #include "xalloc.h"
@@ -31,6 +37,12 @@ struct domain {
 	atom *atoms;
 	size_t n, cap;
 	double *values; /* the current point as doubles, for bounds */
+	const model_relation **relations; /* the model's relations on these atoms */
+	size_t nrelations;
+	ball_prog *relation_prog; /* their differences over the atoms */
+	arb_ptr balls;            /* the point, and the differences at it */
+	arb_ptr differences;
+	ball_status *statuses;
 	sim_rng rng;
 	unsigned long draws; /* points drawn so far: the first ones stay near 1 */
 };
@@ -76,6 +88,63 @@ static void add_bound_names(domain *d, const expr *bound)
 	expr_vec_free(&names);
 }
 
+static bool has_atom(const domain *d, const expr *e)
+{
+	for (size_t i = 0; i < d->n; i++)
+		if (d->atoms[i].e == e)
+			return true;
+	return false;
+}
+
+/* The relations that use an atom apply; their names become atoms, which may
+ * bring in further relations (until none is left). */
+static void add_relations(domain *d)
+{
+	model *m = d->m;
+	bool *applies = xcalloc(m->nrelations + 1, sizeof *applies);
+	bool more = true;
+	while (more) {
+		more = false;
+		for (size_t r = 0; r < m->nrelations; r++) {
+			if (applies[r])
+				continue;
+			expr_vec names = {0};
+			expr_free_symbols(d->ctx, m->relations[r].difference, &names);
+			for (size_t i = 0; i < names.n && !applies[r]; i++)
+				applies[r] = has_atom(d, names.items[i]);
+			if (applies[r]) {
+				add_bound_names(d, m->relations[r].difference);
+				more = true;
+			}
+			expr_vec_free(&names);
+		}
+	}
+	d->relations = xcalloc(m->nrelations + 1, sizeof *d->relations);
+	for (size_t r = 0; r < m->nrelations; r++)
+		if (applies[r])
+			d->relations[d->nrelations++] = &m->relations[r];
+	free(applies);
+}
+
+/* Compile the relations' differences over the final atoms. */
+static void compile_relations(domain *d)
+{
+	if (d->nrelations == 0)
+		return;
+	const expr **roots = xcalloc(d->nrelations, sizeof *roots);
+	const expr **atoms = xcalloc(d->n + 1, sizeof *atoms);
+	for (size_t r = 0; r < d->nrelations; r++)
+		roots[r] = d->relations[r]->difference;
+	for (size_t i = 0; i < d->n; i++)
+		atoms[i] = d->atoms[i].e;
+	d->relation_prog = ball_compile(d->ctx, d->nrelations, roots, d->n, atoms, NULL);
+	free(roots);
+	free(atoms);
+	d->balls = _arb_vec_init((slong)d->n + 1);
+	d->differences = _arb_vec_init((slong)d->nrelations);
+	d->statuses = xcalloc(d->nrelations, sizeof *d->statuses);
+}
+
 domain *domain_new(expr_ctx *ctx, model *m, size_t n, const expr *const *atoms, uint64_t seed)
 {
 	domain *d = xcalloc(1, sizeof *d);
@@ -88,6 +157,8 @@ domain *domain_new(expr_ctx *ctx, model *m, size_t n, const expr *const *atoms, 
 			add_bound_names(d, d->atoms[i].entry->lo);
 			add_bound_names(d, d->atoms[i].entry->hi);
 		}
+	add_relations(d);
+	compile_relations(d);
 	d->values = xcalloc(d->n + 1, sizeof *d->values);
 	sim_rng_seed(&d->rng, seed);
 	return d;
@@ -97,6 +168,13 @@ void domain_free(domain *d)
 {
 	if (!d)
 		return;
+	if (d->nrelations) {
+		ball_free(d->relation_prog);
+		_arb_vec_clear(d->balls, (slong)d->n + 1);
+		_arb_vec_clear(d->differences, (slong)d->nrelations);
+		free(d->statuses);
+	}
+	free(d->relations);
 	free(d->atoms);
 	free(d->values);
 	free(d);
@@ -252,6 +330,51 @@ static bool inside(domain *d)
 	return true;
 }
 
+/* Is the relation certainly kept by the ball of its difference? */
+static bool relation_kept(model_rel op, const arb_t difference)
+{
+	switch (op) {
+	case MODEL_REL_GT:
+		return arb_is_positive(difference);
+	case MODEL_REL_GE:
+		return arb_is_nonnegative(difference);
+	case MODEL_REL_LT:
+		return arb_is_negative(difference);
+	case MODEL_REL_LE:
+		return arb_is_nonpositive(difference);
+	}
+	return false;
+}
+
+/* Does the exact point values keep every relation?  Certified in ball
+ * arithmetic, with more precision when a ball touches 0; a point that no
+ * precision certifies (or where a relation is undefined) is not kept. */
+static bool relations_kept(domain *d, mpq_t *values)
+{
+	if (d->nrelations == 0)
+		return true;
+	if (!d->relation_prog)
+		return false; /* not compiled (cannot happen: every name is an atom) */
+	static const slong precisions[] = {64, 256};
+	bool *kept = xcalloc(d->nrelations, sizeof *kept);
+	size_t left = d->nrelations;
+	for (size_t p = 0; p < sizeof precisions / sizeof precisions[0] && left; p++) {
+		for (size_t i = 0; i < d->n; i++)
+			ball_set_mpq(d->balls + i, values[i], precisions[p]);
+		if (ball_run(d->relation_prog, d->balls, precisions[p], d->differences, d->statuses) !=
+		    BALL_OK)
+			break;
+		for (size_t r = 0; r < d->nrelations; r++)
+			if (!kept[r] && d->statuses[r] == BALL_OK &&
+			    relation_kept(d->relations[r]->op, d->differences + r)) {
+				kept[r] = true;
+				left--;
+			}
+	}
+	free(kept);
+	return left == 0;
+}
+
 bool domain_draw(domain *d, mpq_t *values)
 {
 	d->draws++;
@@ -269,7 +392,8 @@ bool domain_draw(domain *d, mpq_t *values)
 			else
 				mpq_set_d(values[i], d->values[i]);
 		}
-		return true;
+		if (relations_kept(d, values))
+			return true;
 	}
 	return false;
 }

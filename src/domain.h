@@ -6,7 +6,9 @@
  * (f_x(t, x), independent atoms) any real value.  Magnitudes spread over many
  * scales and some points lie near a bound; a degenerate range [c, c] gives c.
  * Names that bounds use are sampled too (first), so a > b is honoured even
- * when a claim mentions only a.
+ * when a claim mentions only a.  The model's relations between expressions
+ * (2*kappa*theta > xi^2) that use an atom hold at every point, certified in
+ * ball arithmetic; their names are sampled too.
  */
 #ifndef ITOX_DOMAIN_H
 #define ITOX_DOMAIN_H
@@ -24,12 +26,12 @@ domain *domain_new(expr_ctx *ctx, model *m, size_t n, const expr *const *atoms, 
 void domain_free(domain *d);
 
 /* The atoms a point gives values to: the requested ones first, then the
- * names their bounds use. */
+ * names their bounds and relations use. */
 size_t domain_size(const domain *d);
 const expr *domain_atom(const domain *d, size_t i);
 
 /* Draw a point into values[domain_size]; false when none satisfying every
- * declared bound was found (an empty or too thin domain). */
+ * declared bound and relation was found (an empty or too thin domain). */
 bool domain_draw(domain *d, mpq_t *values);
 
 /* Does the domain have an interior (no atom pinned to one value)?  A nonzero

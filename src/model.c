@@ -32,6 +32,7 @@ void model_free(model *m)
 		free(m->measures[i].shift);
 	}
 	free(m->measures);
+	free(m->relations);
 	memset(m, 0, sizeof *m);
 }
 
@@ -228,4 +229,55 @@ model_measure *model_add_measure(model *m, const char *name)
 		q->shift[k] = expr_int(m->ctx, 0);
 	}
 	return q;
+}
+
+bool model_add_relation(model *m, const expr *lhs, const expr *rhs, const expr *difference, model_rel op)
+{
+	for (size_t i = 0; i < m->nrelations; i++) {
+		const model_relation *r = &m->relations[i];
+		if (r->lhs == lhs && r->rhs == rhs && r->op == op)
+			return false; /* the same relation again (load after save) */
+	}
+	m->relations = xreallocarray(m->relations, m->nrelations + 1, sizeof *m->relations);
+	m->relations[m->nrelations++] =
+	        (model_relation){.lhs = lhs, .rhs = rhs, .difference = difference, .op = op};
+	return true;
+}
+
+void model_drop_relations(model *m, size_t keep)
+{
+	if (keep < m->nrelations)
+		m->nrelations = keep;
+}
+
+/* The signs (EXPR_SIGN_* flags) a difference may have under op. */
+static int allowed_signs(model_rel op)
+{
+	switch (op) {
+	case MODEL_REL_GT:
+		return EXPR_SIGN_POS;
+	case MODEL_REL_GE:
+		return EXPR_SIGN_NONNEG;
+	case MODEL_REL_LT:
+		return EXPR_SIGN_NEG;
+	case MODEL_REL_LE:
+		return EXPR_SIGN_NONPOS;
+	}
+	return EXPR_SIGN_UNKNOWN;
+}
+
+bool model_rel_certain(model_rel op, int sign)
+{
+	return sign != 0 && (sign & ~allowed_signs(op)) == 0;
+}
+
+bool model_rel_impossible(model_rel op, int sign)
+{
+	return sign != 0 && (sign & allowed_signs(op)) == 0;
+}
+
+const char *model_rel_text(model_rel op)
+{
+	static const char *const texts[] = {">", ">=", "<", "<="};
+	return texts[op];
 }

@@ -40,6 +40,18 @@ typedef struct model_sde {
 	bool stratonovich;
 } model_sde;
 
+/* A relation between two expressions that the model's points must keep
+ * (assume 2*kappa*theta > xi^2): difference = lhs - rhs compared with 0.
+ * It restricts the points claims are tested at; it does not give signs to
+ * symbols (a range on one name does: model_entry lo, hi). */
+typedef enum model_rel { MODEL_REL_GT, MODEL_REL_GE, MODEL_REL_LT, MODEL_REL_LE } model_rel;
+
+typedef struct model_relation {
+	const expr *lhs, *rhs;  /* as declared, for show and save */
+	const expr *difference; /* lhs - rhs */
+	model_rel op;           /* difference > 0, >= 0, < 0 or <= 0 */
+} model_relation;
+
 /* A change of measure: under it, noise k is a Brownian motion named names[k],
  * and dW_k(P) = dW_k(Q) + shift[k]*dt. */
 typedef struct model_measure {
@@ -63,6 +75,8 @@ typedef struct model {
 	size_t nsdes;
 	model_measure *measures;
 	size_t nmeasures;
+	model_relation *relations; /* in declaration order */
+	size_t nrelations;
 } model;
 
 void model_init(model *m, expr_ctx *ctx);
@@ -82,6 +96,16 @@ void model_set_corr(model *m, size_t i, size_t j, const expr *value);
 model_sde *model_sde_of(model *m, const expr *state); /* NULL when not a state */
 model_sde *model_add_sde(model *m, const expr *state);
 void model_remove_sde(model *m, const expr *state);
+
+/* Add the relation lhs op rhs (difference: lhs - rhs); false when the
+ * model has it already.  model_drop_relations(m, n) keeps the first n. */
+bool model_add_relation(model *m, const expr *lhs, const expr *rhs, const expr *difference, model_rel op);
+void model_drop_relations(model *m, size_t keep);
+/* Is a value of sign flags (EXPR_SIGN_*) certain to keep op, or certain to break it? */
+bool model_rel_certain(model_rel op, int sign);
+bool model_rel_impossible(model_rel op, int sign);
+/* ">", ">=", "<", "<=" */
+const char *model_rel_text(model_rel op);
 
 model_measure *model_measure_find(model *m, const char *name);
 model_measure *model_add_measure(model *m, const char *name);

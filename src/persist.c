@@ -38,6 +38,72 @@ static void dump_assumption(session *s, xbuf *out, const model_entry *e)
 	}
 }
 
+/* Does a bound use a name?  A script declares a name before it uses it, so
+ * such a bound is written after every declaration (param a > b, param U > S
+ * with S a state); the bounds that give signs (numbers) stay in front. */
+static bool uses_names(session *s, const expr *bound)
+{
+	expr_vec names = {0};
+	expr_free_symbols(s->ctx, bound, &names);
+	bool named = names.n > 0;
+	expr_vec_free(&names);
+	return named;
+}
+
+/* The entry with only the bounds that use names (named) or only the others. */
+static model_entry range_part(session *s, const model_entry *e, bool named)
+{
+	model_entry part = *e;
+	if (part.lo && uses_names(s, part.lo) != named)
+		part.lo = NULL;
+	if (part.hi && uses_names(s, part.hi) != named)
+		part.hi = NULL;
+	return part;
+}
+
+/* The ranges of states (in the order of their SDEs, so the text does not
+ * depend on which declaration first named them), then of names announced
+ * for later: only their bounds that use names (named) or only the others. */
+static void dump_state_ranges(session *s, xbuf *out, const char *only, bool named)
+{
+	model *m = &s->model;
+	for (size_t i = 0; i < m->nsdes; i++) {
+		model_entry *e = model_lookup(m, expr_sym_name(m->sdes[i].state));
+		if (e && (!only || strcmp(e->name, only) == 0)) {
+			model_entry part = range_part(s, e, named);
+			dump_assumption(s, out, &part);
+		}
+	}
+	for (size_t i = 0; i < m->nentries; i++) {
+		model_entry *e = &m->entries[i];
+		if (e->kind == MODEL_ARG && (!only || strcmp(e->name, only) == 0)) {
+			model_entry part = range_part(s, e, named);
+			dump_assumption(s, out, &part);
+		}
+	}
+}
+
+/* "assume 2*kappa*theta > xi^2": a relation as it was declared. */
+static void dump_relation(session *s, xbuf *out, const model_relation *r)
+{
+	char *lhs = text_expr(s, r->lhs), *rhs = text_expr(s, r->rhs);
+	xbuf_printf(out, "assume %s %s %s\n", lhs, model_rel_text(r->op), rhs);
+	free(lhs);
+	free(rhs);
+}
+
+/* Does the relation use the name (show NAME lists the relations on it)? */
+static bool relation_uses(session *s, const model_relation *r, const char *name)
+{
+	expr_vec names = {0};
+	expr_free_symbols(s->ctx, r->difference, &names);
+	bool found = false;
+	for (size_t i = 0; i < names.n && !found; i++)
+		found = strcmp(expr_sym_name(names.items[i]), name) == 0;
+	expr_vec_free(&names);
+	return found;
+}
+
 /* The declarations of the model (only: those of one name) as statements. */
 static void dump_model_body(session *s, xbuf *out, const char *only)
 {
@@ -48,7 +114,9 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 		if (only && strcmp(e->name, only) != 0)
 			continue;
 		switch (e->kind) {
-		case MODEL_PARAM:
+		case MODEL_PARAM: {
+			model_entry fixed = range_part(s, e, false);
+			e = &fixed;
 			xbuf_printf(out, "param %s", e->name);
 			if (e->lo && e->hi && !e->lo_strict && !e->hi_strict) {
 				char *lo = text_expr(s, e->lo), *hi = text_expr(s, e->hi);
@@ -73,6 +141,7 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 			}
 			xbuf_putc(out, '\n');
 			break;
+		}
 		case MODEL_NOISE:
 			xbuf_printf(out, "noise %s\n", e->name);
 			break;
@@ -98,19 +167,7 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 				            expr_sym_name(m->noises[j]), text);
 				free(text);
 			}
-	/* assumptions: on states in the order of their SDEs (so the text does not
-	 * depend on which declaration first named them), then on names announced
-	 * for later */
-	for (size_t i = 0; i < m->nsdes; i++) {
-		model_entry *e = model_lookup(m, expr_sym_name(m->sdes[i].state));
-		if (e && (!only || strcmp(e->name, only) == 0))
-			dump_assumption(s, out, e);
-	}
-	for (size_t i = 0; i < m->nentries; i++) {
-		model_entry *e = &m->entries[i];
-		if (e->kind == MODEL_ARG && (!only || strcmp(e->name, only) == 0))
-			dump_assumption(s, out, e);
-	}
+	dump_state_ranges(s, out, only, false);
 	const model_measure *keep_measure = s->measure;
 	s->measure = NULL;
 	for (size_t i = 0; i < m->nsdes; i++) {
@@ -125,6 +182,19 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 		free(body);
 	}
 	s->measure = keep_measure;
+	/* bounds that use names and relations after the SDEs: they may use
+	 * states, which a script must declare first */
+	for (size_t i = 0; i < m->nentries; i++) {
+		model_entry *e = &m->entries[i];
+		if (e->kind == MODEL_PARAM && (!only || strcmp(e->name, only) == 0)) {
+			model_entry part = range_part(s, e, true);
+			dump_assumption(s, out, &part);
+		}
+	}
+	dump_state_ranges(s, out, only, true);
+	for (size_t i = 0; i < m->nrelations; i++)
+		if (!only || relation_uses(s, &m->relations[i], only))
+			dump_relation(s, out, &m->relations[i]);
 	for (size_t i = 0; i < m->nentries; i++) {
 		model_entry *e = &m->entries[i];
 		if (e->kind != MODEL_LET || (only && strcmp(e->name, only) != 0))

@@ -193,6 +193,56 @@ START_TEST(test_param_bound_shared)
 }
 END_TEST
 
+/* assume: a single name on the left is a range on it (COND); any other
+ * left side is a relation between two expressions (RELATION). */
+START_TEST(test_assume_relations)
+{
+	PARSES("assume T > t", "(S_ASSUME (COND T > (NAME t)))");
+	PARSES("assume 2*kappa*theta > xi^2",
+	       "(S_ASSUME (RELATION > (MUL (MUL (NUM 2) (NAME kappa)) (NAME theta)) "
+	       "(POW (NAME xi) (NUM 2))))");
+	PARSES("assume U - L >= 1, x > 0, a*b <= c",
+	       "(S_ASSUME (RELATION >= (SUB (NAME U) (NAME L)) (NUM 1)) (COND x > (NUM 0)) "
+	       "(RELATION <= (MUL (NAME a) (NAME b)) (NAME c)))");
+	/* a number on the left and a name on the right: the range on the name */
+	PARSES("assume 0 < x, -1 <= y", "(S_ASSUME (COND x > (NUM 0)) (COND y >= (NEG (NUM 1))))");
+	PARSES("assume 0 < x + y", "(S_ASSUME (RELATION < (NUM 0) (ADD (NAME x) (NAME y))))");
+	PARSES("assume log(a) in [0, 1]",
+	       "(S_ASSUME (RELATION in (CALL log (NAME a)) (INTERVAL (NUM 0) (NUM 1))))");
+	PARSES("assume (x) < 1", "(S_ASSUME (COND x < (NUM 1)))");
+	/* a relation continues over a line break after its operator */
+	PARSES("assume 2*k*m >\n s^2",
+	       "(S_ASSUME (RELATION > (MUL (MUL (NUM 2) (NAME k)) (NAME m)) (POW (NAME s) (NUM 2))))");
+	/* param still takes names only */
+	PARSES("param 2*a > 0", "ERROR 1:7: unexpected number '2'; expected a name");
+	PARSES("assume a + b", "ERROR 1:13 incomplete: unexpected end of input; expected an "
+	       "operator, '<', '>', '<=', '>=', '(' or 'in'");
+	PARSES("assume a > b > c", "ERROR 1:14: unexpected '>'; expected an operator, ',', '(' or "
+	       "end of statement");
+}
+END_TEST
+
+START_TEST(test_relation_positions)
+{
+	const char *source = "assume x > 0, 2*k > s^2";
+	ast_list list;
+
+	ast_parse(source, strlen(source), DEPTH, &list);
+	ck_assert(!list.error.present);
+	ck_assert_uint_eq(list.n, 1);
+	ck_assert_uint_eq(list.stmts[0]->nitems, 2);
+	const ast_node *relation = list.stmts[0]->items[1];
+	ck_assert_int_eq(relation->kind, AST_RELATION);
+	ck_assert_int_eq(relation->op, REL_GT);
+	ck_assert_int_eq(relation->loc.first_column, 15);
+	ck_assert_int_eq(relation->loc.last_column, 23);
+	ck_assert_int_eq(relation->a->kind, AST_MUL);
+	ck_assert_int_eq(relation->b->kind, AST_POW);
+	ck_assert_int_eq(relation->b->loc.first_column, 21);
+	ast_list_free(&list);
+}
+END_TEST
+
 /* --------------------------------------------------------------- queries */
 
 START_TEST(test_queries)
@@ -626,6 +676,8 @@ Suite *grammar_suite(void)
 	tcase_add_test(forms, test_declarations);
 	tcase_add_test(forms, test_language_example);
 	tcase_add_test(forms, test_param_bound_shared);
+	tcase_add_test(forms, test_assume_relations);
+	tcase_add_test(forms, test_relation_positions);
 	tcase_add_test(forms, test_queries);
 	tcase_add_test(forms, test_claims);
 	tcase_add_test(forms, test_checks);
