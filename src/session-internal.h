@@ -124,6 +124,8 @@ bool numeric_value(session *s, const ast_node *n, double *out);
 
 /* May name be declared (not reserved, not taken, no clash with a d-name)? */
 bool check_new_name(session *s, const ast_loc *loc, const char *name, bool allow_arg);
+/* May name be declared (again) as a let or a measure?  Reports when not. */
+bool may_declare(session *s, const ast_loc *loc, const char *name, model_kind kind);
 /* Declare the generic function name(args) at loc; args are NAME nodes. */
 bool declare_function(session *s, const ast_loc *loc, const char *name, size_t nargs, ast_node *const *args);
 /* The end of a run of corr statements: judge the matrix, undo the run if it is not PSD. */
