@@ -128,8 +128,8 @@ static bool rational_counterexample(part_run *r, verify_result *out, int part)
 	bool found = false;
 	for (int attempt = 0; attempt < 50 && !found && domain_draw(r->dom, r->values); attempt++) {
 		ball_verdict v = {0};
-		if (ball_compare_zero(r->ctx, r->difference, r->lhs, r->rhs, n, atoms, (const mpq_t *)r->values,
-				      &v) == BALL_NONZERO) {
+		if (ball_compare_zero(r->ctx, r->difference, r->lhs, r->rhs, n, atoms,
+		                      (const mpq_t *)r->values, &v) == BALL_NONZERO) {
 			out->part = part;
 			out->difference = r->difference;
 			out->bits = v.bits;
@@ -143,8 +143,7 @@ static bool rational_counterexample(part_run *r, verify_result *out, int part)
 }
 
 /* Decide one part numerically; returns its verdict and fills out on failure. */
-static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, unsigned long seed,
-				     const char **reason)
+static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, const char **reason)
 {
 	size_t n = domain_size(r->dom);
 	const expr **atoms = xcalloc(n + 1, sizeof *atoms);
@@ -157,9 +156,8 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 		*reason = "a side cannot be evaluated in ball arithmetic";
 		return VERIFY_UNDECIDED;
 	}
-	(void)seed;
 	verify_verdict verdict = VERIFY_HOLDS;
-	size_t tested = 0, skipped = 0;
+	size_t tested = 0;
 	*reason = NULL;
 	for (size_t attempt = 0; tested < VERIFY_POINTS && attempt < 6 * VERIFY_POINTS; attempt++) {
 		if (expr_poll_interrupt(r->ctx)) {
@@ -191,8 +189,9 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 		}
 		if (decision == BALL_ZERO_WITHIN_BOUND) {
 			tested++;
-		} else if (v.reason == BALL_REASON_UNDEFINED && !defined_at(r, r->lhs) && !defined_at(r, r->rhs)) {
-			skipped++; /* outside the domain of both sides: another point */
+		} else if (v.reason == BALL_REASON_UNDEFINED && !defined_at(r, r->lhs) &&
+		           !defined_at(r, r->rhs)) {
+			/* outside the domain of both sides: evidence neither way; another point */
 		} else if (v.reason == BALL_REASON_CANCELLATION || v.reason == BALL_REASON_UNKNOWN) {
 			/* no precision decides this point (exp of a huge argument, a
 			 * domain boundary): it is evidence neither way; another point */
@@ -211,8 +210,9 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 			if (verdict == VERIFY_HOLDS) {
 				verdict = VERIFY_UNDECIDED;
 				*reason = v.reason == BALL_REASON_UNDEFINED
-						  ? "one side is undefined on part of the domain where the other is defined"
-						  : ball_reason_message(v.reason);
+				                  ? "one side is undefined on part of the domain where the "
+				                    "other is defined"
+				                  : ball_reason_message(v.reason);
 				out->part = part;
 				out->difference = r->difference;
 			}
@@ -225,12 +225,11 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 		verdict = VERIFY_UNDECIDED;
 		*reason = "no point where both sides are defined was found in the declared domain";
 	}
-	(void)skipped;
 	return verdict;
 }
 
 void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigned long seed,
-		  verify_result *out)
+                  verify_result *out)
 {
 	memset(out, 0, sizeof *out);
 	out->part = -1;
@@ -257,7 +256,11 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 	for (size_t p = 0; p < in->nparts && !all_zero && out->verdict != VERIFY_FAILS; p++) {
 		if (!difference[p] || expr_is_zero(difference[p]))
 			continue;
-		part_run r = {.ctx = ctx, .m = m, .lhs = in->lhs[p], .rhs = in->rhs[p], .difference = difference[p]};
+		part_run r = {.ctx = ctx,
+		              .m = m,
+		              .lhs = in->lhs[p],
+		              .rhs = in->rhs[p],
+		              .difference = difference[p]};
 		expr_map seen = {0};
 		collect_atoms(r.lhs, &seen, &r.atoms);
 		collect_atoms(r.rhs, &seen, &r.atoms);
@@ -278,7 +281,7 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		} else {
 			out->method = VERIFY_NUMERIC;
 			const char *reason = NULL;
-			verify_verdict v = decide_numeric(&r, out, (int)p, seed, &reason);
+			verify_verdict v = decide_numeric(&r, out, (int)p, &reason);
 			if (v == VERIFY_FAILS) {
 				out->verdict = VERIFY_FAILS;
 			} else if (v == VERIFY_UNDECIDED && undecided_part < 0) {

@@ -217,16 +217,9 @@ static void claim_fields(xbuf *buf, const stmt_result *r, expr_ctx *ctx)
 		xbuf_printf(buf, ",\"points\":%zu,\"bits\":%ld,\"skipped\":%zu", c->points, c->bits, c->skipped);
 	if (c->holds)
 		return;
-	const char *part = "";
-	char *named = NULL;
-	if (c->part >= 0 && !r->diff.noises)
-		part = "the two sides differ";
-	else if (c->part == 0)
-		part = "the dt part differs";
-	else if (c->part > 0)
-		part = named = xasprintf("the d%s part differs", expr_sym_name(r->diff.noises[c->part - 1]));
-	field(buf, "part", part);
-	free(named);
+	char *part = writer_claim_part(r);
+	field(buf, "part", part ? part : "");
+	free(part);
 	if (c->difference) {
 		char *text = prn_expr(ctx, c->difference, PRN_TEXT);
 		field(buf, "difference", text);

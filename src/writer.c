@@ -90,6 +90,18 @@ char *writer_claim_point(const stmt_result *r, expr_ctx *ctx)
 	return xbuf_take(&buf);
 }
 
+char *writer_claim_part(const stmt_result *r)
+{
+	const verify_result *c = r->claim;
+	if (c->part < 0)
+		return NULL;
+	if (!r->diff.noises)
+		return xstrdup("the two sides differ");
+	if (c->part == 0)
+		return xstrdup("the dt part differs");
+	return xasprintf("the d%s part differs", expr_sym_name(r->diff.noises[c->part - 1]));
+}
+
 char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx)
 {
 	const verify_result *c = r->claim;
@@ -101,15 +113,8 @@ char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx)
 					      c->points, c->bits, c->skipped)
 				  : xasprintf(" (numeric: %zu points, %ld bits)", c->points, c->bits);
 	xbuf buf = {0};
-	const char *part = "the two sides differ";
-	char *named = NULL;
-	if (c->part >= 0 && r->diff.noises) {
-		if (c->part == 0)
-			part = "the dt part differs";
-		else
-			part = named =
-			        xasprintf("the d%s part differs", expr_sym_name(r->diff.noises[c->part - 1]));
-	}
+	char *named = writer_claim_part(r);
+	const char *part = named ? named : "the two sides differ";
 	char *difference = c->difference ? prn_expr(ctx, c->difference, PRN_TEXT) : xstrdup("?");
 	if (c->verdict == VERIFY_UNDECIDED)
 		xbuf_printf(&buf, ": %s (%s in form by %s)", c->reason, part, difference);

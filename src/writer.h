@@ -53,6 +53,9 @@ char *writer_expr(const stmt_result *r, expr_ctx *ctx, const expr *e, prn_format
 char *writer_diff(const stmt_result *r, expr_ctx *ctx, prn_format format);
 /* A failed claim's point: "S=1.2, mu=0.3: left side 1.5, right side 1.4"; NULL without one. */
 char *writer_claim_point(const stmt_result *r, expr_ctx *ctx);
+/* "the dt part differs", "the dW part differs", "the two sides differ"; NULL
+ * when no part is named.  New string. */
+char *writer_claim_part(const stmt_result *r);
 /* The claim's sentence after its verdict: " (exact)", ": the dt part differs by ..." */
 char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx);
 
