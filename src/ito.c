@@ -15,6 +15,7 @@
 
 #include "diff.h"
 #include "expr-internal.h"
+#include "ratform.h"
 #include "xalloc.h"
 
 void ito_diff_zero(ito_diff *d, const model *m)
@@ -218,6 +219,35 @@ static bool moves(model *m, const expr *u)
  * (Karatzas and Shreve, Theorem 3.3.6); at such a point a local-time term
  * would be needed (Tanaka's formula for abs(W), Karatzas and Shreve §3.6,
  * from memory).  NULL when there is none. */
+/* Is u of one strict sign on the domain?  The sign oracle first; for a sum it
+ * cannot bound (an expanded square such as 4 + 4*sin(X) + sin(X)^2), the
+ * factors of u over Q, each of which must have a strict sign.  A failure of
+ * the factorisation (a limit) leaves no error behind and answers no. */
+static bool away_from_zero(expr_ctx *ctx, const expr *u)
+{
+	int sign = expr_sign(ctx, u);
+	if (sign == EXPR_SIGN_POS || sign == EXPR_SIGN_NEG)
+		return true;
+	if (expr_kind_of(u) != EXPR_ADD || expr_error(ctx) != EXPR_OK)
+		return false;
+	const expr *inv = ratform_normal(ctx, expr_pow(ctx, u, expr_int(ctx, -1)));
+	if (!inv) {
+		if (expr_error(ctx) == EXPR_ERR_TOO_LARGE)
+			expr_clear_error(ctx);
+		return false;
+	}
+	size_t n = expr_kind_of(inv) == EXPR_MUL ? expr_nops(inv) : 1;
+	for (size_t i = 0; i < n; i++) {
+		const expr *base = expr_kind_of(inv) == EXPR_MUL ? expr_mul_base(inv, i) : inv;
+		if (expr_is_num(base))
+			continue;
+		sign = expr_sign(ctx, base);
+		if (sign != EXPR_SIGN_POS && sign != EXPR_SIGN_NEG)
+			return false;
+	}
+	return true;
+}
+
 static const expr *rough_point(model *m, const expr *f, expr_map *seen)
 {
 	if (expr_map_get(seen, f))
@@ -246,9 +276,7 @@ static const expr *rough_point(model *m, const expr *f, expr_map *seen)
 				bool integer = mpz_cmp_ui(mpq_denref(q), 1) == 0;
 				bool smooth = integer ? mpq_sgn(q) > 0 : mpq_cmp_ui(q, 2, 1) > 0 &&
 										mpz_even_p(mpq_denref(q)) == 0;
-				int sign = expr_sign(ctx, base);
-				bool away = sign == EXPR_SIGN_POS || sign == EXPR_SIGN_NEG;
-				if (!smooth && !away && moves(m, base)) {
+				if (!smooth && moves(m, base) && !away_from_zero(ctx, base)) {
 					return expr_pow(ctx, base, e);
 				}
 			} else {

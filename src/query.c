@@ -98,10 +98,6 @@ static void result_set_diff(pending *p, const ito_diff *d)
 	p->r.diff.n = d->n;
 }
 
-/* A coefficient that is identically zero as a rational function of its atoms
- * is 0 (the rational normal form decides; the result keeps its own form
- * otherwise, which is usually the shorter).  A normal form over the size
- * limit leaves the coefficient as it is. */
 /* Is e a polynomial in its atoms (every power a nonnegative integer, function
  * arguments not looked into)?  Products over sums are expanded, so such an e
  * is zero only if it is 0 already: the normal form has nothing to find. */
@@ -129,7 +125,13 @@ static bool polynomial_in_atoms(const expr *e, expr_map *seen)
 	}
 }
 
-static const expr *settle_zero(session *s, const expr *e)
+/* A coefficient goes through the rational normal form: one that is
+ * identically zero as a rational function of its atoms becomes 0, and the
+ * normal form replaces the coefficient where it is smaller (common
+ * denominators cancelled, 1/(2 + sin(X))^4 kept factored); otherwise the
+ * coefficient keeps its own form, which is usually the shorter.  A normal
+ * form over the size limit leaves the coefficient as it is. */
+static const expr *settle(session *s, const expr *e)
 {
 	/* a bound on the work: a large result is left in its own form (the
 	 * normal form of a 50,000-term sum would take longer than the query) */
@@ -141,24 +143,26 @@ static const expr *settle_zero(session *s, const expr *e)
 	expr_map_free(&seen);
 	if (polynomial || expr_size(e) > SETTLE_MAX_SIZE)
 		return e;
-	if (ratform_is_zero(s->ctx, e))
-		return expr_int(s->ctx, 0);
-	if (expr_error(s->ctx) == EXPR_ERR_TOO_LARGE)
-		expr_clear_error(s->ctx);
-	return e;
+	const expr *r = ratform_normal(s->ctx, e);
+	if (!r) {
+		if (expr_error(s->ctx) == EXPR_ERR_TOO_LARGE)
+			expr_clear_error(s->ctx);
+		return e;
+	}
+	return expr_size(r) < expr_size(e) ? r : e;
 }
 
 /* Hand the result to the writer; a format that cannot write it is an error
  * of the statement. */
 bool result_emit(session *s, pending *p, const ast_node *st)
 {
-	p->r.value = settle_zero(s, p->r.value);
+	p->r.value = settle(s, p->r.value);
 	const expr **dw = NULL;
 	if (p->r.diff.dw) {
-		p->r.diff.dt = settle_zero(s, p->r.diff.dt);
+		p->r.diff.dt = settle(s, p->r.diff.dt);
 		dw = xcalloc(p->r.diff.n + 1, sizeof *dw);
 		for (size_t k = 0; k < p->r.diff.n; k++)
-			dw[k] = settle_zero(s, p->r.diff.dw[k]);
+			dw[k] = settle(s, p->r.diff.dw[k]);
 		p->r.diff.dw = dw;
 	}
 	char *error = NULL;
