@@ -13,6 +13,7 @@
 %define api.location.type {ast_loc}
 %define parse.error custom
 %define parse.lac full
+%define lr.default-reduction accepting
 %locations
 %expect 0
 
