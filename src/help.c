@@ -8,9 +8,11 @@
 	X("param", "param NAME, ...  |  param NAME in [LO, HI]  |  param NAME, ... > 0\n"           \
 		   "  Declare real constants, optionally with a range or a sign.\n"                   \
 		   "  example:  param mu, sigma > 0\n")                                              \
-	X("assume", "assume NAME > 0, NAME >= 0, NAME in [LO, HI]\n"                                  \
+	X("assume", "assume NAME > 0, NAME >= 0, NAME in [LO, HI], EXPR > EXPR (or >=, <, <=)\n"      \
 		    "  Positivity or a range; simplification rules such as log(x*y) = log x + log y\n" \
-		    "  fire only under them.  example:  assume S > 0\n")                               \
+		    "  fire only under them.  A relation between two expressions (assume T > t,\n"    \
+		    "  assume 2*kappa*theta > xi^2) restricts the points claims are tested at.\n"     \
+		    "  example:  assume S > 0\n")                                                      \
 	X("noise", "noise NAME, ...\n"                                                                \
 		   "  Independent standard Brownian motions; dNAME is the increment.\n"               \
 		   "  example:  noise W, B\n")                                                        \

@@ -265,6 +265,17 @@ static void model_section(writer *w, xbuf *doc)
 		assumption(w, e, doc);
 		any = true;
 	}
+	static const char *const rel_latex[] = {
+		[MODEL_REL_GT] = ">", [MODEL_REL_GE] = "\\ge", [MODEL_REL_LT] = "<", [MODEL_REL_LE] = "\\le"};
+	for (size_t i = 0; i < m->nrelations; i++) {
+		const model_relation *r = &m->relations[i];
+		char *lhs = prn_expr(w->ctx, r->lhs, PRN_LATEX_PLAIN);
+		char *rhs = prn_expr(w->ctx, r->rhs, PRN_LATEX_PLAIN);
+		xbuf_printf(doc, "%s$%s %s %s$", any ? ", " : "Assumptions: ", lhs, rel_latex[r->op], rhs);
+		free(lhs);
+		free(rhs);
+		any = true;
+	}
 	if (any)
 		xbuf_put(doc, ".\n\n");
 }
