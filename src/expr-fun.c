@@ -4,6 +4,25 @@
  * Each rule states its identity and the assumption it needs.  "Valid on the
  * domain" means: wherever the left side is defined (as a real number), the two
  * sides agree, so the rule needs no assumption beyond the expression itself.
+ * The rules (identity; assumption; source):
+ *   exp(0) = 1, log(1) = 0, f(0) = 0 for the odd f below, cos(0) = cosh(0) = 1,
+ *   Phi(0) = 1/2                          none                  common practice
+ *   exp(log x) = x, exp(c*log(x) + r) = x^c*exp(r)
+ *                                         x > 0 known           DLMF 4.2.26, from memory
+ *   log(exp u) = u                        none (real u)         DLMF 4.2, from memory
+ *   log(c*prod b_i^e_i) = log c + sum e_i*log(B_i), B_i = b_i or abs(b_i)
+ *                                         c > 0, the product > 0 forces each B_i > 0
+ *                                         (expr_positive_bases)  DLMF 4.8.2, from memory
+ *   abs(x) = x, abs(x) = -x               x >= 0, x <= 0        common practice
+ *   abs(-x) = abs(x)                      none                  common practice
+ *   f(-x) = -f(x), f = sin tan sinh tanh erf
+ *                                         none                  DLMF 4.21.2, 4.21.4,
+ *                                                               4.35.5, 4.35.7; A&S 7.1.9
+ *   f(-x) = f(x), f = cos cosh phi        none                  DLMF 4.21.3, 4.35.6; A&S 26.2.1
+ *   Phi(-x) = 1 - Phi(x)                  none                  A&S 26.2.5
+ * (DLMF: NIST Digital Library of Mathematical Functions; A&S: Abramowitz and
+ * Stegun, Handbook of Mathematical Functions, 1964; all from memory.)
+ * tests/check_rules.c checks each in ball arithmetic on its domain.
  */
 #include "expr-internal.h"
 
@@ -84,10 +103,14 @@ static const expr *exp_rules(expr_ctx *ctx, const expr *arg)
 
 /* ------------------------------------------------------------------ log */
 
-/* log(c * prod b_i^e_i) = log c + sum e_i*log(b_i) when c > 0 and each b_i is
- * known positive, except at most one b_i with an odd integer exponent (then
- * b_i > 0 follows from the argument being positive); factors with even
- * exponents become e_i*log(abs(b_i)).  log(exp(u)) = u.  Valid on the domain. */
+/* log(exp(u)) = u, valid for every real u.
+ * log(c * prod b_i^e_i) = log c + sum e_i*log(B_i) where the argument is
+ * positive (the domain of the left side), with B_i = b_i or abs(b_i) as
+ * expr_positive_bases() infers B_i > 0 and b_i^e_i = B_i^e_i there: so
+ * log(x^2) = 2*log(abs(x)), log(x^3) = 3*log(x) (x^3 > 0 forces x > 0),
+ * log(x^(2/3)) = 2/3*log(abs(x)), but log(x*y) stays whole for x, y of unknown
+ * sign.  Needs c > 0 and at most one factor whose sign follows an unknown
+ * base.  Common practice, no source (log(ab) = log a + log b for a, b > 0). */
 static const expr *log_rules(expr_ctx *ctx, const expr *arg)
 {
 	if (expr_is_one(arg))
@@ -96,35 +119,20 @@ static const expr *log_rules(expr_ctx *ctx, const expr *arg)
 		return arg->u.fun.arg;
 	if (arg->kind != EXPR_MUL)
 		return expr_fun_raw(ctx, EXPR_F_LOG, arg);
-	if (mpq_sgn(arg->u.mul.coef) < 0)
+	const expr **bases = xmalloc(arg->nops * sizeof *bases);
+	if (!expr_positive_bases(ctx, arg, bases)) {
+		free(bases);
 		return expr_fun_raw(ctx, EXPR_F_LOG, arg);
-	size_t odd_unknown = 0;
-	for (size_t i = 0; i < arg->nops; i++) {
-		const expr *base = arg->u.mul.bases[i], *e = arg->u.mul.exps[i];
-		if (expr_sign(ctx, base) == EXPR_SIGN_POS)
-			continue;
-		if (e->kind == EXPR_NUM && !rat_is_integer(e->u.num))
-			continue; /* x^f real only for x >= 0, and the log needs x > 0 */
-		if (!expr_is_integer(e))
-			return expr_fun_raw(ctx, EXPR_F_LOG, arg);
-		if (mpz_odd_p(mpq_numref(e->u.num)))
-			odd_unknown++;
 	}
-	if (odd_unknown > 1)
-		return expr_fun_raw(ctx, EXPR_F_LOG, arg);
 	const expr **terms = xmalloc((arg->nops + 1) * sizeof *terms);
 	size_t n = 0;
 	if (mpq_cmp_ui(arg->u.mul.coef, 1, 1) != 0)
 		terms[n++] = expr_fun_raw(ctx, EXPR_F_LOG, expr_num(ctx, arg->u.mul.coef));
-	for (size_t i = 0; i < arg->nops; i++) {
-		const expr *base = arg->u.mul.bases[i], *e = arg->u.mul.exps[i];
-		if (expr_is_integer(e) && mpz_even_p(mpq_numref(e->u.num)) &&
-		    expr_sign(ctx, base) != EXPR_SIGN_POS)
-			base = expr_fun(ctx, EXPR_F_ABS, base);
-		terms[n++] = expr_mul(ctx, e, expr_fun(ctx, EXPR_F_LOG, base));
-	}
+	for (size_t i = 0; i < arg->nops; i++)
+		terms[n++] = expr_mul(ctx, arg->u.mul.exps[i], expr_fun(ctx, EXPR_F_LOG, bases[i]));
 	const expr *result = expr_add_n(ctx, n, terms);
 	free(terms);
+	free(bases);
 	return result;
 }
 
@@ -152,7 +160,8 @@ static const expr *fun_rules(expr_ctx *ctx, expr_builtin fn, const expr *arg)
 	case EXPR_F_LOG:
 		return log_rules(ctx, arg);
 	case EXPR_F_ABS: {
-		/* abs(x) = x for x >= 0, -x for x <= 0; abs(-x) = abs(x) */
+		/* abs(x) = x for x >= 0 known, -x for x <= 0 known; abs(-x) = abs(x)
+		 * for every real x */
 		int s = expr_sign(ctx, arg);
 		if (!(s & EXPR_SIGN_NEG))
 			return arg;
@@ -167,7 +176,7 @@ static const expr *fun_rules(expr_ctx *ctx, expr_builtin fn, const expr *arg)
 	case EXPR_F_SINH:
 	case EXPR_F_TANH:
 	case EXPR_F_ERF:
-		/* odd functions: f(0) = 0, f(-x) = -f(x) */
+		/* odd functions: f(0) = 0, f(-x) = -f(x), every real x (tan: where defined) */
 		if (is_num_zero(arg))
 			return arg;
 		if (plainly_negative(arg))
@@ -175,7 +184,7 @@ static const expr *fun_rules(expr_ctx *ctx, expr_builtin fn, const expr *arg)
 		return expr_fun_raw(ctx, fn, arg);
 	case EXPR_F_COS:
 	case EXPR_F_COSH:
-		/* even functions: f(0) = 1, f(-x) = f(x) */
+		/* even functions: f(0) = 1, f(-x) = f(x), every real x */
 		if (is_num_zero(arg))
 			return expr_int(ctx, 1);
 		/* fall through */
@@ -184,7 +193,7 @@ static const expr *fun_rules(expr_ctx *ctx, expr_builtin fn, const expr *arg)
 			return expr_fun_raw(ctx, fn, expr_neg(ctx, arg));
 		return expr_fun_raw(ctx, fn, arg);
 	case EXPR_F_NCDF:
-		/* Phi(0) = 1/2; Phi(-x) = 1 - Phi(x) */
+		/* Phi(0) = 1/2; Phi(-x) = 1 - Phi(x), every real x */
 		if (is_num_zero(arg))
 			return expr_rat(ctx, 1, 2);
 		if (plainly_negative(arg))

@@ -139,4 +139,11 @@ static inline bool expr_is_positive_integer(const expr *e)
 /* Is e written with a negative leading coefficient, so -e reads better (expr-sign.c)? */
 bool expr_negative_form(const expr *e);
 
+/* For a product c * prod b_i^e_i (c > 0) at a point where it is positive:
+ * bases[i] is b_i or abs(b_i), chosen so that b_i^e_i = bases[i]^e_i there and
+ * bases[i] > 0 there.  False when that cannot be inferred from the signs
+ * (c <= 0, or two factors whose sign follows an unknown base).  bases holds
+ * nops entries (expr-sign.c). */
+bool expr_positive_bases(expr_ctx *ctx, const expr *product, const expr **bases);
+
 #endif

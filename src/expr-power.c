@@ -1,7 +1,31 @@
-/* expr-power.c - powers: (c*x^a)^n = c^n*x^(a*n) for integer n; for
- * fractional n the coefficient must be positive and (x^2k)^n = abs(x)^(2k*n);
- * (a+b)^n expanded for positive integer n, otherwise the positive content of
- * the sum is pulled out so 1/(2a+2b) = 1/2*(a+b)^-1.
+/* expr-power.c - powers, and the rules applied when one is made.
+ *
+ * Real powers follow the one convention of expr.h (x^(p/q), q odd: the real
+ * root; q even: x >= 0; x^s, s symbolic: x > 0).  A rule fires only where it is
+ * valid: wherever its left side is defined, the two sides agree.  The rules
+ * (identity; assumption; source), each stated again where it is applied:
+ *   x^0 = 1, x^1 = x                      none                   common practice
+ *   q^e for rationals q > 0, e: exact root when there is one, (a/b)^e =
+ *     a^e*b^-e, (k^r*m)^(a/r) = k^a*m^(a/r), q^(k+f) = q^k*q^f
+ *                                         q > 0                  common practice
+ *   (a+b)^n expanded                      n a positive integer   binomial theorem
+ *   (g*u)^e = g^e*u^e, g the content of a sum u
+ *                                         g > 0 (or e integer)   common practice
+ *   (c*prod x_i^a_i)^n = c^n*prod x_i^(a_i*n)
+ *                                         n an integer           common practice
+ *   (c*prod x_i^a_i)^e = c^e*prod X_i^(a_i*e), e a fraction, X_i = abs(x_i) for
+ *     an even numerator a_i (or symbolic a_i) and x_i of unknown sign, else x_i
+ *                                         c > 0; at most one x_i of unknown sign
+ *                                         whose power keeps its sign, and for an
+ *                                         even root of e > 0 no other factor that
+ *                                         may vanish                   common practice
+ *   (c*prod x_i^a_i)^s = c^s*prod X_i^(a_i*s), s symbolic
+ *                                         the product > 0 (expr_positive_bases)
+ *                                                              common practice
+ *   exp(u)^e = exp(e*u)                   none                   DLMF 4.2.26, from memory
+ *   abs(x)^(2k) = x^(2k)                  none                   common practice
+ *   1^s = 1                               none                   common practice
+ * tests/check_rules.c checks each in ball arithmetic on its domain.
  */
 #include "expr-internal.h"
 
@@ -113,7 +137,7 @@ static const expr *num_pow(expr_ctx *ctx, const __mpq_struct *q, const __mpq_str
 	} else if (mpq_sgn(q) < 0) {
 		result = expr_pow_pair(ctx, expr_num(ctx, q), expr_num(ctx, e));
 	} else if (!rat_is_integer(q)) {
-		/* (a/b)^e = a^e * b^-e, so each surd has an integer base */
+		/* (a/b)^e = a^e * b^-e for a, b > 0, so each surd has an integer base */
 		mpq_t part, minus_e;
 		mpq_init(part);
 		mpq_init(minus_e);
@@ -126,9 +150,9 @@ static const expr *num_pow(expr_ctx *ctx, const __mpq_struct *q, const __mpq_str
 		mpq_clear(part);
 		mpq_clear(minus_e);
 	} else if (extract_perfect_power(ctx, q, e, &result)) {
-		/* done: sqrt(8) = 2*sqrt(2) */
+		/* done: (k^r*m)^(a/r) = k^a*m^(a/r) for k, m > 0: sqrt(8) = 2*sqrt(2) */
 	} else {
-		/* split e = k + f */
+		/* q^(k+f) = q^k * q^f for q > 0, k = floor(e) */
 		mpz_t k;
 		mpz_init(k);
 		mpz_fdiv_q(k, mpq_numref(e), mpq_denref(e));
@@ -178,6 +202,12 @@ static void sum_content(const expr *sum, bool flip_sign, mpq_t g)
 	mpz_clear(den);
 }
 
+/* (a+b)^n expanded for a positive integer n (the binomial theorem, DLMF 1.2.2,
+ * from memory; every real a, b).  Otherwise (g*u)^e = g^e*u^e with g the
+ * rational content of the sum: for g > 0 valid for every real u (the real root
+ * of an odd q is multiplicative; with q even both sides need u >= 0); a
+ * negative g only for an integer e ((-a-b)^-1 = -(a+b)^-1).  Common practice,
+ * no source. */
 static const expr *pow_sum(expr_ctx *ctx, const expr *sum, const expr *exponent)
 {
 	const __mpq_struct *e = exponent->u.num;
@@ -219,7 +249,9 @@ static const expr *pow_sum(expr_ctx *ctx, const expr *sum, const expr *exponent)
 	return result;
 }
 
-/* (c * prod b_i^e_i)^e for a rational e. */
+/* (c * prod b_i^e_i)^e for a rational e.  Integer e: c^e * prod b_i^(e_i*e),
+ * valid wherever the left side is defined (common practice, no source).
+ * Fractional e: the conditions below. */
 static const expr *pow_mul(expr_ctx *ctx, const expr *product, const expr *exponent)
 {
 	const __mpq_struct *e = exponent->u.num;
@@ -230,19 +262,30 @@ static const expr *pow_mul(expr_ctx *ctx, const expr *product, const expr *expon
 		return expr_pow_pair(ctx, product, exponent);
 	}
 	if (!integer) {
-		/* (x*y)^e = x^e*y^e for fractional e needs x, y >= 0; one factor of
-		 * unknown sign is fine (the others are >= 0, so the domain makes it
-		 * >= 0 too), two are not: (a*b)^(1/2) is real for a, b < 0 */
-		size_t unknown = 0;
+		/* (x*y)^e = x^e*y^e for fractional e needs x, y >= 0 (for c > 0 too,
+		 * checked above); one factor of unknown sign is fine (the others
+		 * are >= 0, so the domain makes it >= 0 too), two are not:
+		 * (a*b)^(1/2) is real for a, b < 0.  Common practice, no source. */
+		size_t unknown = 0, odd = product->nops;
 		for (size_t i = 0; i < product->nops; i++) {
 			const expr *inner = product->u.mul.exps[i];
 			if (nonnegative_power(inner))
 				continue; /* x^(2k/q), x^(p/2k) or x^s: >= 0 wherever defined */
-			if (expr_sign(ctx, product->u.mul.bases[i]) & EXPR_SIGN_NEG)
+			if (expr_sign(ctx, product->u.mul.bases[i]) & EXPR_SIGN_NEG) {
 				unknown++;
+				odd = i;
+			}
 		}
 		if (unknown > 1)
 			return expr_pow_pair(ctx, product, exponent);
+		/* ... and none of the others may vanish when the root is even and
+		 * e > 0: (x*y^2)^(1/2) is 0 at y = 0, x < 0, where sqrt(x)*abs(y)
+		 * is undefined (a symbolic power x^s never vanishes: x > 0) */
+		if (unknown == 1 && mpz_even_p(mpq_denref(e)) && mpq_sgn(e) > 0)
+			for (size_t i = 0; i < product->nops; i++)
+				if (i != odd && product->u.mul.exps[i]->kind == EXPR_NUM &&
+				    (expr_sign(ctx, product->u.mul.bases[i]) & EXPR_SIGN_ZERO))
+					return expr_pow_pair(ctx, product, exponent);
 	}
 	const expr **parts = xmalloc((product->nops + 1) * sizeof *parts);
 	parts[0] = num_pow(ctx, c, e);
@@ -284,7 +327,8 @@ const expr *expr_pow(expr_ctx *ctx, const expr *base, const expr *exponent)
 		case EXPR_FUN:
 			if (base->u.fun.fn == EXPR_F_EXP)
 				return expr_fun(ctx, EXPR_F_EXP, expr_mul(ctx, exponent, base->u.fun.arg));
-			/* abs(x)^2k = x^2k */
+			/* exp(u)^e = exp(e*u) above, for every real u and e; abs(x)^2k = x^2k,
+			 * for every real x (x != 0 for k < 0) */
 			if (base->u.fun.fn == EXPR_F_ABS && expr_is_even_integer(exponent))
 				return expr_pow(ctx, base->u.fun.arg, exponent);
 			return expr_pow_pair(ctx, base, exponent);
@@ -292,30 +336,35 @@ const expr *expr_pow(expr_ctx *ctx, const expr *base, const expr *exponent)
 			return expr_pow_pair(ctx, base, exponent);
 		}
 	}
-	/* symbolic exponent */
+	/* symbolic exponent: 1^s = 1; exp(u)^s = exp(s*u), every real u, s */
 	if (expr_is_one(base))
 		return ctx->one;
 	if (expr_is_fun(base, EXPR_F_EXP))
 		return expr_fun(ctx, EXPR_F_EXP, expr_mul(ctx, exponent, base->u.fun.arg));
 	if (base->kind == EXPR_MUL) {
-		/* (x^a)^b = x^(a*b) for x > 0; (x*y)^b = x^b*y^b for x, y > 0 */
-		bool positive = mpq_sgn(base->u.mul.coef) > 0;
-		for (size_t i = 0; i < base->nops && positive; i++)
-			positive = expr_sign(ctx, base->u.mul.bases[i]) == EXPR_SIGN_POS ||
-			           (base->u.mul.exps[i]->kind == EXPR_NUM &&
-			            !rat_is_integer(base->u.mul.exps[i]->u.num));
-		if (positive) {
+		/* (c * prod x_i^a_i)^b = c^b * prod X_i^(a_i*b) for a symbolic b: the
+		 * left side is defined where the product is positive (expr.h), and
+		 * there X_i = x_i or abs(x_i) is positive with x_i^a_i = X_i^a_i
+		 * (expr_positive_bases), so (x^a)^b = x^(a*b) for x > 0,
+		 * (x^(2/3))^b = abs(x)^(2/3*b), (x*y)^b whole for x, y of unknown
+		 * sign.  Common practice, no source ((xy)^b = x^b*y^b, (x^a)^b =
+		 * x^(ab) for x, y > 0). */
+		const expr **bases = xmalloc(base->nops * sizeof *bases);
+		const expr *result = NULL;
+		if (expr_positive_bases(ctx, base, bases)) {
 			const expr **parts = xmalloc((base->nops + 1) * sizeof *parts);
-			parts[0] = expr_pow_pair(ctx, expr_num(ctx, base->u.mul.coef), exponent);
-			if (mpq_cmp_ui(base->u.mul.coef, 1, 1) == 0)
-				parts[0] = ctx->one;
+			parts[0] = mpq_cmp_ui(base->u.mul.coef, 1, 1) == 0
+			                   ? ctx->one
+			                   : expr_pow_pair(ctx, expr_num(ctx, base->u.mul.coef), exponent);
 			for (size_t i = 0; i < base->nops; i++)
-				parts[i + 1] = expr_pow(ctx, base->u.mul.bases[i],
-				                        expr_mul(ctx, base->u.mul.exps[i], exponent));
-			const expr *result = expr_mul_n(ctx, base->nops + 1, parts);
+				parts[i + 1] =
+				        expr_pow(ctx, bases[i], expr_mul(ctx, base->u.mul.exps[i], exponent));
+			result = expr_mul_n(ctx, base->nops + 1, parts);
 			free(parts);
-			return result;
 		}
+		free(bases);
+		if (result)
+			return result;
 	}
 	return expr_pow_pair(ctx, base, exponent);
 }

@@ -1,6 +1,21 @@
 /* expr-product.c - products and quotients: flatten, multiply coefficients,
- * sort bases, add exponents of equal bases (x^a*x^b = x^(a+b), valid on the
- * principal branch), fold exp(a)*exp(b) = exp(a+b), expand over sums.
+ * sort bases, add exponents of equal bases, fold exponentials, expand over sums.
+ *
+ * The rules (identity; assumption; source), each valid wherever its left side
+ * is defined under the convention for real powers of expr.h:
+ *   x^a*x^b = x^(a+b)        none: for rational a = p/q, b = r/s with q, s odd,
+ *                            x^a*x^b = sign(x)^(p+r)*abs(x)^(a+b), and a+b in
+ *                            lowest terms has an odd denominator and a numerator
+ *                            of the parity of p+r; with an even denominator or a
+ *                            symbolic exponent the left side needs x >= 0 or
+ *                            x > 0, where it is the law of exponents (DLMF
+ *                            4.2.27, from memory)
+ *   exp(a)*exp(b) = exp(a+b), exp(u)^e = exp(e*u)
+ *                            none (DLMF 4.2.28, from memory)
+ *   p^f*q^f = (p*q)^f        rationals p, q > 0 (common practice, no source)
+ *   (a+b)*c = a*c + b*c      none (common practice, no source)
+ *   u*u^-1 = 1 for a sum u   none: the left side needs u != 0
+ * tests/check_rules.c checks each in ball arithmetic on its domain.
  */
 #include "expr-internal.h"
 
@@ -232,7 +247,8 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 		goto done;
 	}
 
-	/* surds with one exponent share a base: sqrt(2)*sqrt(3) = sqrt(6) */
+	/* surds with one exponent share a base: p^f*q^f = (p*q)^f for p, q > 0,
+	 * sqrt(2)*sqrt(3) = sqrt(6) */
 	for (size_t i = 0; i < factors.n; i++) {
 		factor *f = &factors.items[i];
 		if (f->base->kind != EXPR_NUM || mpq_sgn(f->base->u.num) <= 0 ||
@@ -276,7 +292,8 @@ const expr *expr_mul_n(expr_ctx *ctx, size_t n, const expr *const *inputs)
 		goto done;
 	}
 
-	/* merge equal bases; fold exp factors into one exp */
+	/* merge equal bases, x^a*x^b = x^(a+b) (see the top of the file); fold exp
+	 * factors into one exp */
 	expr_run_sort(factors.items, factors.n, sizeof *factors.items, compare_factors);
 	factor_list merged;
 	factor_list_init(&merged);

@@ -249,3 +249,31 @@ bool expr_negative_form(const expr *e)
 		return false;
 	}
 }
+
+/* Given p = c * prod b_i^e_i > 0 at a point (the convention of expr.h):
+ *   b_i known positive, or e_i symbolic (b^s is defined for b > 0 only): b_i;
+ *   e_i = p/q with q even: b_i >= 0 where defined and b_i != 0 as p != 0: b_i;
+ *   e_i = p/q, q odd, p even: b^e = abs(b)^e, and abs(b) > 0 as p != 0;
+ *   e_i = p/q, q odd, p odd: b^e has the sign of b.  If b may be negative and
+ *   every other factor is positive (all of the above), p > 0 forces b > 0; two
+ *   such factors do not (x*y > 0 at x, y < 0).
+ * Common practice, no source. */
+bool expr_positive_bases(expr_ctx *ctx, const expr *product, const expr **bases)
+{
+	if (product->kind != EXPR_MUL || mpq_sgn(product->u.mul.coef) <= 0)
+		return false;
+	size_t odd_unknown = 0;
+	for (size_t i = 0; i < product->nops; i++) {
+		const expr *base = product->u.mul.bases[i], *e = product->u.mul.exps[i];
+		bases[i] = base;
+		if (e->kind != EXPR_NUM || !(expr_sign(ctx, base) & EXPR_SIGN_NEG))
+			continue;
+		if (mpz_even_p(mpq_denref(e->u.num)))
+			continue;
+		if (mpz_even_p(mpq_numref(e->u.num)))
+			bases[i] = expr_fun(ctx, EXPR_F_ABS, base);
+		else
+			odd_unknown++;
+	}
+	return odd_unknown <= 1;
+}

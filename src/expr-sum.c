@@ -1,5 +1,9 @@
 /* expr-sum.c - sums: flatten, split each term into c*m, sort by m, merge, drop
  * zeros.
+ *
+ * The one rule: c1*m + c2*m = (c1 + c2)*m for rationals c1, c2 (so u - u = 0);
+ * no assumption (distributivity, common practice, no source).  Checked in
+ * tests/check_rules.c.
  */
 #include "expr-internal.h"
 
