@@ -122,6 +122,7 @@ static bool statement_fits(struct itox_parse_state *ps, const ast_node *stmt);
 %token COLON ":" LT "<" GT ">" LE "<=" GE ">="
 %token LPAREN "(" RPAREN ")" LBRACK "[" RBRACK "]"
 %token DOP "d("
+%token <node> QOP "query("
 %token BADCHAR "bad character" BADSTRING "unterminated string" DEEP "nesting limit"
 /* Keep the keywords together, "param" first and "d" last (see is_keyword). */
 %token PARAM "param" ASSUME "assume" NOISE "noise" CORR "corr" FUNC "func" LET "let"
@@ -321,6 +322,7 @@ primary:
 	| "partial" "(" expr "," names ")"
 				{ $$ = ast_finish($5, AST_PARTIAL, NULL, $3, &@$); }
 	| DOP "(" expr ")"	{ $$ = ast_unary(L, AST_DIFF, $3, &@$); }
+	| QOP "(" args ")"	{ $$ = ast_finish($3, AST_QUERY, $1, NULL, &@$); }
 	| "(" expr ")"		{ $$ = $2; }
 	;
 
@@ -430,6 +432,11 @@ static void describe_lookahead(struct msg *m, yysymbol_kind_t kind,
 	case YYSYMBOL_DOP:
 		msg_add(m, "'d('");
 		break;
+	case YYSYMBOL_QOP:
+		msg_add(m, "'");
+		msg_add(m, ps->last_text);
+		msg_add(m, "('");
+		break;
 	default:
 		msg_add_token(m, kind);
 		break;
@@ -440,7 +447,7 @@ static bool is_expression_start(yysymbol_kind_t kind)
 {
 	return kind == YYSYMBOL_NUM || kind == YYSYMBOL_NAME || kind == YYSYMBOL_LPAREN ||
 	       kind == YYSYMBOL_MINUS || kind == YYSYMBOL_PLUS || kind == YYSYMBOL_DOP ||
-	       kind == YYSYMBOL_PARTIAL;
+	       kind == YYSYMBOL_QOP || kind == YYSYMBOL_PARTIAL;
 }
 
 static bool is_operator(yysymbol_kind_t kind)

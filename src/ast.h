@@ -31,6 +31,7 @@ typedef struct ast_loc {
 	X(CALL)		  /* text: function name; items: arguments */                         \
 	X(PARTIAL)	  /* partial(a, items...): items are NAME nodes */                    \
 	X(DIFF)		  /* d(a): the operator form, d directly before '(' */                \
+	X(QUERY)	  /* text: drift, diffusion, generator or qv directly before '('; items */ \
 	/* pieces of statements */                                                             \
 	X(ASSIGN)	  /* text = a   (at/over lists, measure shifts) */                      \
 	X(INTERVAL)	  /* [a, b] */                                                         \

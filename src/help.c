@@ -29,12 +29,23 @@
 	       "  The Ito differential: d(EXPR) = (drift)*dt + (b1)*dW + ...\n"                       \
 	       "  d(EXPR) before a parenthesis is the operator, so d(S)*d(S) is a product.\n"         \
 	       "  example:  d log(S)\n")                                                              \
-	X("drift", "drift EXPR\n  The dt part of d EXPR.  example:  drift log(S)\n")                  \
-	X("diffusion", "diffusion EXPR\n  The noise parts of d EXPR.  example:  diffusion log(S)\n")  \
-	X("generator", "generator EXPR\n  The generator applied to EXPR.  example:  generator S^2\n") \
-	X("qv", "qv EXPR  |  qv EXPR, EXPR\n"                                                         \
-		"  Quadratic variation rate d<X>/dt, or covariation rate d<X,Y>/dt.\n"                \
-		"  example:  qv log(S)\n")                                                            \
+	X("drift", "drift EXPR  |  drift(EXPR)\n"                                                  \
+		   "  The dt part of d EXPR.  Written with '(' directly after the word it is a\n"    \
+		   "  function usable in any expression (drift(S)/S, let D = drift(S)); with a\n"    \
+		   "  space or no parenthesis it takes the rest of the statement, so drift (S)/S\n"  \
+		   "  is the drift of S/S.  example:  drift(S^2)/S^2\n")                            \
+	X("diffusion", "diffusion EXPR  |  diffusion(EXPR)  |  diffusion(EXPR, NOISE)\n"            \
+		       "  The noise parts of d EXPR; diffusion(EXPR, W) is the coefficient of dW,\n" \
+		       "  usable in expressions (see help drift for the parenthesis rule).\n"       \
+		       "  example:  diffusion(log(S), W)/sigma\n")                                 \
+	X("generator", "generator EXPR  |  generator(EXPR)\n"                                        \
+		       "  The generator applied to EXPR; generator(EXPR) is a function usable in\n"  \
+		       "  expressions (claim generator(V) - r*V = 0; see help drift).\n"           \
+		       "  example:  generator(S^2) - 2*mu*S^2\n")                                  \
+	X("qv", "qv EXPR  |  qv EXPR, EXPR  |  qv(EXPR)  |  qv(EXPR, EXPR)\n"                        \
+		"  Quadratic variation rate d<X>/dt, or covariation rate d<X,Y>/dt; qv(...)\n"      \
+		"  is a function usable in expressions (see help drift).\n"                        \
+		"  example:  qv(log(S))/sigma^2\n")                                                 \
 	X("pde", "pde V(t, S) [discount EXPR]\n"                                                      \
 		 "  The backward equation V_t + L V - r V = 0 that makes the discounted V\n"          \
 		 "  a martingale.  example:  pde V(t, S) discount r\n")                               \
@@ -95,6 +106,8 @@ static const char overview[] =
 	"itox: symbolic Ito calculus.  Statements (help TOPIC for each):\n"
 	"  declarations  param (in) assume noise corr func sde let measure state (where)\n"
 	"  queries       EXPR partial d drift diffusion generator qv pde (discount)\n"
+	"                drift(EXPR), diffusion(EXPR, NOISE), generator(EXPR), qv(A, B)\n"
+	"                are functions inside expressions: drift(S)/S\n"
 	"                sde, any query followed by: under MEASURE\n"
 	"  verification  claim check (at, over, verbose)\n"
 	"  session       show save load format help quit\n"

@@ -262,6 +262,18 @@ START_TEST(test_queries)
 	       "(S_PDE V (NAME t) (NAME S) (NAME v) (discount (ADD (NAME r0) (NAME x))))");
 	PARSES("sde X", "(S_SDE_ITO X)");
 	PARSES("sde X stratonovich", "(S_SDE_STRAT X)");
+	/* a query word directly before '(' is a function inside an expression */
+	PARSES("drift(P)/P", "(S_EXPR (DIV (QUERY drift (NAME P)) (NAME P)))");
+	PARSES("drift (P)/P", "(S_DRIFT (DIV (NAME P) (NAME P)))");
+	PARSES("let D = drift(P)", "(S_LET D (QUERY drift (NAME P)))");
+	PARSES("diffusion(P, W)*2", "(S_EXPR (MUL (QUERY diffusion (NAME P) (NAME W)) (NUM 2)))");
+	PARSES("qv(S, v) - qv(S)", "(S_EXPR (SUB (QUERY qv (NAME S) (NAME v)) (QUERY qv (NAME S))))");
+	PARSES("claim generator(C) - r*C = 0",
+	       "(S_CLAIM (SUB (QUERY generator (NAME C)) (MUL (NAME r) (NAME C))) (NUM 0))");
+	PARSES("claim generator C - r*C = 0",
+	       "(S_CLAIM (S_GENERATOR (SUB (NAME C) (MUL (NAME r) (NAME C)))) (NUM 0))");
+	PARSES("drift(S)/S under Q", "(S_UNDER Q (S_EXPR (DIV (QUERY drift (NAME S)) (NAME S))))");
+	PARSES("drifty(S)", "(S_EXPR (CALL drifty (NAME S)))");
 }
 END_TEST
 
