@@ -48,7 +48,9 @@
 		"  example:  qv(log(S))/sigma^2\n")                                                 \
 	X("pde", "pde V(t, S) [discount EXPR]\n"                                                      \
 		 "  The backward equation V_t + L V - r V = 0 that makes the discounted V\n"          \
-		 "  a martingale.  example:  pde V(t, S) discount r\n")                               \
+		 "  a martingale.  The arguments must include every state that enters the SDE\n"    \
+		 "  of a listed state or the discount (else an error names the missing one).\n"    \
+		 "  example:  pde V(t, S) discount r\n")                                              \
 	X("sde", "sde X  |  sde X stratonovich\n"                                                   \
 		 "  The SDE of the state X in Ito form, or in Stratonovich form.\n"                  \
 		 "  example:  sde X stratonovich\n")                                                 \
