@@ -39,7 +39,8 @@ typedef void *yyscan_t;
 	X(verbose, VERBOSE) X(show, SHOW) X(save, SAVE) X(load, LOAD)         \
 	X(format, FORMAT) X(help, HELP) X(quit, QUIT) X(partial, PARTIAL)     \
 	X(drift, DRIFT) X(diffusion, DIFFUSION) X(generator, GENERATOR)       \
-	X(qv, QV) X(pde, PDE) X(discount, DISCOUNT) X(in, IN) X(d, D)
+	X(qv, QV) X(pde, PDE) X(discount, DISCOUNT) X(in, IN)                 \
+	X(coefficients, COEFFICIENTS) X(forward, FORWARD) X(moments, MOMENTS) X(d, D)
 
 /* An open '(' or '[' that has not been closed yet. */
 struct itox_open_bracket {
@@ -130,7 +131,8 @@ static bool statement_fits(struct itox_parse_state *ps, const ast_node *stmt);
 %token STATE "state" WHERE "where" CLAIM "claim" CHECK "check" AT "at" OVER "over"
 %token VERBOSE "verbose" SHOW "show" SAVE "save" LOAD "load" FORMAT "format"
 %token HELP "help" QUIT "quit" PARTIAL "partial" DRIFT "drift" DIFFUSION "diffusion"
-%token GENERATOR "generator" QV "qv" PDE "pde" DISCOUNT "discount" IN "in" D "d"
+%token GENERATOR "generator" QV "qv" PDE "pde" DISCOUNT "discount" IN "in"
+%token COEFFICIENTS "coefficients" FORWARD "forward" MOMENTS "moments" D "d"
 
 %type <node> stmt query dquery claim_lhs decl command expr primary args names
 %type <node> param_names conds cond interval assign assigns opt_rhs opt_over opt_discount
@@ -173,6 +175,12 @@ query:
 	| dquery
 	| "pde" NAME "(" names ")" opt_discount
 				{ $$ = ast_finish($4, AST_S_PDE, $2, $6, &@$); }
+	| "forward" NAME "(" names ")"
+				{ $$ = ast_finish($4, AST_S_FORWARD, $2, NULL, &@$); }
+	| "coefficients" expr "in" names
+				{ $$ = ast_finish($4, AST_S_COEFFICIENTS, NULL, $2, &@$); }
+	| "moments" NAME "," NUM
+				{ $$ = ast_named(L, AST_S_MOMENTS, $2, $4, NULL, &@$); }
 	| "sde" NAME		{ $$ = ast_named(L, AST_S_SDE_ITO, $2, NULL, NULL, &@$); }
 	| "sde" NAME "stratonovich"
 				{ $$ = ast_named(L, AST_S_SDE_STRAT, $2, NULL, NULL, &@$); }
@@ -470,6 +478,7 @@ static bool is_statement_keyword(yysymbol_kind_t kind)
 	case YYSYMBOL_SHOW: case YYSYMBOL_SAVE: case YYSYMBOL_LOAD: case YYSYMBOL_FORMAT:
 	case YYSYMBOL_HELP: case YYSYMBOL_QUIT: case YYSYMBOL_DRIFT: case YYSYMBOL_DIFFUSION:
 	case YYSYMBOL_GENERATOR: case YYSYMBOL_QV: case YYSYMBOL_PDE: case YYSYMBOL_D:
+	case YYSYMBOL_COEFFICIENTS: case YYSYMBOL_FORWARD: case YYSYMBOL_MOMENTS:
 		return true;
 	default:
 		return false;

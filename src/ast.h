@@ -45,6 +45,9 @@ typedef struct ast_loc {
 	X(S_GENERATOR)	  /* generator a */                                                    \
 	X(S_QV)		  /* qv a [, b] (b NULL for one argument) */                          \
 	X(S_PDE)	  /* pde text(items) [discount a]: items NAME args, a may be NULL */  \
+	X(S_FORWARD)	  /* forward text(items): items NAME args */                           \
+	X(S_COEFFICIENTS) /* coefficients a in items: items NAME variables */                 \
+	X(S_MOMENTS)	  /* moments text, a: a the NUM order K */                             \
 	X(S_SDE_ITO)	  /* sde text */                                                       \
 	X(S_SDE_STRAT)	  /* sde text stratonovich */                                          \
 	X(S_PARAM)	  /* param: items are COND nodes (op REL_NONE when unconstrained) */ \

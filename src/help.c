@@ -51,6 +51,23 @@
 		 "  a martingale.  The arguments must include every state that enters the SDE\n"    \
 		 "  of a listed state or the discount (else an error names the missing one).\n"    \
 		 "  example:  pde V(t, S) discount r\n")                                              \
+	X("coefficients", "coefficients EXPR in x [, y ...]\n"                                      \
+			  "  EXPR, after the rational normal form, as a polynomial in x, y: one line per\n" \
+			  "  monomial (1: ..., x: ..., x^2: ...), or an error naming a term that is not\n" \
+			  "  polynomial in them.  With an exponential-affine guess P = A(t)*exp(-B(t)*r),\n" \
+			  "  coefficients (drift(P) - r*P)/P in r gives the ODEs for A and B.\n"          \
+			  "  example:  coefficients (S + 1)^2*mu in S\n")                                 \
+	X("forward", "forward p(t, X, ...)\n"                                                        \
+		     "  The forward (Fokker-Planck) equation of the transition density in the\n"     \
+		     "  listed states: p_t = -sum_i d_i(mu_i p) + 1/2 sum_ij d_i d_j(C_ij p),\n"       \
+		     "  expanded; under a measure too.  The arguments must include every state\n"    \
+		     "  that enters a listed state's SDE.  example:  forward p(t, S)\n")             \
+	X("moments", "moments X, K\n"                                                                \
+		     "  For a state with drift of degree <= 1 and squared diffusion of degree <= 2\n" \
+		     "  in X: the linear ODEs of m_k(t) = E[X_t^k | X_0 = X], k = 1..K (m1' = ...),\n" \
+		     "  and, when the coefficients do not depend on t, their solution in X and t\n"  \
+		     "  (m1 = ...).  Any other state is an error saying why the system does not\n"  \
+		     "  close.  example:  moments S, 2\n")                                            \
 	X("sde", "sde X  |  sde X stratonovich\n"                                                   \
 		 "  The SDE of the state X in Ito form, or in Stratonovich form.\n"                  \
 		 "  example:  sde X stratonovich\n")                                                 \
@@ -111,6 +128,7 @@ static const char overview[] =
 	"                drift(EXPR), diffusion(EXPR, NOISE), generator(EXPR), qv(A, B)\n"
 	"                are functions inside expressions: drift(S)/S\n"
 	"                sde, any query followed by: under MEASURE\n"
+	"  algebra       coefficients (in) forward moments\n"
 	"  verification  claim check (at, over, verbose)\n"
 	"  session       show save load format help quit\n"
 	"Example:\n"

@@ -261,11 +261,9 @@ bool run_qv(session *s, const ast_node *st)
 	return output_scalar(s, st, RESULT_QV, a, b, rate);
 }
 
-/* The unknown function of pde and forward, st->text(st->items...): declared
- * now when it is new; its arguments are t and declared names, and the
- * equation must close in them (ito_unclosed).  NULL after a message. */
-static const expr *equation_unknown(session *s, const ast_node *st, const char *what,
-                                    const expr *discount)
+/* Its arguments are t and declared names, and the equation must close in
+ * them (ito_unclosed). */
+const expr *equation_unknown(session *s, const ast_node *st, const char *what, const expr *discount)
 {
 	model *m = &s->model;
 	model_entry *entry = model_lookup(m, st->text);

@@ -274,6 +274,12 @@ START_TEST(test_queries)
 	       "(S_CLAIM (S_GENERATOR (SUB (NAME C) (MUL (NAME r) (NAME C)))) (NUM 0))");
 	PARSES("drift(S)/S under Q", "(S_UNDER Q (S_EXPR (DIV (QUERY drift (NAME S)) (NAME S))))");
 	PARSES("drifty(S)", "(S_EXPR (CALL drifty (NAME S)))");
+	PARSES("forward p(t, x, y)", "(S_FORWARD p (NAME t) (NAME x) (NAME y))");
+	PARSES("coefficients (drift(P) - r*P)/P in r, y",
+	       "(S_COEFFICIENTS (DIV (SUB (QUERY drift (NAME P)) (MUL (NAME r) (NAME P))) (NAME P)) "
+	       "(NAME r) (NAME y))");
+	PARSES("moments v, 3", "(S_MOMENTS v (NUM 3))");
+	PARSES("moments v, 2 under Q", "(S_UNDER Q (S_MOMENTS v (NUM 2)))");
 }
 END_TEST
 
@@ -453,7 +459,7 @@ START_TEST(test_keywords)
 		free(got);
 		count++;
 	}
-	ck_assert_uint_eq(count, 32);
+	ck_assert_uint_eq(count, 35); /* with coefficients, forward, moments */
 	ck_assert_str_eq(ast_keywords[0], "param");
 	ck_assert_str_eq(ast_keywords[count - 1], "d");
 	ck_assert_str_eq(ast_kind_name(AST_NUM), "NUM");
