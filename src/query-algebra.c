@@ -9,6 +9,7 @@
  */
 #include "session-internal.h"
 
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -146,6 +147,17 @@ bool run_moments(session *s, const ast_node *st)
 		return false;
 	}
 	size_t K = (size_t)mpz_get_ui(mpq_numref(expr_num_value(order)));
+	for (size_t k = 1; k <= K; k++) {
+		char name[32];
+		snprintf(name, sizeof name, "m%zu", k);
+		model_entry *taken = model_lookup(&s->model, name);
+		if (taken) {
+			report(s, SESSION_INPUT, &st->loc,
+			       "moments calls its unknowns m1..m%zu, and '%s' is a %s of the model; rename it",
+			       K, name, model_kind_name(taken->kind));
+			return false;
+		}
+	}
 	moments mo;
 	moments_status status = moments_compute(&s->model, s->measure, entry->sym, K, &mo);
 	if (status != MOMENTS_OK) {

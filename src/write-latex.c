@@ -65,21 +65,23 @@ static void rows(writer *w, const stmt_result *r, xbuf *buf)
 	char **labels, **values;
 	size_t n = writer_rows(r, w->ctx, PRN_LATEX_PLAIN, &labels, &values);
 	bool coefficients = r->kind == RESULT_COEFFICIENTS;
+	/* one line per result outside a document, as for every other result */
+	const char *between = w->standalone ? " \\\\\n" : " \\\\ ";
 	if (!w->standalone)
-		xbuf_put(buf, "\\begin{aligned}\n");
+		xbuf_put(buf, "\\begin{aligned} ");
 	for (size_t i = 0; i < n; i++)
-		xbuf_printf(buf, "%s%s%s%s &= %s", i ? " \\\\\n" : "", coefficients ? "[" : "", labels[i],
+		xbuf_printf(buf, "%s%s%s%s &= %s", i ? between : "", coefficients ? "[" : "", labels[i],
 		            coefficients ? "]" : "", values[i]);
 	writer_rows_free(n, labels, values);
 	char *none = writer_no_solution(r, w->ctx);
 	if (none) {
-		xbuf_put(buf, " \\\\\n&\\text{");
+		xbuf_printf(buf, "%s&\\text{", between);
 		put_escaped(buf, none);
 		xbuf_put(buf, "}");
 	}
 	free(none);
 	if (!w->standalone)
-		xbuf_put(buf, "\n\\end{aligned}");
+		xbuf_put(buf, " \\end{aligned}");
 }
 
 /* The display-math form of a result that has one; false for sentences. */
