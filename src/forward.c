@@ -106,9 +106,11 @@ static const expr *wave_expr(expr_ctx *ctx, const waves *w, const expr *t)
 {
 	const expr **terms = xcalloc(w->n + 1, sizeof *terms);
 	for (size_t i = 0; i < w->n; i++) {
-		const expr *term = expr_mul(ctx, w->items[i].c, expr_pow(ctx, t, expr_int(ctx, (long)w->items[i].p)));
+		const expr *term =
+		        expr_mul(ctx, w->items[i].c, expr_pow(ctx, t, expr_int(ctx, (long)w->items[i].p)));
 		if (!expr_is_zero(w->items[i].rate))
-			term = expr_mul(ctx, term, expr_fun(ctx, EXPR_F_EXP, expr_mul(ctx, w->items[i].rate, t)));
+			term = expr_mul(ctx, term,
+			                expr_fun(ctx, EXPR_F_EXP, expr_mul(ctx, w->items[i].rate, t)));
 		terms[i] = term;
 	}
 	const expr *sum = expr_add_n(ctx, w->n, terms);
@@ -118,8 +120,8 @@ static const expr *wave_expr(expr_ctx *ctx, const waves *w, const expr *t)
 
 /* out += factor * int_0^t e^(lambda (t-s)) g(s) ds for g = sum c s^p e^(mu s);
  * false with *unknown = a when a = mu - lambda is not known to be nonzero. */
-static bool add_convolution(expr_ctx *ctx, waves *out, const expr *factor, const waves *g,
-                            const expr *lambda, const expr **unknown)
+static bool add_convolution(expr_ctx *ctx, waves *out, const expr *factor, const waves *g, const expr *lambda,
+                            const expr **unknown)
 {
 	if (expr_is_zero(factor))
 		return true;
@@ -237,7 +239,8 @@ moments_status moments_compute(model *m, const model_measure *q, const expr *X, 
 		const expr *two_below = k >= 3 ? out->symbols[k - 3] : expr_int(ctx, 1);
 		out->equations[k - 1] = expr_add_n(
 		        ctx, 3,
-		        (const expr *[]){expr_mul(ctx, lambda[k], out->symbols[k - 1]), expr_mul(ctx, beta[k], below),
+		        (const expr *[]){expr_mul(ctx, lambda[k], out->symbols[k - 1]),
+		                         expr_mul(ctx, beta[k], below),
 		                         k >= 2 ? expr_mul(ctx, gamma[k], two_below) : expr_int(ctx, 0)});
 	}
 	bool timed = false;

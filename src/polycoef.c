@@ -78,7 +78,8 @@ static size_t find_or_insert(expr_ctx *ctx, polycoef *p, const unsigned long *de
 		*capacity = *capacity ? 2 * *capacity : 8;
 		p->monomials = xreallocarray(p->monomials, *capacity, sizeof *p->monomials);
 		p->coefs = xreallocarray(p->coefs, *capacity, sizeof *p->coefs);
-		p->degrees = xreallocarray(p->degrees, *capacity * (p->nvars ? p->nvars : 1), sizeof *p->degrees);
+		p->degrees =
+		        xreallocarray(p->degrees, *capacity * (p->nvars ? p->nvars : 1), sizeof *p->degrees);
 	}
 	memmove(p->monomials + at + 1, p->monomials + at, (p->n - at) * sizeof *p->monomials);
 	memmove(p->coefs + at + 1, p->coefs + at, (p->n - at) * sizeof *p->coefs);
@@ -88,7 +89,8 @@ static size_t find_or_insert(expr_ctx *ctx, polycoef *p, const unsigned long *de
 	for (size_t v = 0; v < p->nvars; v++) {
 		p->degrees[at * p->nvars + v] = degrees[v];
 		if (degrees[v])
-			monomial = expr_mul(ctx, monomial, expr_pow(ctx, vars[v], expr_int(ctx, (long)degrees[v])));
+			monomial = expr_mul(ctx, monomial,
+			                    expr_pow(ctx, vars[v], expr_int(ctx, (long)degrees[v])));
 	}
 	p->monomials[at] = monomial;
 	p->coefs[at] = expr_int(ctx, 0);
@@ -108,14 +110,16 @@ bool polycoef_split(expr_ctx *ctx, const expr *e, size_t nvars, const expr *cons
 	size_t capacity = 0;
 	bool ok = true;
 	for (size_t i = 0; i < nterms && ok; i++) {
-		const expr *term = nterms == 1 && expr_kind_of(normal) != EXPR_ADD ? normal : expr_op(normal, i);
+		const expr *term =
+		        nterms == 1 && expr_kind_of(normal) != EXPR_ADD ? normal : expr_op(normal, i);
 		if (expr_is_zero(term))
 			continue;
 		const expr *monomial = expr_int(ctx, 1);
 		for (size_t v = 0; v < nvars && ok; v++) {
 			ok = degree_in(ctx, term, vars[v], &degrees[v]);
 			if (ok && degrees[v])
-				monomial = expr_mul(ctx, monomial, expr_pow(ctx, vars[v], expr_int(ctx, (long)degrees[v])));
+				monomial = expr_mul(ctx, monomial,
+				                    expr_pow(ctx, vars[v], expr_int(ctx, (long)degrees[v])));
 		}
 		if (!ok) {
 			out->bad = term;

@@ -14,12 +14,12 @@
 #include "expr.h"
 
 typedef struct polycoef {
-	size_t n;                /* monomials with a nonzero coefficient (at least one: 1 for e = 0) */
-	const expr **monomials;  /* 1, x, y, x^2, x*y, ...: by total degree, then x's degree first */
-	const expr **coefs;      /* the coefficient of each */
-	unsigned long *degrees;  /* n rows of nvars degrees */
+	size_t n;               /* monomials with a nonzero coefficient (at least one: 1 for e = 0) */
+	const expr **monomials; /* 1, x, y, x^2, x*y, ...: by total degree, then x's degree first */
+	const expr **coefs;     /* the coefficient of each */
+	unsigned long *degrees; /* n rows of nvars degrees */
 	size_t nvars;
-	const expr *bad;         /* after a refusal: a term that is not polynomial in the variables */
+	const expr *bad; /* after a refusal: a term that is not polynomial in the variables */
 } polycoef;
 
 /* Split e; false when it is not a polynomial in vars (bad set) or on an

@@ -99,38 +99,29 @@ bool run_coefficients(session *s, const ast_node *st)
 /* Why moments X, K does not close, as a message. */
 static void moments_refused(session *s, const ast_node *st, moments_status status, const expr *culprit)
 {
+	if (status == MOMENTS_ENGINE) {
+		if (!engine_failed(s, &st->loc))
+			report(s, SESSION_INPUT, &st->loc, "cannot compute the moments of %s", st->text);
+		return;
+	}
 	char *what = culprit ? text_expr(s, culprit) : xstrdup("");
 	const char *x = st->text;
-	switch (status) {
-	case MOMENTS_NOT_POLYNOMIAL:
-		report(s, SESSION_INPUT, &st->loc,
-		       "the moment equations of %s do not close: they need a drift and a squared "
-		       "diffusion polynomial in %s, and the term %s is not",
-		       x, x, what);
-		break;
-	case MOMENTS_DRIFT_DEGREE:
-		report(s, SESSION_INPUT, &st->loc,
-		       "the moment equations of %s do not close: the drift %s has degree above 1 in %s, "
-		       "so the equation of each moment involves a higher one",
-		       x, what, x);
-		break;
-	case MOMENTS_SQUARE_DEGREE:
-		report(s, SESSION_INPUT, &st->loc,
-		       "the moment equations of %s do not close: the squared diffusion %s has degree "
-		       "above 2 in %s, so the equation of each moment involves a higher one",
-		       x, what, x);
-		break;
-	case MOMENTS_OTHER_PROCESS:
-		report(s, SESSION_INPUT, &st->loc,
-		       "the moment equations of %s do not close: its dynamics depend on the process %s, "
-		       "so its moments are not a system in %s alone",
-		       x, what, x);
-		break;
-	default:
-		if (!engine_failed(s, &st->loc))
-			report(s, SESSION_INPUT, &st->loc, "cannot compute the moments of %s", x);
-		break;
-	}
+	char *why;
+	if (status == MOMENTS_NOT_POLYNOMIAL)
+		why = xasprintf("they need a drift and a squared diffusion polynomial in %s, and the "
+		                "term %s is not",
+		                x, what);
+	else if (status == MOMENTS_OTHER_PROCESS)
+		why = xasprintf("its dynamics depend on the process %s, so its moments are not a system "
+		                "in %s alone",
+		                what, x);
+	else
+		why = xasprintf("the %s %s has degree above %d in %s, so the equation of each moment "
+		                "involves a higher one",
+		                status == MOMENTS_DRIFT_DEGREE ? "drift" : "squared diffusion", what,
+		                status == MOMENTS_DRIFT_DEGREE ? 1 : 2, x);
+	report(s, SESSION_INPUT, &st->loc, "the moment equations of %s do not close: %s", x, why);
+	free(why);
 	free(what);
 }
 
@@ -153,7 +144,8 @@ bool run_moments(session *s, const ast_node *st)
 		model_entry *taken = model_lookup(&s->model, name);
 		if (taken) {
 			report(s, SESSION_INPUT, &st->loc,
-			       "moments calls its unknowns m1..m%zu, and '%s' is a %s of the model; rename it",
+			       "moments calls its unknowns m1..m%zu, and '%s' is a %s of the model; rename "
+			       "it",
 			       K, name, model_kind_name(taken->kind));
 			return false;
 		}
