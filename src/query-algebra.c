@@ -69,8 +69,11 @@ bool run_coefficients(session *s, const ast_node *st)
 	}
 	polycoef poly;
 	if (!polycoef_split(s->ctx, e, st->nitems, vars, &poly)) {
-		if (!poly.bad)
-			return !engine_failed(s, &st->loc) && false;
+		if (!poly.bad) {
+			if (!engine_failed(s, &st->loc))
+				report(s, SESSION_INPUT, &st->a->loc, "cannot write this expression as a polynomial");
+			return false;
+		}
 		char *term = text_expr(s, poly.bad);
 		xbuf names = {0};
 		for (size_t i = 0; i < st->nitems; i++)
