@@ -359,18 +359,19 @@ static bool has_rows(const stmt_result *r)
 	return r->kind == RESULT_COEFFICIENTS || r->kind == RESULT_MOMENTS;
 }
 
-/* "\n   out[0]: 1, out[1]: r" (coefficients) or "\n   out[0]: m1', ..." (moments) */
+/* " (out[0]: 1, out[1]: r)" (coefficients) or " (out[0]: m1', ...)" (moments) */
 static char *row_names(writer *w, const stmt_result *r)
 {
 	xbuf buf = {0};
-	xbuf_put(&buf, "\n  ");
+	xbuf_put(&buf, " (");
 	for (size_t i = 0; i < r->nrows; i++) {
 		char *label = r->kind == RESULT_COEFFICIENTS ? prn_expr(w->ctx, r->labels[i], PRN_TEXT)
 		              : r->nvars ? xasprintf("%s'", expr_sym_name(r->vars[i]))
 		                         : xasprintf("E[%s_t^%zu | %s_0 = %s]", r->name, i + 1, r->name, r->name);
-		xbuf_printf(&buf, "%s out[%zu]: %s", i ? "," : "", i, label);
+		xbuf_printf(&buf, "%sout[%zu]: %s", i ? ", " : "", i, label);
 		free(label);
 	}
+	xbuf_put(&buf, ")");
 	return xbuf_take(&buf);
 }
 
