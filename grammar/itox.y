@@ -525,6 +525,8 @@ static void describe_expected(struct msg *m, const yypcontext_t *ctx)
 	}
 	if (statement)
 		groups[ngroups++] = "a statement";
+	else if (expression && !name)
+		groups[ngroups++] = "a number"; /* moments X, K */
 	else if (expression)
 		groups[ngroups++] = "an expression";
 	else if (name)

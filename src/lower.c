@@ -519,7 +519,8 @@ static long query_noise(session *s, const ast_node *n)
 			return -1;
 		}
 	}
-	if (n->kind == AST_NAME && !model_lookup(&s->model, n->text) && !s->measure) {
+	if (n->kind == AST_NAME && strcmp(n->text, "t") != 0 && !model_lookup(&s->model, n->text) &&
+	    !s->measure) {
 		unknown_name(s, &n->loc, n->text);
 		return -1;
 	}
