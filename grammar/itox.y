@@ -40,7 +40,8 @@ typedef void *yyscan_t;
 	X(verbose, VERBOSE) X(show, SHOW) X(save, SAVE) X(load, LOAD)         \
 	X(format, FORMAT) X(help, HELP) X(quit, QUIT) X(partial, PARTIAL)     \
 	X(drift, DRIFT) X(diffusion, DIFFUSION) X(generator, GENERATOR)       \
-	X(qv, QV) X(pde, PDE) X(discount, DISCOUNT) X(in, IN) X(d, D)
+	X(qv, QV) X(pde, PDE) X(discount, DISCOUNT) X(in, IN)                 \
+	X(coefficients, COEFFICIENTS) X(forward, FORWARD) X(moments, MOMENTS) X(d, D)
 
 /* An open '(' or '[' that has not been closed yet. */
 struct itox_open_bracket {
@@ -123,6 +124,7 @@ static bool statement_fits(struct itox_parse_state *ps, const ast_node *stmt);
 %token COLON ":" LT "<" GT ">" LE "<=" GE ">="
 %token LPAREN "(" RPAREN ")" LBRACK "[" RBRACK "]"
 %token DOP "d("
+%token <node> QOP "query("
 %token BADCHAR "bad character" BADSTRING "unterminated string" DEEP "nesting limit"
 /* Keep the keywords together, "param" first and "d" last (see is_keyword). */
 %token PARAM "param" ASSUME "assume" NOISE "noise" CORR "corr" FUNC "func" LET "let"
@@ -130,7 +132,8 @@ static bool statement_fits(struct itox_parse_state *ps, const ast_node *stmt);
 %token STATE "state" WHERE "where" CLAIM "claim" CHECK "check" AT "at" OVER "over"
 %token VERBOSE "verbose" SHOW "show" SAVE "save" LOAD "load" FORMAT "format"
 %token HELP "help" QUIT "quit" PARTIAL "partial" DRIFT "drift" DIFFUSION "diffusion"
-%token GENERATOR "generator" QV "qv" PDE "pde" DISCOUNT "discount" IN "in" D "d"
+%token GENERATOR "generator" QV "qv" PDE "pde" DISCOUNT "discount" IN "in"
+%token COEFFICIENTS "coefficients" FORWARD "forward" MOMENTS "moments" D "d"
 
 %type <node> stmt query dquery claim_lhs decl command expr primary args names
 %type <node> param_names conds cond interval assign assigns opt_rhs opt_over opt_discount
@@ -173,6 +176,12 @@ query:
 	| dquery
 	| "pde" NAME "(" names ")" opt_discount
 				{ $$ = ast_finish($4, AST_S_PDE, $2, $6, &@$); }
+	| "forward" NAME "(" names ")"
+				{ $$ = ast_finish($4, AST_S_FORWARD, $2, NULL, &@$); }
+	| "coefficients" expr "in" names
+				{ $$ = ast_finish($4, AST_S_COEFFICIENTS, NULL, $2, &@$); }
+	| "moments" NAME "," NUM
+				{ $$ = ast_named(L, AST_S_MOMENTS, $2, $4, NULL, &@$); }
 	| "sde" NAME		{ $$ = ast_named(L, AST_S_SDE_ITO, $2, NULL, NULL, &@$); }
 	| "sde" NAME "stratonovich"
 				{ $$ = ast_named(L, AST_S_SDE_STRAT, $2, NULL, NULL, &@$); }
@@ -322,6 +331,7 @@ primary:
 	| "partial" "(" expr "," names ")"
 				{ $$ = ast_finish($5, AST_PARTIAL, NULL, $3, &@$); }
 	| DOP "(" expr ")"	{ $$ = ast_unary(L, AST_DIFF, $3, &@$); }
+	| QOP "(" args ")"	{ $$ = ast_finish($3, AST_QUERY, $1, NULL, &@$); }
 	| "(" expr ")"		{ $$ = $2; }
 	;
 
@@ -431,6 +441,11 @@ static void describe_lookahead(struct msg *m, yysymbol_kind_t kind,
 	case YYSYMBOL_DOP:
 		msg_add(m, "'d('");
 		break;
+	case YYSYMBOL_QOP:
+		msg_add(m, "'");
+		msg_add(m, ps->last_text);
+		msg_add(m, "('");
+		break;
 	default:
 		msg_add_token(m, kind);
 		break;
@@ -441,7 +456,7 @@ static bool is_expression_start(yysymbol_kind_t kind)
 {
 	return kind == YYSYMBOL_NUM || kind == YYSYMBOL_NAME || kind == YYSYMBOL_LPAREN ||
 	       kind == YYSYMBOL_MINUS || kind == YYSYMBOL_PLUS || kind == YYSYMBOL_DOP ||
-	       kind == YYSYMBOL_PARTIAL;
+	       kind == YYSYMBOL_QOP || kind == YYSYMBOL_PARTIAL;
 }
 
 static bool is_operator(yysymbol_kind_t kind)
@@ -464,6 +479,7 @@ static bool is_statement_keyword(yysymbol_kind_t kind)
 	case YYSYMBOL_SHOW: case YYSYMBOL_SAVE: case YYSYMBOL_LOAD: case YYSYMBOL_FORMAT:
 	case YYSYMBOL_HELP: case YYSYMBOL_QUIT: case YYSYMBOL_DRIFT: case YYSYMBOL_DIFFUSION:
 	case YYSYMBOL_GENERATOR: case YYSYMBOL_QV: case YYSYMBOL_PDE: case YYSYMBOL_D:
+	case YYSYMBOL_COEFFICIENTS: case YYSYMBOL_FORWARD: case YYSYMBOL_MOMENTS:
 		return true;
 	default:
 		return false;
@@ -510,6 +526,8 @@ static void describe_expected(struct msg *m, const yypcontext_t *ctx)
 	}
 	if (statement)
 		groups[ngroups++] = "a statement";
+	else if (expression && !name)
+		groups[ngroups++] = "a number"; /* moments X, K */
 	else if (expression)
 		groups[ngroups++] = "an expression";
 	else if (name)

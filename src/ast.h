@@ -31,6 +31,7 @@ typedef struct ast_loc {
 	X(CALL)		  /* text: function name; items: arguments */                         \
 	X(PARTIAL)	  /* partial(a, items...): items are NAME nodes */                    \
 	X(DIFF)		  /* d(a): the operator form, d directly before '(' */                \
+	X(QUERY)	  /* text: drift, diffusion, generator or qv directly before '('; items */ \
 	/* pieces of statements */                                                             \
 	X(ASSIGN)	  /* text = a   (at/over lists, measure shifts) */                      \
 	X(INTERVAL)	  /* [a, b] */                                                         \
@@ -44,6 +45,9 @@ typedef struct ast_loc {
 	X(S_GENERATOR)	  /* generator a */                                                    \
 	X(S_QV)		  /* qv a [, b] (b NULL for one argument) */                          \
 	X(S_PDE)	  /* pde text(items) [discount a]: items NAME args, a may be NULL */  \
+	X(S_FORWARD)	  /* forward text(items): items NAME args */                           \
+	X(S_COEFFICIENTS) /* coefficients a in items: items NAME variables */                 \
+	X(S_MOMENTS)	  /* moments text, a: a the NUM order K */                             \
 	X(S_SDE_ITO)	  /* sde text */                                                       \
 	X(S_SDE_STRAT)	  /* sde text stratonovich */                                          \
 	X(S_PARAM)	  /* param: items are COND nodes (op REL_NONE when unconstrained) */ \

@@ -650,6 +650,9 @@ static bool check_sde_term(session *s, const ast_node *term)
 		case AST_DIFF:
 			bad = true, why = "d(...) cannot appear in an SDE; use dt and the noises";
 			break;
+		case AST_QUERY:
+			bad = true, why = "a query cannot appear in an SDE; name its value with let first";
+			break;
 		default:
 			break;
 		}

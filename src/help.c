@@ -31,15 +31,45 @@
 	       "  The Ito differential: d(EXPR) = (drift)*dt + (b1)*dW + ...\n"                       \
 	       "  d(EXPR) before a parenthesis is the operator, so d(S)*d(S) is a product.\n"         \
 	       "  example:  d log(S)\n")                                                              \
-	X("drift", "drift EXPR\n  The dt part of d EXPR.  example:  drift log(S)\n")                  \
-	X("diffusion", "diffusion EXPR\n  The noise parts of d EXPR.  example:  diffusion log(S)\n")  \
-	X("generator", "generator EXPR\n  The generator applied to EXPR.  example:  generator S^2\n") \
-	X("qv", "qv EXPR  |  qv EXPR, EXPR\n"                                                         \
-		"  Quadratic variation rate d<X>/dt, or covariation rate d<X,Y>/dt.\n"                \
-		"  example:  qv log(S)\n")                                                            \
+	X("drift", "drift EXPR  |  drift(EXPR)\n"                                                  \
+		   "  The dt part of d EXPR.  Written with '(' directly after the word it is a\n"    \
+		   "  function usable in any expression (drift(S)/S, let D = drift(S)); with a\n"    \
+		   "  space or no parenthesis it takes the rest of the statement, so drift (S)/S\n"  \
+		   "  is the drift of S/S.  example:  drift(S^2)/S^2\n")                            \
+	X("diffusion", "diffusion EXPR  |  diffusion(EXPR)  |  diffusion(EXPR, NOISE)\n"            \
+		       "  The noise parts of d EXPR; diffusion(EXPR, W) is the coefficient of dW,\n" \
+		       "  usable in expressions (see help drift for the parenthesis rule).\n"       \
+		       "  example:  diffusion(log(S), W)/sigma\n")                                 \
+	X("generator", "generator EXPR  |  generator(EXPR)\n"                                        \
+		       "  The generator applied to EXPR; generator(EXPR) is a function usable in\n"  \
+		       "  expressions (claim generator(V) - r*V = 0; see help drift).\n"           \
+		       "  example:  generator(S^2) - 2*mu*S^2\n")                                  \
+	X("qv", "qv EXPR  |  qv EXPR, EXPR  |  qv(EXPR)  |  qv(EXPR, EXPR)\n"                        \
+		"  Quadratic variation rate d<X>/dt, or covariation rate d<X,Y>/dt; qv(...)\n"      \
+		"  is a function usable in expressions (see help drift).\n"                        \
+		"  example:  qv(log(S))/sigma^2\n")                                                 \
 	X("pde", "pde V(t, S) [discount EXPR]\n"                                                      \
 		 "  The backward equation V_t + L V - r V = 0 that makes the discounted V\n"          \
-		 "  a martingale.  example:  pde V(t, S) discount r\n")                               \
+		 "  a martingale.  The arguments must include every state that enters the SDE\n"    \
+		 "  of a listed state or the discount (else an error names the missing one).\n"    \
+		 "  example:  pde V(t, S) discount r\n")                                              \
+	X("coefficients", "coefficients EXPR in x [, y ...]\n"                                      \
+			  "  EXPR, after the rational normal form, as a polynomial in x, y: one line per\n" \
+			  "  monomial (1: ..., x: ..., x^2: ...), or an error naming a term that is not\n" \
+			  "  polynomial in them.  With an exponential-affine guess P = A(t)*exp(-B(t)*r),\n" \
+			  "  coefficients (drift(P) - r*P)/P in r gives the ODEs for A and B.\n"          \
+			  "  example:  coefficients (S + 1)^2*mu in S\n")                                 \
+	X("forward", "forward p(t, X, ...)\n"                                                        \
+		     "  The forward (Fokker-Planck) equation of the transition density in the\n"     \
+		     "  listed states: p_t = -sum_i d_i(mu_i p) + 1/2 sum_ij d_i d_j(C_ij p),\n"       \
+		     "  expanded; under a measure too.  The arguments must include every state\n"    \
+		     "  that enters a listed state's SDE.  example:  forward p(t, S)\n")             \
+	X("moments", "moments X, K\n"                                                                \
+		     "  For a state with drift of degree <= 1 and squared diffusion of degree <= 2\n" \
+		     "  in X: the linear ODEs of m_k(t) = E[X_t^k | X_0 = X], k = 1..K (m1' = ...),\n" \
+		     "  and, when the coefficients do not depend on t, their solution in X and t\n"  \
+		     "  (m1 = ...).  Any other state is an error saying why the system does not\n"  \
+		     "  close.  example:  moments S, 2\n")                                            \
 	X("sde", "sde X  |  sde X stratonovich\n"                                                   \
 		 "  The SDE of the state X in Ito form, or in Stratonovich form.\n"                  \
 		 "  example:  sde X stratonovich\n")                                                 \
@@ -97,7 +127,10 @@ static const char overview[] =
 	"itox: symbolic Ito calculus.  Statements (help TOPIC for each):\n"
 	"  declarations  param (in) assume noise corr func sde let measure state (where)\n"
 	"  queries       EXPR partial d drift diffusion generator qv pde (discount)\n"
+	"                drift(EXPR), diffusion(EXPR, NOISE), generator(EXPR), qv(A, B)\n"
+	"                are functions inside expressions: drift(S)/S\n"
 	"                sde, any query followed by: under MEASURE\n"
+	"  algebra       coefficients (in) forward moments\n"
 	"  verification  claim check (at, over, verbose)\n"
 	"  session       show save load format help quit\n"
 	"Example:\n"

@@ -394,3 +394,52 @@ const expr *ito_pde(model *m, const model_measure *q, const expr *V, const expr 
 	ito_diff_free(&d);
 	return result;
 }
+
+/* A process in e (a state or a noise) that is not among args; NULL if none. */
+static const expr *outside(model *m, const expr *e, size_t nargs, const expr *const *args)
+{
+	if (!e)
+		return NULL;
+	expr_vec names = {0};
+	expr_free_symbols(m->ctx, e, &names);
+	const expr *found = NULL;
+	for (size_t i = 0; i < names.n && !found; i++) {
+		const expr *x = names.items[i];
+		if (!model_sde_of(m, x) && model_noise_index(m, x) < 0)
+			continue;
+		bool listed = false;
+		for (size_t j = 0; j < nargs && !listed; j++)
+			listed = args[j] == x;
+		if (!listed)
+			found = x;
+	}
+	expr_vec_free(&names);
+	return found;
+}
+
+/* An equation for u(t, x_1..x_n) closes when the dynamics of every listed
+ * state depend on the listed states only: the generator (and its adjoint)
+ * then map functions of (t, x) to functions of (t, x).  Otherwise the
+ * missing state's partials belong in the equation (Karatzas and Shreve,
+ * 5.7, from memory: the Kolmogorov equations are in all the states of a
+ * Markov process). */
+const expr *ito_unclosed(model *m, const model_measure *q, size_t nargs, const expr *const *args,
+                         const expr *discount, const expr **driven)
+{
+	for (size_t i = 0; i < nargs; i++) {
+		if (!model_sde_of(m, args[i]))
+			continue;
+		ito_diff d;
+		ito_dynamics(m, q, args[i], &d);
+		const expr *missing = outside(m, d.dt, nargs, args);
+		for (size_t k = 0; k < d.n && !missing; k++)
+			missing = outside(m, d.dw[k], nargs, args);
+		ito_diff_free(&d);
+		if (missing) {
+			*driven = args[i];
+			return missing;
+		}
+	}
+	*driven = NULL;
+	return outside(m, discount, nargs, args);
+}

@@ -43,4 +43,11 @@ const expr *ito_state_stratonovich_drift(model *m, const model_sde *sde);
  * generic function application V (discount may be NULL). */
 const expr *ito_pde(model *m, const model_measure *q, const expr *V, const expr *discount);
 
+/* Does an equation in the variables args (t, states) close?  The first
+ * process (a state or a noise) that is not among args but appears in the
+ * SDE of a listed state under q (*driven: that state) or in the discount
+ * (*driven: NULL); NULL when the equation closes. */
+const expr *ito_unclosed(model *m, const model_measure *q, size_t nargs, const expr *const *args,
+                         const expr *discount, const expr **driven);
+
 #endif

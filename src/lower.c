@@ -501,6 +501,85 @@ static bool eval_product_chain(session *s, const ast_node *n, value *out)
 	return ok;
 }
 
+/* The noise named NOISE in diffusion(EXPR, NOISE): its index among the
+ * noises of the current measure; -1 after a message. */
+static long query_noise(session *s, const ast_node *n)
+{
+	const expr *const *names = s->measure ? s->measure->names : s->model.noises;
+	if (n->kind == AST_NAME)
+		for (size_t k = 0; k < s->model.nnoises; k++)
+			if (strcmp(expr_sym_name(names[k]), n->text) == 0)
+				return (long)k;
+	if (n->kind == AST_NAME && s->measure) {
+		model_entry *entry = model_lookup(&s->model, n->text);
+		if (entry && entry->kind == MODEL_NOISE) {
+			long k = model_noise_index(&s->model, entry->sym);
+			report(s, SESSION_INPUT, &n->loc, "under %s the noise %s is replaced by %s; write %s here",
+			       s->measure->name, n->text, expr_sym_name(names[k]), expr_sym_name(names[k]));
+			return -1;
+		}
+	}
+	if (n->kind == AST_NAME && strcmp(n->text, "t") != 0 && !model_lookup(&s->model, n->text) &&
+	    !s->measure) {
+		unknown_name(s, &n->loc, n->text);
+		return -1;
+	}
+	report(s, SESSION_INPUT, &n->loc, "the second argument of diffusion(...) is a noise name");
+	return -1;
+}
+
+/* drift(E), generator(E), diffusion(E), diffusion(E, NOISE), qv(A), qv(A, B):
+ * the query's value under the current measure, as a value inside an
+ * expression (the statement forms print the same values). */
+static bool eval_query(session *s, const ast_node *n, value *out)
+{
+	const char *what = n->text;
+	bool is_qv = strcmp(what, "qv") == 0, is_diffusion = strcmp(what, "diffusion") == 0;
+	size_t most = is_qv || is_diffusion ? 2 : 1;
+	if (n->nitems > most) {
+		report(s, SESSION_INPUT, &n->loc, "%s(...) takes %s, not %zu", what,
+		       is_qv ? "one or two expressions"
+		             : is_diffusion ? "an expression and optionally a noise" : "one expression",
+		       n->nitems);
+		return false;
+	}
+	const expr *e;
+	if (!eval_scalar(s, n->items[0], &e))
+		return false;
+	long noise = -1;
+	if (is_diffusion && n->nitems == 2 && (noise = query_noise(s, n->items[1])) < 0)
+		return false;
+	const expr *other = NULL;
+	if (is_qv && n->nitems == 2 && !eval_scalar(s, n->items[1], &other))
+		return false;
+	ito_diff d;
+	ito_d(&s->model, s->measure, e, &d);
+	if (differential_failed(s, &d, &n->items[0]->loc))
+		return false;
+	if (is_diffusion && noise < 0) {
+		d.dt = expr_int(s->ctx, 0);
+		return make_diff(s, n, &d, out);
+	}
+	const expr *result = d.dt;
+	if (is_diffusion) {
+		result = d.dw[noise];
+	} else if (is_qv) {
+		ito_diff db;
+		if (other) {
+			ito_d(&s->model, s->measure, other, &db);
+			if (differential_failed(s, &db, &n->items[1]->loc)) {
+				ito_diff_free(&d);
+				return false;
+			}
+		}
+		result = ito_covariation(&s->model, &d, other ? &db : &d);
+		if (other)
+			ito_diff_free(&db);
+	}
+	ito_diff_free(&d);
+	return make_scalar(s, n, result, out);
+}
+
 bool eval_node(session *s, const ast_node *n, value *out)
 {
 	expr_ctx *ctx = s->ctx;
@@ -564,6 +643,8 @@ bool eval_node(session *s, const ast_node *n, value *out)
 		ito_d(&s->model, s->measure, e, &d);
 		return make_diff(s, n, &d, out);
 	}
+	case AST_QUERY:
+		return eval_query(s, n, out);
 	default:
 		report(s, SESSION_INPUT, &n->loc, "not an expression");
 		return false;

@@ -265,52 +265,82 @@ bool run_qv(session *s, const ast_node *st)
 	return output_scalar(s, st, RESULT_QV, a, b, rate);
 }
 
-bool run_pde(session *s, const ast_node *st)
+/* Its arguments are t and declared names, and the equation must close in
+ * them (ito_unclosed). */
+const expr *equation_unknown(session *s, const ast_node *st, const char *what, const expr *discount)
 {
 	model *m = &s->model;
 	model_entry *entry = model_lookup(m, st->text);
 	if (entry && entry->kind != MODEL_FUNC) {
-		report(s, SESSION_INPUT, &st->loc, "'%s' is a %s; pde needs an unknown function", st->text,
-		       model_kind_name(entry->kind));
-		return false;
+		report(s, SESSION_INPUT, &st->loc, "'%s' is a %s; %s needs an unknown function", st->text,
+		       model_kind_name(entry->kind), what);
+		return NULL;
 	}
+	const expr *args[EXPR_MAX_FUNC_ARGS];
 	for (size_t i = 0; i < st->nitems; i++) {
 		const ast_node *arg = st->items[i];
 		if (arg->kind != AST_NAME) {
-			report(s, SESSION_INPUT, &arg->loc, "the arguments of pde are names (t and states)");
-			return false;
+			report(s, SESSION_INPUT, &arg->loc, "the arguments of %s are names (t and states)", what);
+			return NULL;
 		}
-		if (strcmp(arg->text, "t") == 0)
-			continue;
-		model_entry *a = model_lookup(m, arg->text);
-		if (!a) {
+		if (strcmp(arg->text, "t") != 0 && !model_lookup(m, arg->text)) {
 			unknown_name(s, &arg->loc, arg->text);
-			return false;
+			return NULL;
 		}
+		if (i >= EXPR_MAX_FUNC_ARGS) {
+			report(s, SESSION_INPUT, &arg->loc, "a function takes at most %d arguments",
+			       EXPR_MAX_FUNC_ARGS);
+			return NULL;
+		}
+		value v;
+		if (!eval_node(s, arg, &v))
+			return NULL;
+		if (v.is_diff) {
+			value_free(&v);
+			report(s, SESSION_INPUT, &arg->loc, "the arguments of %s are names (t and states)", what);
+			return NULL;
+		}
+		args[i] = v.e;
+	}
+	const expr *driven;
+	const expr *missing = ito_unclosed(m, s->measure, st->nitems, args, discount, &driven);
+	if (missing) {
+		const char *kind = model_sde_of(m, missing) ? "state" : "noise";
+		xbuf call = {0};
+		for (size_t i = 0; i < st->nitems; i++)
+			xbuf_printf(&call, "%s%s", i ? ", " : "", st->items[i]->text);
+		char *because = driven ? xasprintf("the SDE of %s", expr_sym_name(driven))
+		                       : xstrdup("the discount");
+		report(s, SESSION_INPUT, &st->loc,
+		       "%s %s(%s) does not close: %s depends on the %s %s, which is not an argument of "
+		       "%s; write %s(%s, %s)",
+		       what, st->text, call.data, because, kind, expr_sym_name(missing), st->text, st->text,
+		       call.data, expr_sym_name(missing));
+		free(because);
+		xbuf_free(&call);
+		return NULL;
 	}
 	if (!entry) {
 		if (!declare_function(s, &st->loc, st->text, st->nitems, st->items))
-			return false;
+			return NULL;
 		entry = model_lookup(m, st->text);
 	} else if (expr_func_arity(entry->sym) != st->nitems) {
 		report(s, SESSION_INPUT, &st->loc, "%s was declared with %zu arguments", st->text,
 		       expr_func_arity(entry->sym));
-		return false;
+		return NULL;
 	}
-	const expr *args[EXPR_MAX_FUNC_ARGS];
-	for (size_t i = 0; i < st->nitems; i++) {
-		value v;
-		if (!eval_node(s, st->items[i], &v) || v.is_diff) {
-			value_free(&v);
-			return false;
-		}
-		args[i] = v.e;
-	}
-	const expr *V = expr_fapp(s->ctx, entry->sym, NULL, args);
+	return expr_fapp(s->ctx, entry->sym, NULL, args);
+}
+
+bool run_pde(session *s, const ast_node *st)
+{
 	const expr *discount = NULL;
 	if (st->a && !eval_scalar(s, st->a, &discount))
 		return false;
-	const expr *lhs = ito_pde(m, s->measure, V, discount);
+	const expr *V = equation_unknown(s, st, "pde", discount);
+	if (!V)
+		return false;
+	const expr *lhs = ito_pde(&s->model, s->measure, V, discount);
 	if (!lhs || engine_failed(s, &st->loc))
 		return false;
 	pending p;

@@ -25,6 +25,10 @@ typedef enum result_kind {
 	RESULT_DIFFUSION,    /* diffusion EXPR: of, diff (its dt part is zero) */
 	RESULT_QV,           /* qv A [, B]: of, of2 (NULL for qv A), value */
 	RESULT_PDE,          /* pde V(...): name, value (the left side of = 0) */
+	RESULT_FORWARD,      /* forward p(...): name, of (p_t), value (the right side of p_t = ...) */
+	RESULT_COEFFICIENTS, /* coefficients E in x, y: vars, rows (labels: monomials, values) */
+	RESULT_MOMENTS,      /* moments X, K: name, vars (m1..mK), rows (values: m_k', solutions
+	                      * or NULL with no_solution: t or an expression not known nonzero) */
 	RESULT_SDE,          /* sde X [stratonovich]: name, diff (stratonovich set) */
 	RESULT_MODEL,        /* show: script (the declarations), sdes (one per state) */
 	RESULT_CLAIM,        /* claim: claim, lhs_diff / value and of for the sides */
@@ -46,6 +50,13 @@ struct stmt_result {
 	const prn_abbrev *abbrev; /* let names that may stand for subexpressions, or NULL */
 	const verify_result *claim;
 	const check_result *check;
+	const expr *const *vars;      /* RESULT_COEFFICIENTS, RESULT_MOMENTS: see the kinds */
+	size_t nvars;
+	const expr *const *labels;    /* RESULT_COEFFICIENTS: the monomials */
+	const expr *const *values;    /* one per row */
+	const expr *const *solutions; /* RESULT_MOMENTS: m_k(t), or NULL */
+	const expr *no_solution;
+	size_t nrows;
 	const char *script;      /* RESULT_MODEL: the declarations, one per line */
 	const stmt_result *sdes; /* RESULT_MODEL: the state SDEs */
 	size_t nsdes;

@@ -167,6 +167,13 @@ bool run_part(session *s, const ast_node *st);
 bool run_qv(session *s, const ast_node *st);
 /* pde V(t, X...) [discount r] */
 bool run_pde(session *s, const ast_node *st);
+/* The unknown function of pde and forward (st->text(st->items)), declared
+ * when new, after checking that the equation closes; NULL after a message. */
+const expr *equation_unknown(session *s, const ast_node *st, const char *what, const expr *discount);
+/* forward p(t, X...), coefficients E in x [, y...], moments X, K (query-algebra.c) */
+bool run_forward(session *s, const ast_node *st);
+bool run_coefficients(session *s, const ast_node *st);
+bool run_moments(session *s, const ast_node *st);
 /* sde X [stratonovich] */
 bool run_sde_display(session *s, const ast_node *st);
 /* claim A = B */

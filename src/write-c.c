@@ -354,6 +354,27 @@ static bool is_differential(const stmt_result *r)
 	return r->kind == RESULT_DIFFERENTIAL || r->kind == RESULT_DIFFUSION || r->kind == RESULT_SDE;
 }
 
+static bool has_rows(const stmt_result *r)
+{
+	return r->kind == RESULT_COEFFICIENTS || r->kind == RESULT_MOMENTS;
+}
+
+/* " (out[0]: 1, out[1]: r)" (coefficients) or " (out[0]: m1', ...)" (moments) */
+static char *row_names(writer *w, const stmt_result *r)
+{
+	xbuf buf = {0};
+	xbuf_put(&buf, " (");
+	for (size_t i = 0; i < r->nrows; i++) {
+		char *label = r->kind == RESULT_COEFFICIENTS ? prn_expr(w->ctx, r->labels[i], PRN_TEXT)
+		              : r->nvars ? xasprintf("%s'", expr_sym_name(r->vars[i]))
+		                         : xasprintf("E[%s_t^%zu | %s_0 = %s]", r->name, i + 1, r->name, r->name);
+		xbuf_printf(&buf, "%sout[%zu]: %s", i ? ", " : "", i, label);
+		free(label);
+	}
+	xbuf_put(&buf, ")");
+	return xbuf_take(&buf);
+}
+
 static void function(writer *w, const stmt_result *r, xbuf *out)
 {
 	c_body b = {0};
@@ -374,6 +395,12 @@ static void function(writer *w, const stmt_result *r, xbuf *out)
 			            text);
 			free(text);
 		}
+	} else if (has_rows(r)) {
+		for (size_t i = 0; i < r->nrows; i++) {
+			char *text = c_expr(w, &b, r->values[i]);
+			xbuf_printf(&b.code, "\tout[%zu] = %s;\n", i, text);
+			free(text);
+		}
 	} else {
 		char *text = c_expr(w, &b, r->value);
 		xbuf_printf(&b.code, "\treturn %s;\n", text);
@@ -383,14 +410,23 @@ static void function(writer *w, const stmt_result *r, xbuf *out)
 	let_locals(w, &b, &locals);
 	declare_calls(w, &b.calls, out);
 	char *place = result_place(r);
-	char *title = xasprintf("%s: %s%s%s%s", place, r->statement ? r->statement : "",
-	                        r->kind == RESULT_PDE ? " (left side of = 0)" : "",
-	                        r->measure ? " under " : "", r->measure ? r->measure : "");
+	char *rows = has_rows(r) ? row_names(w, r) : xstrdup("");
+	char *title = xasprintf("%s: %s%s%s%s%s", place, r->statement ? r->statement : "",
+	                        r->kind == RESULT_PDE ? " (left side of = 0)"
+	                        : r->kind == RESULT_FORWARD ? " (right side of the time derivative)"
+	                                                     : "",
+	                        r->measure ? " under " : "", r->measure ? r->measure : "", rows);
 	comment(out, title);
 	free(title);
+	free(rows);
 	free(place);
-	xbuf_printf(out, "%s %s(", is_differential(r) ? "void" : "double", name);
+	xbuf_printf(out, "%s %s(", is_differential(r) || has_rows(r) ? "void" : "double", name);
 	arguments(w, out);
+	if (r->kind == RESULT_MOMENTS)
+		for (size_t k = 0; k < r->nvars; k++)
+			xbuf_printf(out, ", double %s", expr_sym_name(r->vars[k]));
+	if (has_rows(r))
+		xbuf_put(out, ", double *out");
 	if (is_differential(r)) {
 		xbuf_put(out, ", double *drift");
 		for (size_t k = 0; k < r->diff.n; k++)
@@ -445,6 +481,24 @@ static bool c_write(writer *w, const stmt_result *r, char **error)
 		free(text);
 		break;
 	}
+	case RESULT_MOMENTS:
+		function(w, r, &buf);
+		if (r->solutions) {
+			/* the solution: a second function without the unknowns m_k */
+			stmt_result solution = *r;
+			char *statement = xasprintf("%s solution", r->statement ? r->statement : "moments");
+			solution.statement = statement;
+			solution.values = r->solutions;
+			solution.nvars = 0;
+			xbuf_putc(&buf, '\n');
+			function(w, &solution, &buf);
+			free(statement);
+		} else {
+			char *why = writer_no_solution(r, w->ctx);
+			comment(&buf, why);
+			free(why);
+		}
+		break;
 	default:
 		function(w, r, &buf);
 		break;

@@ -83,6 +83,12 @@ static const char *kind_name(const stmt_result *r)
 		return "qv";
 	case RESULT_PDE:
 		return "pde";
+	case RESULT_FORWARD:
+		return "forward";
+	case RESULT_COEFFICIENTS:
+		return "coefficients";
+	case RESULT_MOMENTS:
+		return "moments";
 	case RESULT_SDE:
 		return "sde";
 	case RESULT_MODEL:
@@ -233,6 +239,62 @@ static void claim_fields(xbuf *buf, const stmt_result *r, expr_ctx *ctx)
 		field(buf, "reason", c->reason);
 }
 
+/* ,"in":["r"],"coefficients":{"1":"...","r":"..."} */
+static void coefficients_fields(xbuf *buf, const stmt_result *r, expr_ctx *ctx)
+{
+	xbuf_put(buf, ",\"in\":[");
+	for (size_t v = 0; v < r->nvars; v++) {
+		if (v)
+			xbuf_putc(buf, ',');
+		prn_json_string(buf, expr_sym_name(r->vars[v]));
+	}
+	xbuf_put(buf, "]");
+	if (r->measure)
+		field(buf, "measure", r->measure);
+	xbuf_put(buf, ",\"coefficients\":{");
+	char **labels, **values;
+	size_t n = writer_rows(r, ctx, PRN_TEXT, &labels, &values);
+	for (size_t i = 0; i < n; i++) {
+		if (i)
+			xbuf_putc(buf, ',');
+		prn_json_string(buf, labels[i]);
+		xbuf_putc(buf, ':');
+		prn_json_string(buf, values[i]);
+	}
+	writer_rows_free(n, labels, values);
+	xbuf_put(buf, "}");
+}
+
+/* ,"key":{"1":"...","2":"..."}, one per order k */
+static void orders_field(xbuf *buf, const stmt_result *r, expr_ctx *ctx, const char *key,
+                         const expr *const *items)
+{
+	xbuf_printf(buf, ",\"%s\":{", key);
+	for (size_t k = 0; k < r->nrows; k++) {
+		char *text = writer_expr(r, ctx, items[k], PRN_TEXT);
+		xbuf_printf(buf, "%s\"%zu\":", k ? "," : "", k + 1);
+		prn_json_string(buf, text);
+		free(text);
+	}
+	xbuf_put(buf, "}");
+}
+
+/* ,"state":"X","equations":{...},"solution":{...} or null with "no_solution" */
+static void moments_fields(xbuf *buf, const stmt_result *r, expr_ctx *ctx)
+{
+	field(buf, "state", r->name);
+	field(buf, "measure", r->measure ? r->measure : "P");
+	orders_field(buf, r, ctx, "equations", r->values);
+	if (r->solutions) {
+		orders_field(buf, r, ctx, "solution", r->solutions);
+		return;
+	}
+	xbuf_put(buf, ",\"solution\":null");
+	char *why = writer_no_solution(r, ctx);
+	field(buf, "no_solution", why);
+	free(why);
+}
+
 static void place_fields(xbuf *buf, const stmt_result *r)
 {
 	xbuf_printf(buf, ",\"line\":%d", r->line);
@@ -277,6 +339,21 @@ static void object(writer *w, const stmt_result *r, xbuf *buf)
 		field(buf, "function", r->name);
 		field(buf, "measure", r->measure ? r->measure : "P");
 		expr_field(buf, r, ctx, "equation", r->value);
+		break;
+	case RESULT_FORWARD: {
+		field(buf, "function", r->name);
+		field(buf, "measure", r->measure ? r->measure : "P");
+		char *equation = writer_forward_equation(r, ctx);
+		field(buf, "equation", equation);
+		free(equation);
+		expr_field(buf, r, ctx, "rhs", r->value);
+		break;
+	}
+	case RESULT_COEFFICIENTS:
+		coefficients_fields(buf, r, ctx);
+		break;
+	case RESULT_MOMENTS:
+		moments_fields(buf, r, ctx);
 		break;
 	case RESULT_CLAIM:
 		claim_fields(buf, r, ctx);

@@ -57,6 +57,33 @@ static void sde_line(writer *w, const stmt_result *r, xbuf *buf)
 	free(body);
 }
 
+/* Aligned rows: "[r^{2}] &= COEFFICIENT" (the coefficient of r^2) or
+ * "m_{1}' &= ..." and "m_{1}(t) &= ..."; inside aligned unless the
+ * standalone document's align* holds them. */
+static void rows(writer *w, const stmt_result *r, xbuf *buf)
+{
+	char **labels, **values;
+	size_t n = writer_rows(r, w->ctx, PRN_LATEX_PLAIN, &labels, &values);
+	bool coefficients = r->kind == RESULT_COEFFICIENTS;
+	/* one line per result outside a document, as for every other result */
+	const char *between = w->standalone ? " \\\\\n" : " \\\\ ";
+	if (!w->standalone)
+		xbuf_put(buf, "\\begin{aligned} ");
+	for (size_t i = 0; i < n; i++)
+		xbuf_printf(buf, "%s%s%s%s &= %s", i ? between : "", coefficients ? "[" : "", labels[i],
+		            coefficients ? "]" : "", values[i]);
+	writer_rows_free(n, labels, values);
+	char *none = writer_no_solution(r, w->ctx);
+	if (none) {
+		xbuf_printf(buf, "%s&\\text{", between);
+		put_escaped(buf, none);
+		xbuf_put(buf, "}");
+	}
+	free(none);
+	if (!w->standalone)
+		xbuf_put(buf, " \\end{aligned}");
+}
+
 /* The display-math form of a result that has one; false for sentences. */
 static bool math(writer *w, const stmt_result *r, xbuf *buf)
 {
@@ -87,6 +114,18 @@ static bool math(writer *w, const stmt_result *r, xbuf *buf)
 		text = writer_expr(r, w->ctx, r->value, PRN_LATEX_PLAIN);
 		xbuf_printf(buf, "%s = 0", text);
 		free(text);
+		return true;
+	case RESULT_FORWARD:
+		text = writer_expr(r, w->ctx, r->of, PRN_LATEX_PLAIN);
+		xbuf_printf(buf, "%s = ", text);
+		free(text);
+		text = writer_expr(r, w->ctx, r->value, PRN_LATEX_PLAIN);
+		xbuf_put(buf, text);
+		free(text);
+		return true;
+	case RESULT_COEFFICIENTS:
+	case RESULT_MOMENTS:
+		rows(w, r, buf);
 		return true;
 	case RESULT_SDE:
 		sde_line(w, r, buf);

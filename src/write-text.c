@@ -36,6 +36,21 @@ static void check_lines(writer *w, const stmt_result *r, xbuf *buf)
 	free(place);
 }
 
+/* "r^2: COEFFICIENT" or "m1' = ...", "m1 = ..." lines */
+static void rows(writer *w, const stmt_result *r, xbuf *buf)
+{
+	char **labels, **values;
+	size_t n = writer_rows(r, w->ctx, PRN_TEXT, &labels, &values);
+	const char *between = r->kind == RESULT_COEFFICIENTS ? ":" : " =";
+	for (size_t i = 0; i < n; i++)
+		xbuf_printf(buf, "%s%s%s %s", i ? "\n" : "", labels[i], between, values[i]);
+	writer_rows_free(n, labels, values);
+	char *none = writer_no_solution(r, w->ctx);
+	if (none)
+		xbuf_printf(buf, "\n%s", none);
+	free(none);
+}
+
 static bool text_write(writer *w, const stmt_result *r, char **error)
 {
 	(void)error;
@@ -79,6 +94,18 @@ static bool text_write(writer *w, const stmt_result *r, char **error)
 		text = writer_expr(r, w->ctx, r->value, PRN_TEXT);
 		xbuf_printf(&buf, "%s = 0", text);
 		free(text);
+		break;
+	case RESULT_FORWARD: {
+		char *left = writer_expr(r, w->ctx, r->of, PRN_TEXT);
+		text = writer_expr(r, w->ctx, r->value, PRN_TEXT);
+		xbuf_printf(&buf, "%s = %s", left, text);
+		free(left);
+		free(text);
+		break;
+	}
+	case RESULT_COEFFICIENTS:
+	case RESULT_MOMENTS:
+		rows(w, r, &buf);
 		break;
 	case RESULT_SDE:
 		text = writer_diff(r, w->ctx, PRN_TEXT);

@@ -158,3 +158,61 @@ char *writer_diff_label(expr_ctx *ctx, const expr *of, prn_format format)
 	free(body);
 	return label;
 }
+
+size_t writer_rows(const stmt_result *r, expr_ctx *ctx, prn_format format, char ***labels, char ***values)
+{
+	bool moments = r->kind == RESULT_MOMENTS;
+	size_t n = r->nrows * (moments && r->solutions ? 2 : 1);
+	*labels = xcalloc(n + 1, sizeof **labels);
+	*values = xcalloc(n + 1, sizeof **values);
+	for (size_t i = 0; i < n; i++) {
+		size_t k = i % r->nrows;
+		bool solution = i >= r->nrows;
+		if (!moments) {
+			(*labels)[i] = writer_expr(r, ctx, r->labels[k], format);
+		} else {
+			char *name = writer_expr(r, ctx, r->vars[k], format);
+			bool latex = format != PRN_TEXT && format != PRN_C;
+			(*labels)[i] = xasprintf("%s%s", name, solution ? (latex ? "(t)" : "") : "'");
+			free(name);
+		}
+		(*values)[i] = writer_expr(r, ctx, solution ? r->solutions[k] : r->values[k], format);
+	}
+	return n;
+}
+
+void writer_rows_free(size_t n, char **labels, char **values)
+{
+	for (size_t i = 0; i < n; i++) {
+		free(labels[i]);
+		free(values[i]);
+	}
+	free(labels);
+	free(values);
+}
+
+char *writer_no_solution(const stmt_result *r, expr_ctx *ctx)
+{
+	if (r->kind != RESULT_MOMENTS || r->solutions)
+		return NULL;
+	if (!r->no_solution || expr_kind_of(r->no_solution) == EXPR_SYM)
+		return xstrdup("no closed form: the coefficients depend on t");
+	char *needed = prn_expr(ctx, r->no_solution, PRN_TEXT);
+	char *text = xasprintf("no closed form: it needs %s != 0, which the assumptions do not give", needed);
+	free(needed);
+	return text;
+}
+
+char *writer_forward_equation(const stmt_result *r, expr_ctx *ctx)
+{
+	/* p_t - rhs with p_t first: the terms of -rhs follow with their signs
+	 * (a leading '-' of the printed -rhs is the sign of its first term) */
+	char *left = writer_expr(r, ctx, r->of, PRN_TEXT);
+	if (expr_is_zero(r->value))
+		return left;
+	char *rest = writer_expr(r, ctx, expr_neg(ctx, r->value), PRN_TEXT);
+	char *text = rest[0] == '-' ? xasprintf("%s - %s", left, rest + 1) : xasprintf("%s + %s", left, rest);
+	free(left);
+	free(rest);
+	return text;
+}

@@ -59,6 +59,16 @@ char *writer_claim_part(const stmt_result *r);
 /* The claim's sentence after its verdict: " (exact)", ": the dt part differs by ..." */
 char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx);
 
+/* The rows of a coefficients result (monomial, coefficient) or of a moments
+ * result (m1', m_1'(t) ... then, with a solution, m1 or m_1(t) and m_k(t)):
+ * new strings; the count.  writer_rows_free releases them. */
+size_t writer_rows(const stmt_result *r, expr_ctx *ctx, prn_format format, char ***labels, char ***values);
+void writer_rows_free(size_t n, char **labels, char **values);
+/* Why a moments result has no solution ("no closed form: ..."); NULL when it has one. */
+char *writer_no_solution(const stmt_result *r, expr_ctx *ctx);
+/* A forward equation as the left side of = 0, p_t first: "p_t - mu*p_x - ...". */
+char *writer_forward_equation(const stmt_result *r, expr_ctx *ctx);
+
 /* The left side of a differential: "d(log(S))", "dS", "\\mathrm{d}\\log S_{t}". */
 char *writer_diff_label(expr_ctx *ctx, const expr *of, prn_format format);
 

@@ -262,6 +262,24 @@ START_TEST(test_queries)
 	       "(S_PDE V (NAME t) (NAME S) (NAME v) (discount (ADD (NAME r0) (NAME x))))");
 	PARSES("sde X", "(S_SDE_ITO X)");
 	PARSES("sde X stratonovich", "(S_SDE_STRAT X)");
+	/* a query word directly before '(' is a function inside an expression */
+	PARSES("drift(P)/P", "(S_EXPR (DIV (QUERY drift (NAME P)) (NAME P)))");
+	PARSES("drift (P)/P", "(S_DRIFT (DIV (NAME P) (NAME P)))");
+	PARSES("let D = drift(P)", "(S_LET D (QUERY drift (NAME P)))");
+	PARSES("diffusion(P, W)*2", "(S_EXPR (MUL (QUERY diffusion (NAME P) (NAME W)) (NUM 2)))");
+	PARSES("qv(S, v) - qv(S)", "(S_EXPR (SUB (QUERY qv (NAME S) (NAME v)) (QUERY qv (NAME S))))");
+	PARSES("claim generator(C) - r*C = 0",
+	       "(S_CLAIM (SUB (QUERY generator (NAME C)) (MUL (NAME r) (NAME C))) (NUM 0))");
+	PARSES("claim generator C - r*C = 0",
+	       "(S_CLAIM (S_GENERATOR (SUB (NAME C) (MUL (NAME r) (NAME C)))) (NUM 0))");
+	PARSES("drift(S)/S under Q", "(S_UNDER Q (S_EXPR (DIV (QUERY drift (NAME S)) (NAME S))))");
+	PARSES("drifty(S)", "(S_EXPR (CALL drifty (NAME S)))");
+	PARSES("forward p(t, x, y)", "(S_FORWARD p (NAME t) (NAME x) (NAME y))");
+	PARSES("coefficients (drift(P) - r*P)/P in r, y",
+	       "(S_COEFFICIENTS (DIV (SUB (QUERY drift (NAME P)) (MUL (NAME r) (NAME P))) (NAME P)) "
+	       "(NAME r) (NAME y))");
+	PARSES("moments v, 3", "(S_MOMENTS v (NUM 3))");
+	PARSES("moments v, 2 under Q", "(S_UNDER Q (S_MOMENTS v (NUM 2)))");
 }
 END_TEST
 
@@ -441,7 +459,7 @@ START_TEST(test_keywords)
 		free(got);
 		count++;
 	}
-	ck_assert_uint_eq(count, 32);
+	ck_assert_uint_eq(count, 35); /* with coefficients, forward, moments */
 	ck_assert_str_eq(ast_keywords[0], "param");
 	ck_assert_str_eq(ast_keywords[count - 1], "d");
 	ck_assert_str_eq(ast_kind_name(AST_NUM), "NUM");

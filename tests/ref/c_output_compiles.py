@@ -41,10 +41,11 @@ QUERIES = [
     "d log(S)", "d sqrt(v)", "d S1/S2", "d S^(3/2)*exp(-r*t)", "drift Phi(log(S/K)/sqrt(v))",
     "generator S^2*v", "qv log(S), v", "d(S)*d(v)", "diffusion log(S1*S2)",
     "d log(S + K)*abs(K - 1)", "d erf(v) + tanh(S)", "d v^(-1/3)", "partial(phi(log(S))/v, S, v)",
+    "coefficients kappa*(v + S)^2 + S*v^3/theta in v", "moments v, 2",
 ]
 POINT = {"mu": 0.07, "kappa": 1.3, "theta": 0.04, "xi": 0.5, "r": 0.02, "K": 95.0,
          "sigma1": 0.25, "sigma2": 0.15, "rho": -0.6, "S": 101.5, "v": 0.035,
-         "S1": 12.0, "S2": 7.5, "t": 0.25, "W": 0.3, "B": -0.2}
+         "S1": 12.0, "S2": 7.5, "t": 0.25, "W": 0.3, "B": -0.2, "m1": 0.03, "m2": 0.002}
 
 
 def run(fmt):
@@ -66,10 +67,23 @@ def sympy_value(text):
     return float(e.subs({names[k]: v for k, v in POINT.items()}).evalf(30))
 
 
+def parts(obj):
+    """The C functions of one JSON result: rows results fill out[] (moments: the
+    equations, then the solution); every other one is one function."""
+    if obj["kind"] == "coefficients":
+        return [dict(obj, rows=list(obj["coefficients"].values()))]
+    if obj["kind"] == "moments":
+        return [dict(obj, rows=[obj["equations"][k] for k in sorted(obj["equations"], key=int)]),
+                dict(obj, rows=[obj["solution"][k] for k in sorted(obj["solution"], key=int)])]
+    return [obj]
+
+
 def main():
     c_text = run("c")
     blocks = re.split(r"^/\*.*\*/$", c_text, flags=re.M)[1:]
     json_lines = [json.loads(l) for l in run("json").splitlines() if l.strip()]
+    queries = [q for q, obj in zip(QUERIES, json_lines) for _ in parts(obj)]
+    json_lines = [part for obj in json_lines for part in parts(obj)]
     if len(blocks) != len(json_lines):
         print("block count differs:", len(blocks), len(json_lines))
         return 1
@@ -80,11 +94,14 @@ def main():
     expected, program = [], []
     for i, ((ret, fname, params), obj) in enumerate(zip(functions, json_lines)):
         args, outputs = [], []
+        rows = obj.get("rows")
         for param in params.split(", "):
             ctype, name = param.rsplit(" ", 1)
             if ctype == "double *":
                 ctype, name = "double *", name
-            if name.startswith("*"):
+            if name == "*out" and rows is not None:
+                args.append("out")
+            elif name.startswith("*"):
                 outputs.append(name[1:])
                 args.append("&" + name[1:])
             else:
@@ -95,16 +112,22 @@ def main():
         if "value" in obj:
             texts["value"] = obj["value"]
         program.append("  {")
-        if ret == "void":
+        if rows is not None:
+            program.append("    double out[%d];" % len(rows))
+            program.append(f"    {fname}({', '.join(args)});")
+            for k, text in enumerate(rows):
+                program.append(f'    printf("%.17g\\n", out[{k}]);')
+                expected.append((queries[i], "out[%d]" % k, sympy_value(text)))
+        elif ret == "void":
             program.append("    double " + ", ".join(outputs) + ";")
             program.append(f"    {fname}({', '.join(args)});")
             names = outputs
         else:
             program.append(f"    double value = {fname}({', '.join(args)});")
             names = ["value"]
-        for name in names:
+        for name in names if rows is None else []:
             program.append(f'    printf("%.17g\\n", {name});')
-            expected.append((QUERIES[i], name, sympy_value(texts[name])))
+            expected.append((queries[i], name, sympy_value(texts[name])))
         program.append("  }")
     source = ("#include <stdio.h>\n" + c_text + "\nint main(void)\n{\n" +
               "\n".join(program) + "\n  return 0;\n}\n")

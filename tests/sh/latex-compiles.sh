@@ -32,6 +32,13 @@ partial(Phi(log(S)/sqrt(v)), S)
 exp(-r*t)*abs(S - 1)
 measure Q: dW = dZ - (mu - r)/sqrt(v)*dt
 d S under Q
+forward p(t, S, v)
+coefficients (v + 1)^2*S + kappa in v
+moments v, 2
+moments v, 1 under Q
+func A(t)
+dx = (kappa + t*x)*dt + xi*dW
+moments x, 1
 MODEL
 if ! "$ITOX" --format=latex "$dir/model.itox" > "$dir/lines.txt"; then
 	echo "itox failed"; exit 1
