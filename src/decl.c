@@ -304,52 +304,6 @@ static bool relation_with_bound(session *s, const ast_node *written, const expr 
 
 /* ------------------------------------------------------------------ assume */
 
-/* What an assume statement may change, to undo it when a later item fails. */
-typedef struct assume_undo {
-	size_t nentries, nrelations;
-	model_entry *entries; /* copies of the first nentries (their ranges) */
-	int *signs;           /* their symbols' signs */
-} assume_undo;
-
-static void assume_undo_save(session *s, assume_undo *undo)
-{
-	model *m = &s->model;
-	undo->nentries = m->nentries;
-	undo->nrelations = m->nrelations;
-	undo->entries = xmalloc((m->nentries + 1) * sizeof *undo->entries);
-	undo->signs = xmalloc((m->nentries + 1) * sizeof *undo->signs);
-	for (size_t i = 0; i < m->nentries; i++) {
-		undo->entries[i] = m->entries[i];
-		undo->signs[i] = m->entries[i].sym ? expr_sym_sign(m->entries[i].sym) : EXPR_SIGN_UNKNOWN;
-	}
-}
-
-static void assume_undo_apply(session *s, const assume_undo *undo)
-{
-	model *m = &s->model;
-	while (m->nentries > undo->nentries) {
-		model_entry *added = &m->entries[m->nentries - 1];
-		expr_sym_set_sign(s->ctx, added->sym, EXPR_SIGN_UNKNOWN);
-		model_forget(m, added);
-	}
-	for (size_t i = 0; i < undo->nentries; i++) {
-		model_entry *e = &m->entries[i];
-		e->lo = undo->entries[i].lo;
-		e->hi = undo->entries[i].hi;
-		e->lo_strict = undo->entries[i].lo_strict;
-		e->hi_strict = undo->entries[i].hi_strict;
-		if (e->sym)
-			expr_sym_set_sign(s->ctx, e->sym, undo->signs[i]);
-	}
-	model_drop_relations(m, undo->nrelations);
-}
-
-static void assume_undo_free(assume_undo *undo)
-{
-	free(undo->entries);
-	free(undo->signs);
-}
-
 /* One item of assume: a range on a name (COND) or a relation. */
 static bool assume_one(session *s, const ast_node *cond)
 {
@@ -369,7 +323,15 @@ static bool assume_one(session *s, const ast_node *cond)
 		return false;
 	}
 	if (!entry) {
-		/* an assumption about a state declared later: keep it as an argument-like name */
+		/* an assumption about a state declared later in the same input:
+		 * keep it as an argument-like name until its SDE comes */
+		if (!declared_later(s, cond->text)) {
+			ast_loc name = cond->loc;
+			name.last_line = name.first_line;
+			name.last_column = name.first_column + (int)strlen(cond->text) - 1;
+			undeclared_name(s, &name, cond->text);
+			return false;
+		}
 		if (!check_new_name(s, &cond->loc, cond->text, false))
 			return false;
 		entry = model_add(&s->model, cond->text, MODEL_ARG, expr_sym(s->ctx, cond->text));
@@ -380,14 +342,9 @@ static bool assume_one(session *s, const ast_node *cond)
 
 bool run_assume(session *s, const ast_node *st)
 {
-	assume_undo undo;
-	assume_undo_save(s, &undo);
 	bool ok = true;
 	for (size_t i = 0; i < st->nitems && ok; i++)
 		ok = assume_one(s, st->items[i]);
-	if (!ok)
-		assume_undo_apply(s, &undo);
-	assume_undo_free(&undo);
 	return ok;
 }
 
@@ -725,10 +682,9 @@ bool run_sde(session *s, const ast_node *st)
 		return false;
 	if (!check_sde_terms(s, st->a))
 		return false;
-	/* declare the state first so its own SDE may use it */
+	/* declare the state first so its own SDE may use it (a failure puts
+	 * the model back as it was: run_whole) */
 	const expr *sym = expr_sym(s->ctx, name);
-	model_entry saved = entry ? *entry : (model_entry){0};
-	bool existed = entry != NULL;
 	entry = model_add(m, name, MODEL_STATE, sym);
 	entry->pending_state = false;
 	expr_sym_set_rank(s->ctx, sym, PRN_RANK_STATE);
@@ -739,19 +695,9 @@ bool run_sde(session *s, const ast_node *st)
 	bool evaluated = eval_node(s, st->a, &v);
 	s->in_sde = false;
 	if (!evaluated || !v.is_diff) {
-		if (!v.is_diff && v.e)
+		if (evaluated)
 			report(s, SESSION_INPUT, &st->a->loc,
 			       "the right side of an SDE must contain dt or a noise differential");
-		model_remove_sde(m, sym);
-		entry = model_lookup(m, name);
-		if (existed) {
-			entry->kind = saved.kind;
-		} else {
-			/* forget the name again */
-			entry->kind = MODEL_ARG;
-			model_forget(m, entry);
-		}
-		expr_sym_set_rank(s->ctx, sym, PRN_RANK_PARAM);
 		return false;
 	}
 	sde = model_sde_of(m, sym);

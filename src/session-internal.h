@@ -38,6 +38,9 @@ struct session {
 	size_t length;
 	const char *origin;
 	const model_measure *measure; /* the measure of the current query */
+	const ast_list *run_list;     /* the statements of the source being run */
+	size_t run_index;             /* the one running now */
+	bool interactive;             /* the REPL: a declaration made again replaces the old one */
 	int load_depth;
 	unsigned long claim_count;
 	int fixed_line;           /* for -e statements: messages say -e:N:COLUMN */
@@ -92,6 +95,8 @@ void source_line(const session *s, int line, const char **start, size_t *length)
 /* An error at loc (NULL: none): file:line:column, the line and a caret; raises the status. */
 void report(session *s, int status, const ast_loc *loc, const char *format, ...)
         __attribute__((format(printf, 4, 5)));
+/* A remark at loc (file:line:column: note: ...) that is not an error. */
+void note(session *s, const ast_loc *loc, const char *format, ...) __attribute__((format(printf, 3, 4)));
 /* Report the engine's error (limit, interrupt, division by zero) if one is set. */
 bool engine_failed(session *s, const ast_loc *loc);
 /* A differential that failed (a limit, an interrupt): reported, freed, true. */
@@ -100,6 +105,12 @@ bool differential_failed(session *s, ito_diff *d, const ast_loc *loc);
 const char *suggest(session *s, const char *name);
 /* Report an unknown name, with a suggestion when one is close. */
 void unknown_name(session *s, const ast_loc *loc, const char *name);
+/* Report a name that a declaration uses before it is declared: a
+ * suggestion when one is close, else how to declare it. */
+void undeclared_name(session *s, const ast_loc *loc, const char *name);
+/* Will a later statement of the source being run declare name as a state
+ * (dNAME = ..., state NAME = ...)?  assume and SDEs may name it early. */
+bool declared_later(const session *s, const char *name);
 /* The entry of a name that must be of one kind; NULL after a message. */
 model_entry *lookup_kind(session *s, const ast_loc *loc, const char *name, model_kind kind);
 

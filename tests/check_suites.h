@@ -13,5 +13,6 @@ Suite *props_suite(void);
 Suite *sim_suite(void);
 Suite *ball_suite(void);
 Suite *ratform_suite(void);
+Suite *session_suite(void);
 
 #endif
