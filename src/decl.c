@@ -139,19 +139,57 @@ static bool apply_condition(session *s, model_entry *entry, const ast_node *cond
 	return true;
 }
 
+static bool same_range(const model_entry *a, const model_entry *b)
+{
+	return a->lo == b->lo && a->hi == b->hi && (!a->lo || a->lo_strict == b->lo_strict) &&
+	       (!a->hi || a->hi_strict == b->hi_strict);
+}
+
+/* param NAME COND for a declared parameter.  A script may declare it again
+ * with the same domain (load after save), or give a domain to one that has
+ * none; the REPL replaces the domain.  (A failure is undone by run_whole.) */
+static bool param_again(session *s, model_entry *entry, const ast_node *cond)
+{
+	model_entry old = *entry;
+	bool had_range = old.lo || old.hi;
+	if (replaces(s)) {
+		entry->lo = entry->hi = NULL;
+		expr_sym_set_sign(s->ctx, entry->sym, EXPR_SIGN_UNKNOWN);
+	}
+	if (!apply_condition(s, entry, cond))
+		return false;
+	if (same_range(entry, &old) || !had_range)
+		return true;
+	if (replaces(s)) {
+		replaced(s, "replaced the domain of %s", entry->name);
+		return true;
+	}
+	report(s, SESSION_INPUT, &cond->loc,
+	       "the parameter '%s' already has a domain; a script cannot redefine it (only the REPL "
+	       "replaces a declaration)",
+	       entry->name);
+	return false;
+}
+
 bool run_param(session *s, const ast_node *st)
 {
 	for (size_t i = 0; i < st->nitems; i++) {
 		model_entry *entry = model_lookup(&s->model, st->items[i]->text);
 		if (entry && entry->kind == MODEL_PARAM)
-			continue; /* declaring a parameter again (load after save) only updates its range */
+			continue;
 		if (!check_new_name(s, &st->items[i]->loc, st->items[i]->text, true))
 			return false;
 	}
 	for (size_t i = 0; i < st->nitems; i++) {
 		const ast_node *cond = st->items[i];
+		model_entry *entry = model_lookup(&s->model, cond->text);
+		if (entry && entry->kind == MODEL_PARAM) {
+			if (!param_again(s, entry, cond))
+				return false;
+			continue;
+		}
 		const expr *sym = expr_sym(s->ctx, cond->text);
-		model_entry *entry = model_add(&s->model, cond->text, MODEL_PARAM, sym);
+		entry = model_add(&s->model, cond->text, MODEL_PARAM, sym);
 		entry->pending_state = false;
 		expr_sym_set_rank(s->ctx, sym, PRN_RANK_PARAM);
 		if (!apply_condition(s, entry, cond))
@@ -413,6 +451,25 @@ bool run_corr(session *s, const ast_node *st)
 		report(s, SESSION_INPUT, &st->c->loc, "a correlation must lie in [-1, 1]");
 		return false;
 	}
+	const expr *old = m->corr[idx[0] * (long)m->nnoises + idx[1]];
+	if (old && old != rho && !replaces(s)) {
+		report(s, SESSION_INPUT, &st->loc,
+		       "the correlation of %s and %s is already declared; a script cannot redefine it (only "
+		       "the REPL replaces a declaration)",
+		       st->a->text, st->b->text);
+		return false;
+	}
+	if (old != rho && m->nmeasures > 0 && !(old == NULL && expr_is_zero(rho))) {
+		/* a measure's implied shifts were worked out from the correlations
+		 * as they were (measure_complete): refuse rather than leave them stale */
+		report(s, SESSION_INPUT, &st->loc,
+		       "the measure '%s' was declared with the correlations as they are; declare "
+		       "correlations before measures (or forget %s first)",
+		       m->measures[0].name, m->measures[0].name);
+		return false;
+	}
+	if (old && old != rho)
+		replaced(s, "replaced the correlation of %s and %s", st->a->text, st->b->text);
 	/* a run of corr statements is judged as a whole, at its end: with three
 	 * noises correlated 0.9 pairwise, the matrix after the second line (the
 	 * third pair still 0) is not positive semi-definite, the final one is */
@@ -551,7 +608,18 @@ bool run_let(session *s, const ast_node *st)
 	const expr *value_expr;
 	if (!eval_scalar(s, st->a, &value_expr))
 		return false;
-	model_entry *entry = model_add(&s->model, st->text, MODEL_LET, NULL);
+	model_entry *entry = model_lookup(&s->model, st->text);
+	if (entry && entry->kind == MODEL_LET && entry->value != value_expr) {
+		if (!replaces(s)) {
+			report(s, SESSION_INPUT, &st->loc,
+			       "'%s' is already defined; a script cannot redefine it (only the REPL "
+			       "replaces a declaration)",
+			       st->text);
+			return false;
+		}
+		replaced(s, "replaced the definition of %s", st->text);
+	}
+	entry = model_add(&s->model, st->text, MODEL_LET, NULL);
 	entry->value = value_expr;
 	return true;
 }
@@ -660,28 +728,12 @@ bool run_sde(session *s, const ast_node *st)
 		       model_kind_name(entry->kind));
 		return false;
 	}
-	if (entry && entry->kind == MODEL_STATE) {
-		/* the same SDE again (load after save) is allowed; another one is not */
-		model_sde *existing = model_sde_of(m, entry->sym);
-		value again;
-		s->in_sde = true;
-		bool evaluated = existing && eval_node(s, st->a, &again);
-		s->in_sde = false;
-		bool same = evaluated && again.is_diff && existing->stratonovich == stratonovich &&
-		            again.d.dt == existing->drift;
-		for (size_t k = 0; same && k < m->nnoises; k++)
-			same = again.d.dw[k] == (k < existing->ndiffusion ? existing->diffusion[k] : NULL);
-		if (evaluated)
-			value_free(&again);
-		if (same)
-			return true;
-		report(s, SESSION_INPUT, &st->loc, "the state '%s' already has an SDE", name);
-		return false;
-	}
 	if (!entry && !check_new_name(s, &st->loc, name, false))
 		return false;
 	if (!check_sde_terms(s, st->a))
 		return false;
+	if (entry && entry->kind == MODEL_STATE)
+		return sde_again(s, st, entry, stratonovich);
 	/* declare the state first so its own SDE may use it (a failure puts
 	 * the model back as it was: run_whole) */
 	const expr *sym = expr_sym(s->ctx, name);

@@ -214,8 +214,9 @@ void undeclared_name(session *s, const ast_loc *loc, const char *name)
 	if (suggest(s, name))
 		unknown_name(s, loc, name);
 	else
-		report(s, SESSION_INPUT, loc, "unknown name '%s'; declare it first (param %s, or d%s = ... for a state)",
-		       name, name, name);
+		report(s, SESSION_INPUT, loc,
+		       "unknown name '%s'; declare it first (param %s, or d%s = ... for a state)", name, name,
+		       name);
 }
 
 bool declared_later(const session *s, const char *name)

@@ -108,9 +108,9 @@ static void journal_record(expr_ctx *ctx, expr *sym, bool keep_args)
 		ctx->journal_cap = ctx->journal_cap ? ctx->journal_cap * 2 : 16;
 		ctx->journal = xreallocarray(ctx->journal, ctx->journal_cap, sizeof *ctx->journal);
 	}
-	ctx->journal[ctx->journal_n++] = (sym_record){sym, sym->u.sym.sign, sym->u.sym.rank,
-	                                              keep_args ? sym->u.sym.nargs : 0,
-	                                              keep_args ? sym->u.sym.arg_names : NULL};
+	ctx->journal[ctx->journal_n++] =
+	        (sym_record){sym, sym->u.sym.sign, sym->u.sym.rank, keep_args ? sym->u.sym.nargs : 0,
+	                     keep_args ? sym->u.sym.arg_names : NULL};
 	if (keep_args) {
 		sym->u.sym.nargs = 0;
 		sym->u.sym.arg_names = NULL;

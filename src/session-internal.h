@@ -3,7 +3,8 @@
  * session.c  the statement table and the run loop
  * diag.c     messages: file:line:column, the line and a caret; suggestions
  * lower.c    syntax to engine values (expressions and differentials)
- * decl.c     declarations: param, assume, noise, corr, func, let, SDEs, measure, state
+ * decl.c     declarations: param, assume, noise, corr, func, let, SDEs
+ * decl-change.c  measure and state; decl-forget.c  forget, declarations made again
  * query.c    queries, claim and check, and the results they hand to the writers
  * persist.c  show, save, load and format
  *
@@ -133,6 +134,14 @@ bool numeric_value(session *s, const ast_node *n, double *out);
 
 /* ------------------------------------------------------------------ decl.c */
 
+/* Does a declaration made again replace the old one (the REPL, not a
+ * loaded file)?  Otherwise a different definition is an error. */
+bool replaces(const session *s);
+/* Say that a declaration replaced an old one ("replaced the SDE of S"). */
+void replaced(session *s, const char *format, ...) __attribute__((format(printf, 2, 3)));
+/* dX = ... for a state that has an SDE already (decl-forget.c). */
+bool sde_again(session *s, const ast_node *st, model_entry *entry, bool stratonovich);
+
 /* May name be declared (not reserved, not taken, no clash with a d-name)? */
 bool check_new_name(session *s, const ast_loc *loc, const char *name, bool allow_arg);
 /* May name be declared (again) as a let or a measure?  Reports when not. */
@@ -159,6 +168,11 @@ bool run_sde(session *s, const ast_node *st);
 bool run_measure(session *s, const ast_node *st);
 /* state x = FORWARD where X = INVERSE */
 bool run_state(session *s, const ast_node *st);
+
+/* ------------------------------------------------------------------ decl-forget.c */
+
+/* forget NAME: remove a declaration that nothing else uses */
+bool run_forget(session *s, const ast_node *st);
 
 /* ------------------------------------------------------------------ query.c */
 

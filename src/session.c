@@ -126,6 +126,7 @@ static const statement_row statements[AST_KIND_COUNT] = {
         [AST_S_SHOW] = {run_show, false},
         [AST_S_SAVE] = {run_save, false},
         [AST_S_LOAD] = {run_load, false},
+        [AST_S_FORGET] = {run_forget, false},
         [AST_S_FORMAT] = {run_format, false},
         [AST_S_HELP] = {run_help, false},
         [AST_S_QUIT] = {run_quit, false},
@@ -207,6 +208,11 @@ int session_finish(session *s)
 	for (int i = 0; i < 4; i++)
 		writer_finish(s->writers[i]);
 	return s->status;
+}
+
+void session_set_interactive(session *s, bool interactive)
+{
+	s->interactive = interactive;
 }
 
 int session_status(const session *s)
