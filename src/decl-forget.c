@@ -220,6 +220,16 @@ static void find_users(session *s, const model_entry *entry, users *u)
 	}
 }
 
+char *declaration_users(session *s, const model_entry *entry, size_t *count)
+{
+	users u;
+	find_users(s, entry, &u);
+	*count = u.n;
+	char *text = u.n ? users_text(&u) : NULL;
+	users_free(&u);
+	return text;
+}
+
 /* ------------------------------------------------------------------ forget */
 
 /* Remove an entry, and give its symbol back its plain attributes (a name
@@ -267,14 +277,12 @@ bool run_forget(session *s, const ast_node *st)
 		unknown_name(s, &at, name);
 		return false;
 	}
-	users u;
-	find_users(s, entry, &u);
-	if (u.n) {
-		char *text = users_text(&u);
+	size_t count;
+	char *text = declaration_users(s, entry, &count);
+	if (text) {
 		report(s, SESSION_INPUT, &at, "cannot forget '%s': %s %s it", name, text,
-		       u.n == 1 ? "uses" : "use");
+		       count == 1 ? "uses" : "use");
 		free(text);
-		users_free(&u);
 		return false;
 	}
 	model_kind kind = entry->kind;

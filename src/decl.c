@@ -151,6 +151,7 @@ static bool same_range(const model_entry *a, const model_entry *b)
 static bool param_again(session *s, model_entry *entry, const ast_node *cond)
 {
 	model_entry old = *entry;
+	int old_sign = expr_sym_sign(entry->sym);
 	bool had_range = old.lo || old.hi;
 	if (replaces(s)) {
 		entry->lo = entry->hi = NULL;
@@ -160,6 +161,20 @@ static bool param_again(session *s, model_entry *entry, const ast_node *cond)
 		return false;
 	if (same_range(entry, &old) || !had_range)
 		return true;
+	if (replaces(s) && (expr_sym_sign(entry->sym) & ~old_sign)) {
+		/* a weaker sign: what the model keeps was simplified under the
+		 * old one (sqrt(a^2) kept as a for a > 0) and would be wrong now */
+		size_t count;
+		char *users = declaration_users(s, entry, &count);
+		if (users) {
+			report(s, SESSION_INPUT, &cond->loc,
+			       "cannot widen the domain of '%s': %s %s simplified under the old one; "
+			       "forget what uses it first",
+			       entry->name, users, count == 1 ? "was" : "were");
+			free(users);
+			return false;
+		}
+	}
 	if (replaces(s)) {
 		replaced(s, "replaced the domain of %s", entry->name);
 		return true;

@@ -139,6 +139,9 @@ bool numeric_value(session *s, const ast_node *n, double *out);
 bool replaces(const session *s);
 /* Say that a declaration replaced an old one ("replaced the SDE of S"). */
 void replaced(session *s, const char *format, ...) __attribute__((format(printf, 2, 3)));
+/* What uses a declaration ("the SDE of S and the measure Q"), and how many;
+ * NULL when nothing does (decl-forget.c). */
+char *declaration_users(session *s, const model_entry *entry, size_t *count);
 /* dX = ... for a state that has an SDE already (decl-forget.c). */
 bool sde_again(session *s, const ast_node *st, model_entry *entry, bool stratonovich);
 

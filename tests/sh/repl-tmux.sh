@@ -86,8 +86,9 @@ expect 'itox> generator S^2' "history available after a restart"
 tmux -S "$sock" kill-server 2>/dev/null
 
 # ---- correcting declarations; whole or not at all (run in the work folder,
-# where the file to load is written)
+# where the file to load is written; a server of its own)
 cd "$work" || exit 1
+sock="$work/tmux2.sock"
 start
 keys 'param mu, sigma > 0; param rho in [-1, 1]; noise W, B' Enter
 keys 'dS = mu*S*dt + sigma*S*dW; assume S > 0' Enter
@@ -106,13 +107,19 @@ keys 'dS = 2*mu*S*dt + sigma*S*dW' Enter 'show S' Enter
 expect 'dS = 2*mu*S*dt + sigma*S*dW' "the same SDE again"
 if screen | grep -F -q 'replaced'; then echo "FAILED: the same SDE again said replaced"; fail=1; fi
 
-# a parameter's domain: sigma > 0 makes sqrt(sigma^2) = sigma; in [-1, 1] does not
-keys 'param sigma in [-1, 1]' Enter
-expect 'replaced the domain of sigma' "a parameter's domain replaced"
-keys 'sqrt(sigma^2)' Enter
-expect 'abs(sigma)' "the old sign is gone with the old domain"
-keys 'param sigma > 0' Enter 'sqrt(sigma^2) + 1' Enter
-expect '1 + sigma' "the domain replaced again"
+# a parameter's domain: c > 0 makes sqrt(c^2) = c; in [-1, 1] does not
+keys 'param c > 0' Enter 'param c in [-1, 1]' Enter
+expect 'replaced the domain of c' "a parameter's domain replaced"
+keys 'sqrt(c^2)' Enter
+expect 'abs(c)' "the old sign is gone with the old domain"
+keys 'param c > 0' Enter 'sqrt(c^2) + 1' Enter
+expect '1 + c' "the domain replaced again"
+# a narrower domain of a parameter in use is fine; a wider one is refused:
+# the SDE of S was simplified under sigma > 0
+keys 'param sigma in [1, 2]' Enter
+expect 'replaced the domain of sigma' "a narrower domain of a parameter in use"
+keys 'param sigma in [-1, 2]' Enter
+expect "cannot widen the domain of 'sigma': the SDE of S was simplified under the old one; forget what uses it first" "a wider domain of a parameter in use is refused"
 
 # a correlation, a let and a measure
 keys 'corr(W, B) = rho' Enter 'corr(W, B) = 1/2' Enter
