@@ -1,5 +1,6 @@
 /* check_session.c - unit tests of the session: a statement applies whole or
- * not at all (issue 14, item 2).
+ * not at all (issue 14, item 2); forget and declarations replaced in the
+ * REPL (item 4) through the library, under valgrind with the rest.
  *
  * A script stops at its first error, so what the model is after a failed
  * statement is seen here, through the library: one session runs a model,
@@ -192,6 +193,39 @@ START_TEST(test_load)
 }
 END_TEST
 
+START_TEST(test_forget_noise)
+{
+	/* forgetting the first of three noises keeps the others' correlation and
+	 * SDE columns in place: qv of X with dX = X*dB + X*dC and corr(B, C) =
+	 * 1/2 is X^2*(1 + 1 + 2*1/2) = 3*X^2 (the multiplication table of
+	 * LANGUAGE.md; common practice, no source) */
+	ck_assert_int_eq(run("noise A, C", NULL), 0);
+	leaves_model("corr(W, A) = 1/2", 2);        /* after the measure Q: refused */
+	ck_assert_int_eq(run("forget Q", NULL), 0); /* nothing uses a measure */
+	ck_assert_int_eq(run("corr(B, C) = 1/2; dX = X*dB + X*dC", NULL), 0);
+	ck_assert_int_eq(run("forget A", NULL), 0);
+	prints("qv X", "qv(X) = 3*X^2\n");
+	/* W is used: by the SDE of S and corr(W, B) */
+	ck_assert_int_eq(run("forget W", NULL), 2);
+	prints("qv S", "qv(S) = sigma^2*S^2\n");
+}
+END_TEST
+
+START_TEST(test_replace_interactive)
+{
+	/* the REPL replaces a declaration; a failed replacement changes nothing */
+	session_set_interactive(sess, true);
+	ck_assert_int_eq(run("dS = 2*kappa*S*dt + sigma*S*dW", NULL), 0);
+	prints("drift S", "drift(S) = 2*kappa*S\n");
+	ck_assert_int_eq(run("let L = 2*log(S)", NULL), 0);
+	prints("L", "2*log(S)\n");
+	ck_assert_int_eq(run("param a in [0, 1]", NULL), 0);
+	leaves_model("dS = kappa*S*dt + nosuch*S*dW", 2);
+	leaves_model("param sigma in [-1, 1]", 2); /* wider sign: the SDE of S uses sigma */
+	prints("drift S", "drift(S) = 2*kappa*S\n");
+}
+END_TEST
+
 Suite *session_suite(void)
 {
 	Suite *suite = suite_create("session");
@@ -204,6 +238,8 @@ Suite *session_suite(void)
 	tcase_add_test(tc, test_measure_state_corr);
 	tcase_add_test(tc, test_limit_mid_statement);
 	tcase_add_test(tc, test_load);
+	tcase_add_test(tc, test_forget_noise);
+	tcase_add_test(tc, test_replace_interactive);
 	suite_add_tcase(suite, tc);
 	return suite;
 }
