@@ -466,7 +466,7 @@ bool run_corr(session *s, const ast_node *st)
 		report(s, SESSION_INPUT, &st->c->loc, "a correlation must lie in [-1, 1]");
 		return false;
 	}
-	const expr *old = m->corr[idx[0] * (long)m->nnoises + idx[1]];
+	const expr *old = m->corr[(size_t)idx[0] * m->nnoises + (size_t)idx[1]];
 	if (old && old != rho && !replaces(s)) {
 		report(s, SESSION_INPUT, &st->loc,
 		       "the correlation of %s and %s is already declared; a script cannot redefine it (only "
