@@ -39,6 +39,7 @@ typedef void *yyscan_t;
 	X(claim, CLAIM) X(check, CHECK) X(at, AT) X(over, OVER)               \
 	X(verbose, VERBOSE) X(show, SHOW) X(save, SAVE) X(load, LOAD)         \
 	X(format, FORMAT) X(help, HELP) X(quit, QUIT) X(partial, PARTIAL)     \
+	X(forget, FORGET)                                                     \
 	X(drift, DRIFT) X(diffusion, DIFFUSION) X(generator, GENERATOR)       \
 	X(qv, QV) X(pde, PDE) X(discount, DISCOUNT) X(in, IN)                 \
 	X(coefficients, COEFFICIENTS) X(forward, FORWARD) X(moments, MOMENTS) X(d, D)
@@ -131,7 +132,7 @@ static bool statement_fits(struct itox_parse_state *ps, const ast_node *stmt);
 %token STRATONOVICH "stratonovich" SDE "sde" MEASURE "measure" UNDER "under"
 %token STATE "state" WHERE "where" CLAIM "claim" CHECK "check" AT "at" OVER "over"
 %token VERBOSE "verbose" SHOW "show" SAVE "save" LOAD "load" FORMAT "format"
-%token HELP "help" QUIT "quit" PARTIAL "partial" DRIFT "drift" DIFFUSION "diffusion"
+%token FORGET "forget" HELP "help" QUIT "quit" PARTIAL "partial" DRIFT "drift" DIFFUSION "diffusion"
 %token GENERATOR "generator" QV "qv" PDE "pde" DISCOUNT "discount" IN "in"
 %token COEFFICIENTS "coefficients" FORWARD "forward" MOMENTS "moments" D "d"
 
@@ -309,6 +310,7 @@ command:
 	| "help" WORD		{ $$ = ast_named(L, AST_S_HELP, $2, NULL, NULL, &@$); }
 	| "save" PATH		{ $$ = ast_named(L, AST_S_SAVE, $2, NULL, NULL, &@$); }
 	| "load" PATH		{ $$ = ast_named(L, AST_S_LOAD, $2, NULL, NULL, &@$); }
+	| "forget" NAME		{ $$ = ast_named(L, AST_S_FORGET, $2, NULL, NULL, &@$); }
 	| "quit"		{ $$ = ast_new(L, AST_S_QUIT, &@$); }
 	;
 
@@ -477,6 +479,7 @@ static bool is_statement_keyword(yysymbol_kind_t kind)
 	case YYSYMBOL_FUNC: case YYSYMBOL_LET: case YYSYMBOL_STRATONOVICH: case YYSYMBOL_SDE:
 	case YYSYMBOL_MEASURE: case YYSYMBOL_STATE: case YYSYMBOL_CLAIM: case YYSYMBOL_CHECK:
 	case YYSYMBOL_SHOW: case YYSYMBOL_SAVE: case YYSYMBOL_LOAD: case YYSYMBOL_FORMAT:
+	case YYSYMBOL_FORGET:
 	case YYSYMBOL_HELP: case YYSYMBOL_QUIT: case YYSYMBOL_DRIFT: case YYSYMBOL_DIFFUSION:
 	case YYSYMBOL_GENERATOR: case YYSYMBOL_QV: case YYSYMBOL_PDE: case YYSYMBOL_D:
 	case YYSYMBOL_COEFFICIENTS: case YYSYMBOL_FORWARD: case YYSYMBOL_MOMENTS:

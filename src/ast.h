@@ -66,6 +66,7 @@ typedef struct ast_loc {
 	X(S_SHOW)	  /* show [text]: text NULL for all */                                 \
 	X(S_SAVE)	  /* save text (a path) */                                             \
 	X(S_LOAD)	  /* load text (a path) */                                             \
+	X(S_FORGET)	  /* forget text (a declared name) */                                  \
 	X(S_FORMAT)	  /* format text */                                                    \
 	X(S_HELP)	  /* help [text] */                                                    \
 	X(S_QUIT)	  /* quit */

@@ -111,6 +111,21 @@ bool run_measure(session *s, const ast_node *st)
 	}
 	if (ok && engine_failed(s, &st->loc))
 		ok = false;
+	model_measure *old = ok ? model_measure_find(m, st->text) : NULL;
+	if (old) {
+		bool same = true;
+		for (size_t k = 0; k < n && same; k++)
+			same = old->shift[k] == shift[k] && old->names[k] == names[k];
+		if (!same && !replaces(s)) {
+			report(s, SESSION_INPUT, &st->loc,
+			       "the measure '%s' is already declared; a script cannot redefine it "
+			       "(only the REPL replaces a declaration)",
+			       st->text);
+			ok = false;
+		} else if (!same) {
+			replaced(s, "replaced the measure %s", st->text);
+		}
+	}
 	if (ok) {
 		model_measure *q = model_add_measure(m, st->text);
 		for (size_t k = 0; k < n; k++) {

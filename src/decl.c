@@ -139,19 +139,72 @@ static bool apply_condition(session *s, model_entry *entry, const ast_node *cond
 	return true;
 }
 
+static bool same_range(const model_entry *a, const model_entry *b)
+{
+	return a->lo == b->lo && a->hi == b->hi && (!a->lo || a->lo_strict == b->lo_strict) &&
+	       (!a->hi || a->hi_strict == b->hi_strict);
+}
+
+/* param NAME COND for a declared parameter.  A script may declare it again
+ * with the same domain (load after save), or give a domain to one that has
+ * none; the REPL replaces the domain.  (A failure is undone by run_whole.) */
+static bool param_again(session *s, model_entry *entry, const ast_node *cond)
+{
+	model_entry old = *entry;
+	int old_sign = expr_sym_sign(entry->sym);
+	bool had_range = old.lo || old.hi;
+	if (replaces(s)) {
+		entry->lo = entry->hi = NULL;
+		expr_sym_set_sign(s->ctx, entry->sym, EXPR_SIGN_UNKNOWN);
+	}
+	if (!apply_condition(s, entry, cond))
+		return false;
+	if (same_range(entry, &old) || !had_range)
+		return true;
+	if (replaces(s) && (expr_sym_sign(entry->sym) & ~old_sign)) {
+		/* a weaker sign: what the model keeps was simplified under the
+		 * old one (sqrt(a^2) kept as a for a > 0) and would be wrong now */
+		size_t count;
+		char *users = declaration_users(s, entry, &count);
+		if (users) {
+			report(s, SESSION_INPUT, &cond->loc,
+			       "cannot widen the domain of '%s': %s %s simplified under the old one; "
+			       "forget what uses it first",
+			       entry->name, users, count == 1 ? "was" : "were");
+			free(users);
+			return false;
+		}
+	}
+	if (replaces(s)) {
+		replaced(s, "replaced the domain of %s", entry->name);
+		return true;
+	}
+	report(s, SESSION_INPUT, &cond->loc,
+	       "the parameter '%s' already has a domain; a script cannot redefine it (only the REPL "
+	       "replaces a declaration)",
+	       entry->name);
+	return false;
+}
+
 bool run_param(session *s, const ast_node *st)
 {
 	for (size_t i = 0; i < st->nitems; i++) {
 		model_entry *entry = model_lookup(&s->model, st->items[i]->text);
 		if (entry && entry->kind == MODEL_PARAM)
-			continue; /* declaring a parameter again (load after save) only updates its range */
+			continue;
 		if (!check_new_name(s, &st->items[i]->loc, st->items[i]->text, true))
 			return false;
 	}
 	for (size_t i = 0; i < st->nitems; i++) {
 		const ast_node *cond = st->items[i];
+		model_entry *entry = model_lookup(&s->model, cond->text);
+		if (entry && entry->kind == MODEL_PARAM) {
+			if (!param_again(s, entry, cond))
+				return false;
+			continue;
+		}
 		const expr *sym = expr_sym(s->ctx, cond->text);
-		model_entry *entry = model_add(&s->model, cond->text, MODEL_PARAM, sym);
+		entry = model_add(&s->model, cond->text, MODEL_PARAM, sym);
 		entry->pending_state = false;
 		expr_sym_set_rank(s->ctx, sym, PRN_RANK_PARAM);
 		if (!apply_condition(s, entry, cond))
@@ -304,52 +357,6 @@ static bool relation_with_bound(session *s, const ast_node *written, const expr 
 
 /* ------------------------------------------------------------------ assume */
 
-/* What an assume statement may change, to undo it when a later item fails. */
-typedef struct assume_undo {
-	size_t nentries, nrelations;
-	model_entry *entries; /* copies of the first nentries (their ranges) */
-	int *signs;           /* their symbols' signs */
-} assume_undo;
-
-static void assume_undo_save(session *s, assume_undo *undo)
-{
-	model *m = &s->model;
-	undo->nentries = m->nentries;
-	undo->nrelations = m->nrelations;
-	undo->entries = xmalloc((m->nentries + 1) * sizeof *undo->entries);
-	undo->signs = xmalloc((m->nentries + 1) * sizeof *undo->signs);
-	for (size_t i = 0; i < m->nentries; i++) {
-		undo->entries[i] = m->entries[i];
-		undo->signs[i] = m->entries[i].sym ? expr_sym_sign(m->entries[i].sym) : EXPR_SIGN_UNKNOWN;
-	}
-}
-
-static void assume_undo_apply(session *s, const assume_undo *undo)
-{
-	model *m = &s->model;
-	while (m->nentries > undo->nentries) {
-		model_entry *added = &m->entries[m->nentries - 1];
-		expr_sym_set_sign(s->ctx, added->sym, EXPR_SIGN_UNKNOWN);
-		model_forget(m, added);
-	}
-	for (size_t i = 0; i < undo->nentries; i++) {
-		model_entry *e = &m->entries[i];
-		e->lo = undo->entries[i].lo;
-		e->hi = undo->entries[i].hi;
-		e->lo_strict = undo->entries[i].lo_strict;
-		e->hi_strict = undo->entries[i].hi_strict;
-		if (e->sym)
-			expr_sym_set_sign(s->ctx, e->sym, undo->signs[i]);
-	}
-	model_drop_relations(m, undo->nrelations);
-}
-
-static void assume_undo_free(assume_undo *undo)
-{
-	free(undo->entries);
-	free(undo->signs);
-}
-
 /* One item of assume: a range on a name (COND) or a relation. */
 static bool assume_one(session *s, const ast_node *cond)
 {
@@ -369,7 +376,15 @@ static bool assume_one(session *s, const ast_node *cond)
 		return false;
 	}
 	if (!entry) {
-		/* an assumption about a state declared later: keep it as an argument-like name */
+		/* an assumption about a state declared later in the same input:
+		 * keep it as an argument-like name until its SDE comes */
+		if (!declared_later(s, cond->text)) {
+			ast_loc name = cond->loc;
+			name.last_line = name.first_line;
+			name.last_column = name.first_column + (int)strlen(cond->text) - 1;
+			undeclared_name(s, &name, cond->text);
+			return false;
+		}
 		if (!check_new_name(s, &cond->loc, cond->text, false))
 			return false;
 		entry = model_add(&s->model, cond->text, MODEL_ARG, expr_sym(s->ctx, cond->text));
@@ -380,14 +395,9 @@ static bool assume_one(session *s, const ast_node *cond)
 
 bool run_assume(session *s, const ast_node *st)
 {
-	assume_undo undo;
-	assume_undo_save(s, &undo);
 	bool ok = true;
 	for (size_t i = 0; i < st->nitems && ok; i++)
 		ok = assume_one(s, st->items[i]);
-	if (!ok)
-		assume_undo_apply(s, &undo);
-	assume_undo_free(&undo);
 	return ok;
 }
 
@@ -456,6 +466,25 @@ bool run_corr(session *s, const ast_node *st)
 		report(s, SESSION_INPUT, &st->c->loc, "a correlation must lie in [-1, 1]");
 		return false;
 	}
+	const expr *old = m->corr[(size_t)idx[0] * m->nnoises + (size_t)idx[1]];
+	if (old && old != rho && !replaces(s)) {
+		report(s, SESSION_INPUT, &st->loc,
+		       "the correlation of %s and %s is already declared; a script cannot redefine it (only "
+		       "the REPL replaces a declaration)",
+		       st->a->text, st->b->text);
+		return false;
+	}
+	if (old != rho && m->nmeasures > 0 && !(old == NULL && expr_is_zero(rho))) {
+		/* a measure's implied shifts were worked out from the correlations
+		 * as they were (measure_complete): refuse rather than leave them stale */
+		report(s, SESSION_INPUT, &st->loc,
+		       "the measure '%s' was declared with the correlations as they are; declare "
+		       "correlations before measures (or forget %s first)",
+		       m->measures[0].name, m->measures[0].name);
+		return false;
+	}
+	if (old && old != rho)
+		replaced(s, "replaced the correlation of %s and %s", st->a->text, st->b->text);
 	/* a run of corr statements is judged as a whole, at its end: with three
 	 * noises correlated 0.9 pairwise, the matrix after the second line (the
 	 * third pair still 0) is not positive semi-definite, the final one is */
@@ -594,7 +623,18 @@ bool run_let(session *s, const ast_node *st)
 	const expr *value_expr;
 	if (!eval_scalar(s, st->a, &value_expr))
 		return false;
-	model_entry *entry = model_add(&s->model, st->text, MODEL_LET, NULL);
+	model_entry *entry = model_lookup(&s->model, st->text);
+	if (entry && entry->kind == MODEL_LET && entry->value != value_expr) {
+		if (!replaces(s)) {
+			report(s, SESSION_INPUT, &st->loc,
+			       "'%s' is already defined; a script cannot redefine it (only the REPL "
+			       "replaces a declaration)",
+			       st->text);
+			return false;
+		}
+		replaced(s, "replaced the definition of %s", st->text);
+	}
+	entry = model_add(&s->model, st->text, MODEL_LET, NULL);
 	entry->value = value_expr;
 	return true;
 }
@@ -706,32 +746,15 @@ bool run_sde(session *s, const ast_node *st)
 		       model_kind_name(entry->kind));
 		return false;
 	}
-	if (entry && entry->kind == MODEL_STATE) {
-		/* the same SDE again (load after save) is allowed; another one is not */
-		model_sde *existing = model_sde_of(m, entry->sym);
-		value again;
-		s->in_sde = true;
-		bool evaluated = existing && eval_node(s, st->a, &again);
-		s->in_sde = false;
-		bool same = evaluated && again.is_diff && existing->stratonovich == stratonovich &&
-		            again.d.dt == existing->drift;
-		for (size_t k = 0; same && k < m->nnoises; k++)
-			same = again.d.dw[k] == (k < existing->ndiffusion ? existing->diffusion[k] : NULL);
-		if (evaluated)
-			value_free(&again);
-		if (same)
-			return true;
-		report(s, SESSION_INPUT, &st->loc, "the state '%s' already has an SDE", name);
-		return false;
-	}
 	if (!entry && !check_new_name(s, &st->loc, name, false))
 		return false;
 	if (!check_sde_terms(s, st->a))
 		return false;
-	/* declare the state first so its own SDE may use it */
+	if (entry && entry->kind == MODEL_STATE)
+		return sde_again(s, st, entry, stratonovich);
+	/* declare the state first so its own SDE may use it (a failure puts
+	 * the model back as it was: run_whole) */
 	const expr *sym = expr_sym(s->ctx, name);
-	model_entry saved = entry ? *entry : (model_entry){0};
-	bool existed = entry != NULL;
 	entry = model_add(m, name, MODEL_STATE, sym);
 	entry->pending_state = false;
 	expr_sym_set_rank(s->ctx, sym, PRN_RANK_STATE);
@@ -742,19 +765,9 @@ bool run_sde(session *s, const ast_node *st)
 	bool evaluated = eval_node(s, st->a, &v);
 	s->in_sde = false;
 	if (!evaluated || !v.is_diff) {
-		if (!v.is_diff && v.e)
+		if (evaluated)
 			report(s, SESSION_INPUT, &st->a->loc,
 			       "the right side of an SDE must contain dt or a noise differential");
-		model_remove_sde(m, sym);
-		entry = model_lookup(m, name);
-		if (existed) {
-			entry->kind = saved.kind;
-		} else {
-			/* forget the name again */
-			entry->kind = MODEL_ARG;
-			model_forget(m, entry);
-		}
-		expr_sym_set_rank(s->ctx, sym, PRN_RANK_PARAM);
 		return false;
 	}
 	sde = model_sde_of(m, sym);

@@ -94,6 +94,17 @@ void report(session *s, int status, const ast_loc *loc, const char *format, ...)
 	}
 }
 
+void note(session *s, const ast_loc *loc, const char *format, ...)
+{
+	va_list args;
+	va_start(args, format);
+	char message[1024];
+	vsnprintf(message, sizeof message, format, args);
+	va_end(args);
+	int line = s->fixed_line ? s->fixed_line : loc ? loc->first_line : 1;
+	fprintf(s->opt.err, "%s:%d:%d: note: %s\n", s->origin, line, loc ? loc->first_column : 1, message);
+}
+
 /* Report an engine error (limit, interrupt, division by zero) if one is set. */
 bool engine_failed(session *s, const ast_loc *loc)
 {
@@ -196,6 +207,30 @@ void unknown_name(session *s, const ast_loc *loc, const char *name)
 		report(s, SESSION_INPUT, loc, "unknown name '%s'; did you mean '%s'?", name, hint);
 	else
 		report(s, SESSION_INPUT, loc, "unknown name '%s'", name);
+}
+
+void undeclared_name(session *s, const ast_loc *loc, const char *name)
+{
+	if (suggest(s, name))
+		unknown_name(s, loc, name);
+	else
+		report(s, SESSION_INPUT, loc,
+		       "unknown name '%s'; declare it first (param %s, or d%s = ... for a state)", name, name,
+		       name);
+}
+
+bool declared_later(const session *s, const char *name)
+{
+	const ast_list *list = s->run_list;
+	for (size_t i = s->run_index + 1; list && i < list->n; i++) {
+		const ast_node *st = list->stmts[i];
+		bool sde = st->kind == AST_S_SDE || st->kind == AST_S_STRAT_SDE;
+		if (sde && st->text[0] == 'd' && strcmp(st->text + 1, name) == 0)
+			return true;
+		if (st->kind == AST_S_STATE && strcmp(st->text, name) == 0)
+			return true;
+	}
+	return false;
 }
 
 /* The entry of a name that must be of one kind; NULL after a message (an

@@ -304,6 +304,8 @@ void expr_ctx_free(expr_ctx *ctx)
 {
 	if (!ctx)
 		return;
+	ctx->journal_depth = 0;
+	expr_journal_free(ctx);
 	for (size_t i = 0; i < ctx->capacity; i++)
 		if (ctx->table[i])
 			free_node((expr *)ctx->table[i]);
@@ -427,6 +429,13 @@ void expr_memo_put(expr_ctx *ctx, int tag, const void *a, const void *b, const e
 	if (!ctx->memo[slot].tag)
 		ctx->memo_count++;
 	ctx->memo[slot] = (memo_entry){tag, a, b, result};
+}
+
+void expr_memo_clear(expr_ctx *ctx)
+{
+	if (ctx->memo_count)
+		memset(ctx->memo, 0, ctx->memo_capacity * sizeof *ctx->memo);
+	ctx->memo_count = 0;
 }
 
 int expr_memo_new_tag(expr_ctx *ctx)

@@ -67,6 +67,10 @@ struct expr_ctx {
 	struct expr_arena_chunk *arena;
 	char *arena_next;
 	size_t arena_left;
+	/* The journal of symbols' attributes while a mark is open (expr.c). */
+	struct expr_sym_record *journal;
+	size_t journal_n, journal_cap;
+	int journal_depth;
 };
 
 /* A map from node pointers to node pointers (open addressing). */
@@ -87,6 +91,8 @@ const expr *expr_pow_pair(expr_ctx *ctx, const expr *base, const expr *exponent)
 
 /* Intern a candidate: the existing equal node, or an arena copy (expr-intern.c). */
 const expr *expr_intern(expr_ctx *ctx, expr *candidate);
+/* Free the records of the journal of symbols (expr.c). */
+void expr_journal_free(expr_ctx *ctx);
 /* Double the pool of scratch rationals (expr-intern.c). */
 void expr_scratch_grow(expr_ctx *ctx);
 

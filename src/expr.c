@@ -77,16 +77,111 @@ const expr *expr_sym(expr_ctx *ctx, const char *name)
 	return expr_intern(ctx, &candidate);
 }
 
+/* ------------------------------------------------------------------ the journal of symbols
+ *
+ * A symbol's attributes (sign, rank, function arguments) live in its node.
+ * While a mark is open, each change first records the attributes it
+ * replaces, so a statement that fails can put every symbol back as it was.
+ */
+
+typedef struct expr_sym_record {
+	expr *sym;
+	int sign, rank;
+	size_t nargs;
+	char **arg_names; /* owned by the record until it is undone or dropped */
+} sym_record;
+
+static void free_arg_names(size_t nargs, char **arg_names)
+{
+	for (size_t i = 0; i < nargs; i++)
+		free(arg_names[i]);
+	free(arg_names);
+}
+
+/* Record the attributes of sym before a change; keep_args: the record takes
+ * the argument names (the change replaces them) instead of sharing them. */
+static void journal_record(expr_ctx *ctx, expr *sym, bool keep_args)
+{
+	if (!ctx || ctx->journal_depth == 0)
+		return;
+	if (ctx->journal_n == ctx->journal_cap) {
+		ctx->journal_cap = ctx->journal_cap ? ctx->journal_cap * 2 : 16;
+		ctx->journal = xreallocarray(ctx->journal, ctx->journal_cap, sizeof *ctx->journal);
+	}
+	ctx->journal[ctx->journal_n++] =
+	        (sym_record){sym, sym->u.sym.sign, sym->u.sym.rank, keep_args ? sym->u.sym.nargs : 0,
+	                     keep_args ? sym->u.sym.arg_names : NULL};
+	if (keep_args) {
+		sym->u.sym.nargs = 0;
+		sym->u.sym.arg_names = NULL;
+	} else {
+		ctx->journal[ctx->journal_n - 1].nargs = (size_t)-1; /* arguments unchanged */
+	}
+}
+
+/* Set a symbol's sign.  A weaker assumption than before (a sign given back,
+ * a domain replaced) invalidates what the memo derived under the stronger
+ * one (sqrt(x^2) = x for x >= 0), so the memo is cleared then. */
+static void set_sign(expr_ctx *ctx, expr *sym, int sign_flags)
+{
+	int old = sym->u.sym.sign;
+	sym->u.sym.sign = sign_flags;
+	if (ctx && (sign_flags & ~old))
+		expr_memo_clear(ctx);
+}
+
+size_t expr_sym_mark(expr_ctx *ctx)
+{
+	ctx->journal_depth++;
+	return ctx->journal_n;
+}
+
+void expr_sym_undo(expr_ctx *ctx, size_t mark)
+{
+	while (ctx->journal_n > mark) {
+		sym_record *r = &ctx->journal[--ctx->journal_n];
+		set_sign(ctx, r->sym, r->sign);
+		r->sym->u.sym.rank = r->rank;
+		if (r->nargs != (size_t)-1) {
+			free_arg_names(r->sym->u.sym.nargs, r->sym->u.sym.arg_names);
+			r->sym->u.sym.nargs = r->nargs;
+			r->sym->u.sym.arg_names = r->arg_names;
+		}
+	}
+	ctx->journal_depth--;
+}
+
+void expr_sym_keep(expr_ctx *ctx, size_t mark)
+{
+	(void)mark;
+	if (--ctx->journal_depth > 0)
+		return; /* an outer mark may still undo these changes */
+	expr_journal_free(ctx);
+}
+
+void expr_journal_free(expr_ctx *ctx)
+{
+	for (size_t i = 0; i < ctx->journal_n; i++)
+		if (ctx->journal[i].nargs != (size_t)-1)
+			free_arg_names(ctx->journal[i].nargs, ctx->journal[i].arg_names);
+	ctx->journal_n = 0;
+	if (ctx->journal_depth == 0) {
+		free(ctx->journal);
+		ctx->journal = NULL;
+		ctx->journal_cap = 0;
+	}
+}
+
 bool expr_func_declare(expr_ctx *ctx, const expr *sym, size_t nargs, const char *const *arg_names)
 {
-	(void)ctx;
-	if (nargs == 0 || nargs > EXPR_MAX_FUNC_ARGS || sym->kind != EXPR_SYM)
+	if (nargs > EXPR_MAX_FUNC_ARGS || sym->kind != EXPR_SYM)
 		return false;
 	expr *node = (expr *)sym;
-	for (size_t i = 0; i < node->u.sym.nargs; i++)
-		free(node->u.sym.arg_names[i]);
-	free(node->u.sym.arg_names);
-	node->u.sym.arg_names = xcalloc(nargs, sizeof(char *));
+	if (ctx && ctx->journal_depth > 0)
+		journal_record(ctx, node, true);
+	else
+		free_arg_names(node->u.sym.nargs, node->u.sym.arg_names);
+	node->u.sym.arg_names = nargs ? xcalloc(nargs, sizeof(char *)) : NULL;
 	for (size_t i = 0; i < nargs; i++)
 		node->u.sym.arg_names[i] = xstrdup(arg_names[i]);
 	node->u.sym.nargs = nargs;
@@ -105,9 +200,10 @@ const char *expr_func_arg_name(const expr *sym, size_t index)
 
 void expr_sym_set_sign(expr_ctx *ctx, const expr *sym, int sign_flags)
 {
-	(void)ctx;
-	if (sym->kind == EXPR_SYM)
-		((expr *)sym)->u.sym.sign = sign_flags ? sign_flags : EXPR_SIGN_UNKNOWN;
+	if (sym->kind != EXPR_SYM)
+		return;
+	journal_record(ctx, (expr *)sym, false);
+	set_sign(ctx, (expr *)sym, sign_flags ? sign_flags : EXPR_SIGN_UNKNOWN);
 }
 
 int expr_sym_sign(const expr *sym)
@@ -117,9 +213,10 @@ int expr_sym_sign(const expr *sym)
 
 void expr_sym_set_rank(expr_ctx *ctx, const expr *sym, int rank)
 {
-	(void)ctx;
-	if (sym->kind == EXPR_SYM)
-		((expr *)sym)->u.sym.rank = rank;
+	if (sym->kind != EXPR_SYM)
+		return;
+	journal_record(ctx, (expr *)sym, false);
+	((expr *)sym)->u.sym.rank = rank;
 }
 
 int expr_sym_rank(const expr *sym)

@@ -129,7 +129,8 @@ const expr *expr_fapp(expr_ctx *ctx, const expr *func, const unsigned char *coun
 
 /* --- symbols --- */
 /* Declare sym as a generic function of nargs arguments with the given argument
- * names (used for printing f_x); returns false if nargs exceeds EXPR_MAX_FUNC_ARGS. */
+ * names (used for printing f_x); nargs 0 makes it a plain symbol again.
+ * Returns false if nargs exceeds EXPR_MAX_FUNC_ARGS. */
 #define EXPR_MAX_FUNC_ARGS 64
 bool expr_func_declare(expr_ctx *ctx, const expr *sym, size_t nargs, const char *const *arg_names);
 size_t expr_func_arity(const expr *sym); /* 0 when sym is not a function */
@@ -138,6 +139,13 @@ void expr_sym_set_sign(expr_ctx *ctx, const expr *sym, int sign_flags); /* assum
 int expr_sym_sign(const expr *sym);
 void expr_sym_set_rank(expr_ctx *ctx, const expr *sym, int rank); /* display order class */
 int expr_sym_rank(const expr *sym);
+/* Undo of the attributes above (a statement that fails puts them back):
+ * expr_sym_mark() opens a mark, and every change after it is recorded until
+ * the mark is ended by expr_sym_undo() (put back every change made since) or
+ * expr_sym_keep() (keep them).  Marks nest; end the innermost first. */
+size_t expr_sym_mark(expr_ctx *ctx);
+void expr_sym_undo(expr_ctx *ctx, size_t mark);
+void expr_sym_keep(expr_ctx *ctx, size_t mark);
 
 /* --- inspection --- */
 expr_kind expr_kind_of(const expr *e);
@@ -197,5 +205,7 @@ int expr_sign(expr_ctx *ctx, const expr *e);
 const expr *expr_memo_get(expr_ctx *ctx, int tag, const void *a, const void *b);
 void expr_memo_put(expr_ctx *ctx, int tag, const void *a, const void *b, const expr *result);
 int expr_memo_new_tag(expr_ctx *ctx);
+/* Forget every memo entry (results derived under assumptions since weakened). */
+void expr_memo_clear(expr_ctx *ctx);
 
 #endif

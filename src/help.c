@@ -98,6 +98,11 @@
 	X("show", "show [NAME]\n  The model (or one name) as a script.  example:  show\n")           \
 	X("save", "save FILE\n  Write the model as a script that load reproduces.  example:  save note-model.itox\n") \
 	X("load", "load FILE\n  Run a script in this session.  example:  load note-model.itox\n")          \
+	X("forget", "forget NAME\n"                                                                  \
+		    "  Remove a declaration that nothing else uses (or say what uses it).  In the\n"   \
+		    "  REPL, declaring an SDE, a parameter's domain, a correlation, a let or a\n"     \
+		    "  measure again replaces the old one and says so; in a script that is an\n"    \
+		    "  error.  Results printed before are not changed.  example:  forget Q\n")      \
 	X("format", "format text|latex|c|json\n"                                                     \
 		    "  The output format.  text: each result with its left side (drift(X) = ...),\n" \
 		    "  claims and checks with their place (model.itox:12: claim holds (exact)).\n"   \
@@ -132,7 +137,7 @@ static const char overview[] =
 	"                sde, any query followed by: under MEASURE\n"
 	"  algebra       coefficients (in) forward moments\n"
 	"  verification  claim check (at, over, verbose)\n"
-	"  session       show save load format help quit\n"
+	"  session       show save load forget format help quit\n"
 	"Example:\n"
 	"  param mu, sigma > 0\n"
 	"  noise W\n"

@@ -219,15 +219,20 @@ static bool eval_name(session *s, const ast_node *n, value *out)
 			return false;
 		}
 	}
-	if (s->in_sde && is_identifier(name) && !suggest(s, name) &&
-	    check_new_name(s, &n->loc, name, false)) {
-		/* a state whose SDE comes later (dS uses v before dv): announced now,
-		 * and every query refuses the model until it gets its SDE */
+	if (s->in_sde && declared_later(s, name)) {
+		/* a state whose SDE comes later in the same input (dS uses v
+		 * before dv): announced now; queries refuse the model until it
+		 * has its SDE */
+		if (!check_new_name(s, &n->loc, name, false))
+			return false;
 		model_entry *ahead = model_add(&s->model, name, MODEL_ARG, expr_sym(s->ctx, name));
 		ahead->pending_state = true;
 		return make_scalar(s, n, ahead->sym, out);
 	}
-	unknown_name(s, &n->loc, name);
+	if (s->in_sde)
+		undeclared_name(s, &n->loc, name);
+	else
+		unknown_name(s, &n->loc, name);
 	return false;
 }
 

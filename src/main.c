@@ -13,6 +13,12 @@
 #include "session.h"
 #include "xalloc.h"
 
+/* A file or an -e statement (statement: its ordinal among the -e, from 1). */
+typedef struct input {
+	const char *text;
+	int statement;
+} input;
+
 static volatile sig_atomic_t interrupt_flag;
 static double time_limit;
 
@@ -44,7 +50,7 @@ static void usage(FILE *out)
 	      "Symbolic Ito calculus: the exact dynamics of transformed SDE states, generators\n"
 	      "and backward PDEs, Stratonovich and Girsanov, claims that verify derivations.\n"
 	      "\n"
-	      "With FILEs, run them in order in one session.  With -e, run the statements.\n"
+	      "Run the FILEs and -e statements in the order given, in one session.\n"
 	      "Otherwise run the REPL if standard input is a terminal, or read it as a script.\n"
 	      "\n"
 	      "  -e STATEMENT        run STATEMENT (repeatable)      itox -e 'param a' -e 'log(exp(a))'\n"
@@ -79,13 +85,20 @@ int main(int argc, char **argv)
 	};
 	session_options opt = {0};
 	opt.seed = 1;
-	char **statements = xcalloc((size_t)argc + 1, sizeof *statements);
-	size_t nstatements = 0;
+	/* files and -e statements, in the order of the command line */
+	input *inputs = xcalloc((size_t)argc + 1, sizeof *inputs);
+	size_t ninputs = 0;
+	int nstatements = 0;
 	int c;
-	while ((c = getopt_long(argc, argv, "e:", options, NULL)) != -1) {
+	/* "-" first: getopt returns each file in its place (code 1) instead of
+	 * moving the files after the options */
+	while ((c = getopt_long(argc, argv, "-e:", options, NULL)) != -1) {
 		switch (c) {
+		case 1:
+			inputs[ninputs++] = (input){optarg, 0};
+			break;
 		case 'e':
-			statements[nstatements++] = optarg;
+			inputs[ninputs++] = (input){optarg, ++nstatements};
 			break;
 		case OPT_FORMAT:
 			if (strcmp(optarg, "text") == 0)
@@ -98,7 +111,7 @@ int main(int argc, char **argv)
 				opt.format = FORMAT_JSON;
 			else {
 				fprintf(stderr, "itox: unknown format '%s' (text, latex, c or json)\n", optarg);
-				free(statements);
+				free(inputs);
 				return 2;
 			}
 			break;
@@ -107,7 +120,7 @@ int main(int argc, char **argv)
 			opt.seed = strtoul(optarg, &end, 10);
 			if (*end || !*optarg) {
 				fprintf(stderr, "itox: --seed needs a non-negative integer, not '%s'\n", optarg);
-				free(statements);
+				free(inputs);
 				return 2;
 			}
 			break;
@@ -117,7 +130,7 @@ int main(int argc, char **argv)
 			time_limit = strtod(optarg, &end);
 			if (*end || !(time_limit > 0)) {
 				fprintf(stderr, "itox: --time-limit needs a positive number of seconds, not '%s'\n", optarg);
-				free(statements);
+				free(inputs);
 				return 2;
 			}
 			break;
@@ -130,15 +143,15 @@ int main(int argc, char **argv)
 			break;
 		case OPT_HELP:
 			usage(stdout);
-			free(statements);
+			free(inputs);
 			return 0;
 		case OPT_VERSION:
 			printf("itox %s\n", PACKAGE_VERSION);
-			free(statements);
+			free(inputs);
 			return 0;
 		default:
 			fputs("Try 'itox --help'.\n", stderr);
-			free(statements);
+			free(inputs);
 			return 2;
 		}
 	}
@@ -150,12 +163,15 @@ int main(int argc, char **argv)
 	}
 	session *s = session_new(&opt);
 	int status = 0;
-	for (int i = optind; i < argc && session_status(s) < 2 && !session_quit_requested(s); i++)
-		session_run_file(s, argv[i]);
-	for (size_t i = 0; i < nstatements && session_status(s) < 2 && !session_quit_requested(s); i++) {
-		session_run_argument(s, statements[i], (int)i + 1);
+	for (int i = optind; i < argc; i++) /* the files after "--" */
+		inputs[ninputs++] = (input){argv[i], 0};
+	for (size_t i = 0; i < ninputs && session_status(s) < 2 && !session_quit_requested(s); i++) {
+		if (inputs[i].statement)
+			session_run_argument(s, inputs[i].text, inputs[i].statement);
+		else
+			session_run_file(s, inputs[i].text);
 	}
-	if (optind == argc && nstatements == 0) {
+	if (ninputs == 0) {
 		if (isatty(STDIN_FILENO)) {
 			repl_run(s, &interrupt_flag, opt.quiet);
 		} else {
@@ -170,6 +186,6 @@ int main(int argc, char **argv)
 	}
 	status = session_finish(s);
 	session_free(s);
-	free(statements);
+	free(inputs);
 	return status;
 }

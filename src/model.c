@@ -281,3 +281,97 @@ const char *model_rel_text(model_rel op)
 	static const char *const texts[] = {">", ">=", "<", "<="};
 	return texts[op];
 }
+
+void model_remove_measure(model *m, const char *name)
+{
+	model_measure *q = model_measure_find(m, name);
+	if (!q)
+		return;
+	free(q->name);
+	free(q->names);
+	free(q->shift);
+	size_t i = (size_t)(q - m->measures);
+	memmove(q, q + 1, (m->nmeasures - i - 1) * sizeof *q);
+	m->nmeasures--;
+}
+
+/* Remove item k of an array of n pointers. */
+static void remove_item(const expr **items, size_t n, size_t k)
+{
+	memmove(&items[k], &items[k + 1], (n - k - 1) * sizeof *items);
+}
+
+void model_remove_noise(model *m, size_t k)
+{
+	size_t n = m->nnoises;
+	for (size_t i = 0, to = 0; i < n; i++)
+		for (size_t j = 0; j < n; j++)
+			if (i != k && j != k)
+				m->corr[to++] = m->corr[i * n + j];
+	remove_item(m->noises, n, k);
+	for (size_t i = 0; i < m->nsdes; i++) {
+		remove_item(m->sdes[i].diffusion, m->sdes[i].ndiffusion, k);
+		m->sdes[i].ndiffusion--;
+	}
+	for (size_t i = 0; i < m->nmeasures; i++) {
+		remove_item(m->measures[i].names, n, k);
+		remove_item(m->measures[i].shift, n, k);
+		m->measures[i].nnoises--;
+	}
+	m->nnoises--;
+}
+
+/* ------------------------------------------------------------------ snapshots */
+
+/* A copy of n items of size bytes (at least one byte, so never NULL). */
+static void *copy_of(const void *items, size_t n, size_t size)
+{
+	void *copy = xmalloc(n * size + 1);
+	if (n)
+		memcpy(copy, items, n * size);
+	return copy;
+}
+
+/* A deep copy of the tables of src (the expressions are shared: nodes are immutable). */
+static void model_copy(model *dst, const model *src)
+{
+	*dst = *src;
+	dst->entries = copy_of(src->entries, src->nentries, sizeof *src->entries);
+	dst->capentries = src->nentries;
+	for (size_t i = 0; i < src->nentries; i++)
+		dst->entries[i].name = xstrdup(src->entries[i].name);
+	dst->name_index = copy_of(src->name_index, src->name_index_cap, sizeof *src->name_index);
+	dst->noises = copy_of(src->noises, src->nnoises, sizeof *src->noises);
+	dst->corr = copy_of(src->corr, src->nnoises * src->nnoises, sizeof *src->corr);
+	dst->sdes = copy_of(src->sdes, src->nsdes, sizeof *src->sdes);
+	for (size_t i = 0; i < src->nsdes; i++)
+		dst->sdes[i].diffusion = copy_of(src->sdes[i].diffusion, src->sdes[i].ndiffusion,
+		                                 sizeof *src->sdes[i].diffusion);
+	dst->measures = copy_of(src->measures, src->nmeasures, sizeof *src->measures);
+	for (size_t i = 0; i < src->nmeasures; i++) {
+		model_measure *q = &dst->measures[i];
+		q->name = xstrdup(q->name);
+		q->names = copy_of(q->names, q->nnoises, sizeof *q->names);
+		q->shift = copy_of(q->shift, q->nnoises, sizeof *q->shift);
+	}
+	dst->relations = copy_of(src->relations, src->nrelations, sizeof *src->relations);
+}
+
+void model_snapshot_take(const model *m, model_snapshot *snapshot)
+{
+	model_copy(&snapshot->copy, m);
+	snapshot->mark = expr_sym_mark(m->ctx);
+}
+
+void model_snapshot_restore(model *m, model_snapshot *snapshot)
+{
+	model_free(m);
+	*m = snapshot->copy;
+	expr_sym_undo(m->ctx, snapshot->mark);
+}
+
+void model_snapshot_drop(model *m, model_snapshot *snapshot)
+{
+	model_free(&snapshot->copy);
+	expr_sym_keep(m->ctx, snapshot->mark);
+}

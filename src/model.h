@@ -109,5 +109,21 @@ const char *model_rel_text(model_rel op);
 
 model_measure *model_measure_find(model *m, const char *name);
 model_measure *model_add_measure(model *m, const char *name);
+void model_remove_measure(model *m, const char *name);
+/* Remove noise index k from every table (its column of the correlations,
+ * of the SDEs' diffusions and of the measures). */
+void model_remove_noise(model *m, size_t k);
+
+/* A model as it was, with its symbols' attributes (signs, ranks, function
+ * arguments): a statement that fails puts it back, so it leaves the model
+ * exactly as it found it.  Snapshots nest (a load and its statements); end
+ * each with one restore or drop, the innermost first. */
+typedef struct model_snapshot {
+	model copy;
+	size_t mark; /* of the symbols' journal (expr_sym_mark) */
+} model_snapshot;
+void model_snapshot_take(const model *m, model_snapshot *snapshot);
+void model_snapshot_restore(model *m, model_snapshot *snapshot);
+void model_snapshot_drop(model *m, model_snapshot *snapshot);
 
 #endif

@@ -325,6 +325,9 @@ bool run_load(session *s, const ast_node *st)
 	s->load_depth--;
 	if (status == SESSION_INPUT && !s->status)
 		report(s, SESSION_INPUT, &st->loc, "cannot read '%s'", st->text);
+	else if (status >= SESSION_INPUT && s->load_depth == 0)
+		/* the session puts the model back as it was (run_whole) */
+		note(s, &st->loc, "nothing of '%s' was loaded: the model is as it was before", st->text);
 	raise_status(s, before);
 	return status < SESSION_INPUT;
 }

@@ -184,6 +184,7 @@ int repl_run(session *s, volatile sig_atomic_t *interrupt, bool quiet)
 	memset(&repl, 0, sizeof repl);
 	repl.s = s;
 	repl.interrupt = interrupt;
+	session_set_interactive(s, true);
 	repl.history_path = history_file();
 	if (repl.history_path) {
 		FILE *touch = fopen(repl.history_path, "a");

@@ -3,7 +3,8 @@
  * session.c  the statement table and the run loop
  * diag.c     messages: file:line:column, the line and a caret; suggestions
  * lower.c    syntax to engine values (expressions and differentials)
- * decl.c     declarations: param, assume, noise, corr, func, let, SDEs, measure, state
+ * decl.c     declarations: param, assume, noise, corr, func, let, SDEs
+ * decl-change.c  measure and state; decl-forget.c  forget, declarations made again
  * query.c    queries, claim and check, and the results they hand to the writers
  * persist.c  show, save, load and format
  *
@@ -38,6 +39,9 @@ struct session {
 	size_t length;
 	const char *origin;
 	const model_measure *measure; /* the measure of the current query */
+	const ast_list *run_list;     /* the statements of the source being run */
+	size_t run_index;             /* the one running now */
+	bool interactive;             /* the REPL: a declaration made again replaces the old one */
 	int load_depth;
 	unsigned long claim_count;
 	int fixed_line;           /* for -e statements: messages say -e:N:COLUMN */
@@ -92,6 +96,8 @@ void source_line(const session *s, int line, const char **start, size_t *length)
 /* An error at loc (NULL: none): file:line:column, the line and a caret; raises the status. */
 void report(session *s, int status, const ast_loc *loc, const char *format, ...)
         __attribute__((format(printf, 4, 5)));
+/* A remark at loc (file:line:column: note: ...) that is not an error. */
+void note(session *s, const ast_loc *loc, const char *format, ...) __attribute__((format(printf, 3, 4)));
 /* Report the engine's error (limit, interrupt, division by zero) if one is set. */
 bool engine_failed(session *s, const ast_loc *loc);
 /* A differential that failed (a limit, an interrupt): reported, freed, true. */
@@ -100,6 +106,12 @@ bool differential_failed(session *s, ito_diff *d, const ast_loc *loc);
 const char *suggest(session *s, const char *name);
 /* Report an unknown name, with a suggestion when one is close. */
 void unknown_name(session *s, const ast_loc *loc, const char *name);
+/* Report a name that a declaration uses before it is declared: a
+ * suggestion when one is close, else how to declare it. */
+void undeclared_name(session *s, const ast_loc *loc, const char *name);
+/* Will a later statement of the source being run declare name as a state
+ * (dNAME = ..., state NAME = ...)?  assume and SDEs may name it early. */
+bool declared_later(const session *s, const char *name);
 /* The entry of a name that must be of one kind; NULL after a message. */
 model_entry *lookup_kind(session *s, const ast_loc *loc, const char *name, model_kind kind);
 
@@ -121,6 +133,17 @@ const expr *variable_symbol(session *s, const ast_node *n, const char *verb, con
 bool numeric_value(session *s, const ast_node *n, double *out);
 
 /* ------------------------------------------------------------------ decl.c */
+
+/* Does a declaration made again replace the old one (the REPL, not a
+ * loaded file)?  Otherwise a different definition is an error. */
+bool replaces(const session *s);
+/* Say that a declaration replaced an old one ("replaced the SDE of S"). */
+void replaced(session *s, const char *format, ...) __attribute__((format(printf, 2, 3)));
+/* What uses a declaration ("the SDE of S and the measure Q"), and how many;
+ * NULL when nothing does (decl-forget.c). */
+char *declaration_users(session *s, const model_entry *entry, size_t *count);
+/* dX = ... for a state that has an SDE already (decl-forget.c). */
+bool sde_again(session *s, const ast_node *st, model_entry *entry, bool stratonovich);
 
 /* May name be declared (not reserved, not taken, no clash with a d-name)? */
 bool check_new_name(session *s, const ast_loc *loc, const char *name, bool allow_arg);
@@ -148,6 +171,11 @@ bool run_sde(session *s, const ast_node *st);
 bool run_measure(session *s, const ast_node *st);
 /* state x = FORWARD where X = INVERSE */
 bool run_state(session *s, const ast_node *st);
+
+/* ------------------------------------------------------------------ decl-forget.c */
+
+/* forget NAME: remove a declaration that nothing else uses */
+bool run_forget(session *s, const ast_node *st);
 
 /* ------------------------------------------------------------------ query.c */
 

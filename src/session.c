@@ -129,6 +129,7 @@ static const statement_row statements[AST_KIND_COUNT] = {
         [AST_S_SHOW] = {run_show, false},
         [AST_S_SAVE] = {run_save, false},
         [AST_S_LOAD] = {run_load, false},
+        [AST_S_FORGET] = {run_forget, false},
         [AST_S_FORMAT] = {run_format, false},
         [AST_S_HELP] = {run_help, false},
         [AST_S_QUIT] = {run_quit, false},
@@ -136,9 +137,6 @@ static const statement_row statements[AST_KIND_COUNT] = {
 
 static bool run_statement(session *s, const ast_node *st)
 {
-	expr_clear_error(s->ctx);
-	if (st->kind != AST_S_CORR && !close_corr_block(s))
-		return false;
 	const statement_row *row = &statements[st->kind];
 	if (!row->run) {
 		report(s, SESSION_INPUT, &st->loc, "not a statement");
@@ -147,6 +145,30 @@ static bool run_statement(session *s, const ast_node *st)
 	if (row->needs_complete_model && !model_complete(s, st))
 		return false;
 	return row->run(s, st);
+}
+
+/* Run one statement whole or not at all: one that reports an error (bad
+ * input, a limit, an interrupt) leaves the model, its symbols and the
+ * format exactly as they were before it. */
+static bool run_whole(session *s, const ast_node *st)
+{
+	expr_clear_error(s->ctx);
+	if (st->kind != AST_S_CORR && !close_corr_block(s))
+		return false; /* the run of corr statements was undone as a whole */
+	model_snapshot before;
+	model_snapshot_take(&s->model, &before);
+	session_format format = s->format;
+	int status = s->status;
+	s->status = SESSION_OK;
+	bool ok = run_statement(s, st);
+	if (s->status >= SESSION_INPUT) {
+		model_snapshot_restore(&s->model, &before);
+		s->format = format;
+	} else {
+		model_snapshot_drop(&s->model, &before);
+	}
+	raise_status(s, status);
+	return ok;
 }
 
 /* ------------------------------------------------------------------ running */
@@ -189,6 +211,11 @@ int session_finish(session *s)
 	for (int i = 0; i < 4; i++)
 		writer_finish(s->writers[i]);
 	return s->status;
+}
+
+void session_set_interactive(session *s, bool interactive)
+{
+	s->interactive = interactive;
 }
 
 int session_status(const session *s)
@@ -249,10 +276,17 @@ static void run_statements(session *s, const char *source, size_t length)
 	}
 	ast_list list;
 	ast_parse(source, length, MAX_NESTING, &list);
-	for (size_t i = 0; i < list.n && !s->quit; i++) {
+	/* a file being loaded is applied whole or not at all: none of it
+	 * runs when it does not parse */
+	size_t count = list.error.present && s->load_depth > 0 ? 0 : list.n;
+	const ast_list *outer_list = s->run_list;
+	size_t outer_index = s->run_index;
+	s->run_list = &list;
+	for (size_t i = 0; i < count && !s->quit; i++) {
+		s->run_index = i;
 		if (s->opt.before_statement)
 			s->opt.before_statement(s->opt.hook_data);
-		if (!run_statement(s, list.stmts[i]) && s->status >= SESSION_INPUT)
+		if (!run_whole(s, list.stmts[i]) && s->status >= SESSION_INPUT)
 			break;
 		if (s->opt.interrupt && *s->opt.interrupt) {
 			/* the flag came up after the engine's last poll (while the
@@ -268,6 +302,8 @@ static void run_statements(session *s, const char *source, size_t length)
 	}
 	if (s->status >= SESSION_INPUT)
 		s->corr_block = false; /* the run stopped: its corr statements are not judged */
+	s->run_list = outer_list;
+	s->run_index = outer_index;
 	if (list.error.present && s->status < SESSION_INPUT && !s->quit)
 		report(s, list.error.kind == AST_ERROR_NESTING ? SESSION_LIMIT : SESSION_INPUT,
 		       &list.error.loc, "%s", list.error.message);

@@ -58,6 +58,11 @@ bool session_incomplete(const char *source, size_t length);
  * Returns the final status. */
 int session_finish(session *s);
 
+/* Interactive (the REPL): declaring a state's SDE, a parameter's domain, a
+ * correlation, a let or a measure again replaces the old definition and
+ * says so.  Otherwise (scripts, -e, loaded files) that is an error. */
+void session_set_interactive(session *s, bool interactive);
+
 int session_status(const session *s);
 bool session_quit_requested(const session *s);
 

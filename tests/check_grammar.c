@@ -387,6 +387,7 @@ START_TEST(test_session_commands)
 	PARSES("save \"my model.itox\"; load \"q\\\"x\\\\y\"",
 	       "(S_SAVE \"my model.itox\")\n(S_LOAD \"q\\\"x\\\\y\")");
 	PARSES("load param;quit", "(S_LOAD param)\n(S_QUIT)");
+	PARSES("forget sigma; forget Q", "(S_FORGET sigma)\n(S_FORGET Q)");
 }
 END_TEST
 
@@ -459,7 +460,7 @@ START_TEST(test_keywords)
 		free(got);
 		count++;
 	}
-	ck_assert_uint_eq(count, 35); /* with coefficients, forward, moments */
+	ck_assert_uint_eq(count, 36); /* with forget, coefficients, forward, moments */
 	ck_assert_str_eq(ast_keywords[0], "param");
 	ck_assert_str_eq(ast_keywords[count - 1], "d");
 	ck_assert_str_eq(ast_kind_name(AST_NUM), "NUM");

@@ -15,6 +15,7 @@ int main(void)
 	srunner_add_suite(runner, ball_suite());
 	srunner_add_suite(runner, ratform_suite());
 	srunner_add_suite(runner, rules_suite());
+	srunner_add_suite(runner, session_suite());
 	srunner_run_all(runner, CK_NORMAL);
 	int failed = srunner_ntests_failed(runner);
 	srunner_free(runner);

@@ -14,5 +14,6 @@ Suite *sim_suite(void);
 Suite *ball_suite(void);
 Suite *ratform_suite(void);
 Suite *rules_suite(void);
+Suite *session_suite(void);
 
 #endif
