@@ -91,13 +91,47 @@ static int sign_from_bound(const expr *bound, ast_rel op)
 	}
 }
 
-/* Apply a COND (x > 0, x in [a, b]) to the entry's range and the symbol's sign. */
+static bool add_relation(session *s, const ast_node *written, const expr *lhs, ast_rel op,
+                         const expr *rhs);
+
+/* Narrow one side of the entry's range to bound (strict: > or <; upper: the
+ * upper side).  Of two numeric bounds the tighter stays; a bound that cannot
+ * be compared with the one already there becomes a relation on the name, so
+ * both constraints are kept. */
+static bool narrow_side(session *s, model_entry *entry, const ast_node *cond, const expr *bound,
+                        bool strict, bool upper)
+{
+	const expr **side = upper ? &entry->hi : &entry->lo;
+	bool *side_strict = upper ? &entry->hi_strict : &entry->lo_strict;
+	if (*side && *side != bound) {
+		if (!expr_is_num(*side) || !expr_is_num(bound)) {
+			ast_rel op = upper ? (strict ? REL_LT : REL_LE) : (strict ? REL_GT : REL_GE);
+			return add_relation(s, cond, entry->sym, op, bound);
+		}
+		int cmp = mpq_cmp(expr_num_value(bound), expr_num_value(*side));
+		if (upper ? cmp > 0 : cmp < 0)
+			return true; /* the bound there already is the tighter */
+		if (cmp == 0)
+			strict |= *side_strict;
+	} else if (*side == bound) {
+		strict |= *side_strict;
+	}
+	*side = bound;
+	*side_strict = strict;
+	return true;
+}
+
+/* Apply a COND (x > 0, x in [a, b]) to the entry's range and the symbol's
+ * sign.  The domain only narrows: a condition that leaves no value (param a
+ * > 3 then assume a < 1, or a > 0 then a < 0) is an error, never a silent
+ * change of sign under which what was simplified before would be wrong. */
 static bool apply_condition(session *s, model_entry *entry, const ast_node *cond)
 {
 	if (cond->op == REL_NONE)
 		return true;
 	const expr *lo = NULL, *hi = NULL;
 	int sign = EXPR_SIGN_UNKNOWN;
+	bool ok;
 	if (cond->op == REL_IN) {
 		if (!eval_scalar(s, cond->a->a, &lo) || !eval_scalar(s, cond->a->b, &hi))
 			return false;
@@ -107,35 +141,34 @@ static bool apply_condition(session *s, model_entry *entry, const ast_node *cond
 			       "empty range: the lower bound is above the upper bound");
 			return false;
 		}
-		if (expr_is_num(lo) && mpq_sgn(expr_num_value(lo)) > 0)
-			sign = EXPR_SIGN_POS;
-		else if (expr_is_num(lo) && mpq_sgn(expr_num_value(lo)) == 0)
-			sign = EXPR_SIGN_NONNEG;
-		else if (expr_is_num(hi) && mpq_sgn(expr_num_value(hi)) < 0)
-			sign = EXPR_SIGN_NEG;
-		else if (expr_is_num(hi) && mpq_sgn(expr_num_value(hi)) == 0)
-			sign = EXPR_SIGN_NONPOS;
-		entry->lo = lo;
-		entry->hi = hi;
-		entry->lo_strict = entry->hi_strict = false;
+		sign = sign_from_bound(lo, REL_GE) & sign_from_bound(hi, REL_LE);
+		ok = narrow_side(s, entry, cond, lo, false, false) &&
+		     narrow_side(s, entry, cond, hi, false, true);
 	} else {
 		const expr *bound;
 		if (!eval_scalar(s, cond->a, &bound))
 			return false;
 		sign = sign_from_bound(bound, cond->op);
-		if (cond->op == REL_GT || cond->op == REL_GE) {
-			entry->lo = bound;
-			entry->lo_strict = cond->op == REL_GT;
-		} else {
-			entry->hi = bound;
-			entry->hi_strict = cond->op == REL_LT;
-		}
+		bool upper = cond->op == REL_LT || cond->op == REL_LE;
+		ok = narrow_side(s, entry, cond, bound, cond->op == REL_GT || cond->op == REL_LT, upper);
 	}
-	if (sign != EXPR_SIGN_UNKNOWN) {
-		int old = expr_sym_sign(entry->sym);
-		int combined = old & sign;
-		expr_sym_set_sign(s->ctx, entry->sym, combined ? combined : sign);
+	if (!ok)
+		return false;
+	int combined = expr_sym_sign(entry->sym) & sign;
+	bool empty = combined == 0;
+	if (entry->lo && entry->hi && expr_is_num(entry->lo) && expr_is_num(entry->hi)) {
+		int cmp = mpq_cmp(expr_num_value(entry->lo), expr_num_value(entry->hi));
+		empty |= cmp > 0 || (cmp == 0 && (entry->lo_strict || entry->hi_strict));
 	}
+	if (empty) {
+		report(s, SESSION_INPUT, &cond->loc,
+		       "this leaves no value for '%s': it contradicts what is already assumed of it "
+		       "(show %s lists it)",
+		       entry->name, entry->name);
+		return false;
+	}
+	if (combined != expr_sym_sign(entry->sym))
+		expr_sym_set_sign(s->ctx, entry->sym, combined);
 	return true;
 }
 
