@@ -62,6 +62,7 @@ void report(session *s, int status, const ast_loc *loc, const char *format, ...)
 	vsnprintf(message, sizeof message, format, args);
 	va_end(args);
 	raise_status(s, status);
+	s->reports++;
 	int line = loc ? loc->first_line : 1, column = loc ? loc->first_column : 1;
 	if (s->fixed_line)
 		fprintf(s->opt.err, "%s:%d:%d: error: %s\n", s->origin, s->fixed_line, column, message);

@@ -10,6 +10,7 @@
 #include "expr-internal.h"
 #include "ratform.h"
 
+#include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -474,6 +475,42 @@ bool run_claim(session *s, const ast_node *st)
 	return ok;
 }
 
+/* One numeric option of check (T, steps, paths, seed), range-checked before
+ * it is converted: a double out of range of the integer type is undefined
+ * behaviour (C11 6.3.1.4).  A count or a seed is a whole number a double
+ * holds exactly (at most 2^53); a count that is too much work is the
+ * simulation's limit (steps*paths, exit status 3), not an error here. */
+static bool check_option(session *s, const ast_node *as, double v, check_input *in)
+{
+	const double max_whole = 9007199254740992.0; /* 2^53 */
+	const char *name = as->text;
+	bool whole = v == floor(v) && v <= max_whole;
+	if (strcmp(name, "T") == 0 && v > 0) {
+		in->horizon = v;
+	} else if (strcmp(name, "steps") == 0 && whole && v >= 1) {
+		in->steps = (long)v;
+	} else if (strcmp(name, "paths") == 0 && whole && v >= 2) {
+		in->paths = (long)v;
+	} else if (strcmp(name, "seed") == 0 && whole && v >= 0) {
+		in->seed = (unsigned long)v;
+	} else if (strcmp(name, "T") == 0) {
+		report(s, SESSION_INPUT, &as->a->loc, "T must be a positive number (got %.15g)", v);
+		return false;
+	} else if (strcmp(name, "steps") == 0 || strcmp(name, "paths") == 0 || strcmp(name, "seed") == 0) {
+		int least = strcmp(name, "steps") == 0 ? 1 : strcmp(name, "paths") == 0 ? 2 : 0;
+		report(s, SESSION_INPUT, &as->a->loc,
+		       "%s must be a whole number from %d to 2^53 = 9007199254740992 (got %.15g)", name,
+		       least, v);
+		return false;
+	} else {
+		report(s, SESSION_INPUT, &as->loc,
+		       "over takes T > 0, steps >= 1, paths >= 2 (integers), seed and "
+		       "scheme=euler|milstein");
+		return false;
+	}
+	return true;
+}
+
 bool run_check(session *s, const ast_node *st)
 {
 	model *m = &s->model;
@@ -532,23 +569,9 @@ bool run_check(session *s, const ast_node *st)
 			}
 			continue;
 		}
-		if (!numeric_value(s, as->a, &v)) {
+		if (!numeric_value(s, as->a, &v) || !check_option(s, as, v, &in)) {
 			ok = false;
 			break;
-		}
-		if (strcmp(as->text, "T") == 0 && v > 0)
-			in.horizon = v;
-		else if (strcmp(as->text, "steps") == 0 && v >= 1 && v == (long)v)
-			in.steps = (long)v;
-		else if (strcmp(as->text, "paths") == 0 && v >= 2 && v == (long)v)
-			in.paths = (long)v;
-		else if (strcmp(as->text, "seed") == 0 && v >= 0 && v == (unsigned long)v)
-			in.seed = (unsigned long)v;
-		else {
-			report(s, SESSION_INPUT, &as->loc,
-			       "over takes T > 0, steps >= 1, paths >= 2 (integers), seed and "
-			       "scheme=euler|milstein");
-			ok = false;
 		}
 	}
 	in.symbols = symbols;

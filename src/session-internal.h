@@ -40,6 +40,7 @@ struct session {
 	const model_measure *measure; /* the measure of the current query */
 	int load_depth;
 	unsigned long claim_count;
+	unsigned long reports;    /* errors reported so far (a failed statement says why) */
 	int fixed_line;           /* for -e statements: messages say -e:N:COLUMN */
 	bool in_sde;              /* evaluating an SDE's right side: assumed states may appear */
 	bool abbreviate;          /* print let names for their definitions in results */

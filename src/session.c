@@ -143,7 +143,15 @@ static bool run_statement(session *s, const ast_node *st)
 	}
 	if (row->needs_complete_model && !model_complete(s, st))
 		return false;
-	return row->run(s, st);
+	unsigned long reports = s->reports;
+	bool ok = row->run(s, st);
+	/* a handler that leaves an engine error (a limit, an interrupt) in the
+	 * context has failed, whatever it returned; one that fails must say why */
+	if (engine_failed(s, &st->loc))
+		ok = false;
+	else if (!ok && s->reports == reports)
+		report(s, SESSION_LIMIT, &st->loc, "the statement failed without a reason (please report this)");
+	return ok;
 }
 
 /* ------------------------------------------------------------------ running */
