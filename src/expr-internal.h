@@ -67,6 +67,7 @@ struct expr_ctx {
 	struct expr_arena_chunk *arena;
 	char *arena_next;
 	size_t arena_left;
+	size_t bytes; /* arena chunks, intern table and memo (limits.max_bytes) */
 };
 
 /* A map from node pointers to node pointers (open addressing). */

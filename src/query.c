@@ -149,6 +149,28 @@ static const expr *settle_zero(session *s, const expr *e)
 	return e;
 }
 
+/* Is the result short enough to print?  The estimate of its length written
+ * out is taken before any printing: a derivative of a deeply nested
+ * expression can be a small graph of shared nodes that writes out to
+ * hundreds of megabytes, and building its display would take gigabytes. */
+static bool within_output_budget(session *s, const stmt_result *r, const ast_node *st)
+{
+	size_t budget = session_output_limit(s), length = 0;
+	const expr *parts[] = {r->of, r->of2, r->value, r->diff.dt};
+	for (size_t i = 0; i < sizeof parts / sizeof *parts; i++)
+		length += prn_length_estimate(parts[i], r->abbrev, budget + 1);
+	for (size_t k = 0; r->diff.dw && k < r->diff.n && length <= budget; k++)
+		length += prn_length_estimate(r->diff.dw[k], r->abbrev, budget + 1);
+	if (length <= budget)
+		return true;
+	report(s, SESSION_LIMIT, &st->loc,
+	       "result too long to print (written out term by term it is over the output budget of "
+	       "%zu bytes; raise it with "
+	       "--output-limit=BYTES)",
+	       budget);
+	return false;
+}
+
 /* Hand the result to the writer; a format that cannot write it is an error
  * of the statement. */
 bool result_emit(session *s, pending *p, const ast_node *st)
@@ -163,8 +185,10 @@ bool result_emit(session *s, pending *p, const ast_node *st)
 		p->r.diff.dw = dw;
 	}
 	char *error = NULL;
-	bool ok = writer_write(current_writer(s), &p->r, &error);
-	if (!ok) {
+	bool ok = within_output_budget(s, &p->r, st);
+	if (ok)
+		ok = writer_write(current_writer(s), &p->r, &error);
+	if (!ok && error) {
 		report(s, SESSION_INPUT, &st->loc, "%s", error);
 		free(error);
 	}

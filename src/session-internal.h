@@ -62,6 +62,12 @@ typedef struct source_frame {
 	int fixed_line;
 } source_frame;
 
+/* The output budget of one printed result, in bytes. */
+static inline size_t session_output_limit(const session *s)
+{
+	return s->opt.output_limit ? s->opt.output_limit : SESSION_OUTPUT_LIMIT;
+}
+
 /* An evaluated expression: a number-valued expression or a differential. */
 typedef struct value {
 	bool is_diff;

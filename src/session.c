@@ -169,6 +169,7 @@ session *session_new(const session_options *options)
 	xalloc_use_for_gmp();
 	s->ctx = expr_ctx_new();
 	expr_ctx_limits(s->ctx)->interrupt = options->interrupt;
+	expr_ctx_limits(s->ctx)->max_bytes = options->memory_limit ? options->memory_limit : SESSION_MEMORY_LIMIT;
 	model_init(&s->model, s->ctx);
 	expr_sym_set_rank(s->ctx, s->model.time, PRN_RANK_TIME);
 	return s;
