@@ -36,7 +36,21 @@ static writer *current_writer(session *s)
 /* Plain text of an expression, every let spelled out (show, save, messages). */
 char *text_expr(session *s, const expr *e)
 {
+	size_t budget = session_output_limit(s);
+	if (prn_length_estimate(e, NULL, budget + 1) > budget) {
+		s->text_too_long = true; /* show and save refuse; a message shows the mark */
+		return xstrdup("(too long to write out)");
+	}
 	return prn_expr(s->ctx, e, PRN_TEXT);
+}
+
+/* The error of a result over the output budget. */
+void report_output_budget(session *s, const ast_node *st, const char *what)
+{
+	report(s, SESSION_LIMIT, &st->loc,
+	       "%s too long to print (written out term by term it is over the output budget of "
+	       "%zu bytes; raise it with --output-limit=BYTES)",
+	       what, session_output_limit(s));
 }
 
 /* The source text of a node, for C comments. */
@@ -163,11 +177,7 @@ static bool within_output_budget(session *s, const stmt_result *r, const ast_nod
 		length += prn_length_estimate(r->diff.dw[k], r->abbrev, budget + 1);
 	if (length <= budget)
 		return true;
-	report(s, SESSION_LIMIT, &st->loc,
-	       "result too long to print (written out term by term it is over the output budget of "
-	       "%zu bytes; raise it with "
-	       "--output-limit=BYTES)",
-	       budget);
+	report_output_budget(s, st, "result");
 	return false;
 }
 

@@ -40,6 +40,7 @@ struct session {
 	const model_measure *measure; /* the measure of the current query */
 	int load_depth;
 	unsigned long claim_count;
+	bool text_too_long;       /* text_expr met an expression over the output budget */
 	unsigned long reports;    /* errors reported so far (a failed statement says why) */
 	int fixed_line;           /* for -e statements: messages say -e:N:COLUMN */
 	bool in_sde;              /* evaluating an SDE's right side: assumed states may appear */
@@ -160,6 +161,8 @@ bool run_state(session *s, const ast_node *st);
 
 /* Plain text of an expression, every let spelled out (show, save, messages). */
 char *text_expr(session *s, const expr *e);
+/* An error: the named thing is over the output budget (exit status 3). */
+void report_output_budget(session *s, const ast_node *st, const char *what);
 /* Start a result of statement st: its place, measure and abbreviations. */
 void result_start(session *s, pending *p, result_kind kind, const ast_node *st);
 /* Hand the result to the current writer and free p; false after reporting. */
