@@ -170,7 +170,7 @@ static const expr *settle_zero(session *s, const expr *e)
 static bool within_output_budget(session *s, const stmt_result *r, const ast_node *st)
 {
 	size_t budget = session_output_limit(s), length = 0;
-	const expr *parts[] = {r->of, r->of2, r->value, r->diff.dt};
+	const expr *parts[] = {r->of, r->of2, r->value, r->diff.dt, r->claim ? r->claim->difference : NULL};
 	for (size_t i = 0; i < sizeof parts / sizeof *parts; i++)
 		length += prn_length_estimate(parts[i], r->abbrev, budget + 1);
 	for (size_t k = 0; r->diff.dw && k < r->diff.n && length <= budget; k++)
