@@ -62,6 +62,7 @@ void report(session *s, int status, const ast_loc *loc, const char *format, ...)
 	vsnprintf(message, sizeof message, format, args);
 	va_end(args);
 	raise_status(s, status);
+	s->reports++;
 	int line = loc ? loc->first_line : 1, column = loc ? loc->first_column : 1;
 	if (s->fixed_line)
 		fprintf(s->opt.err, "%s:%d:%d: error: %s\n", s->origin, s->fixed_line, column, message);
@@ -118,6 +119,10 @@ bool engine_failed(session *s, const ast_loc *loc)
 		       s->opt.time_limit);
 	else if (kind == EXPR_ERR_INTERRUPTED)
 		report(s, SESSION_LIMIT, loc, "interrupted");
+	else if (kind == EXPR_ERR_MEMORY)
+		report(s, SESSION_LIMIT, loc,
+		       "memory budget exceeded (%zu MiB for expressions; raise it with --memory-limit=MIB)",
+		       expr_ctx_limits(s->ctx)->max_bytes >> 20);
 	else if (expr_error_nodes(s->ctx, &a, &b)) {
 		/* the message names nodes: print them (the library does not) */
 		char *ta = prn_expr(s->ctx, a, PRN_TEXT), *tb = prn_expr(s->ctx, b, PRN_TEXT);

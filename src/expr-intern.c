@@ -40,6 +40,7 @@ static void *arena_alloc(expr_ctx *ctx, size_t bytes)
 		size = size > ARENA_MAX ? ARENA_MAX : size;
 		size = size < bytes ? bytes : size;
 		arena_chunk *chunk = xmalloc(sizeof *chunk + size);
+		ctx->bytes += sizeof *chunk + size;
 		chunk->prev = ctx->arena;
 		ctx->arena = chunk;
 		ctx->arena_next = (char *)chunk->data;
@@ -152,6 +153,7 @@ static void table_grow(expr_ctx *ctx)
 		table[slot] = e;
 	}
 	free(ctx->table);
+	ctx->bytes += (capacity - ctx->capacity) * sizeof *table;
 	ctx->table = table;
 	ctx->capacity = capacity;
 }
@@ -219,6 +221,8 @@ const expr *expr_intern(expr_ctx *ctx, expr *candidate)
 	}
 	if (ctx->limits.max_nodes && ctx->count >= ctx->limits.max_nodes)
 		return expr_fail(ctx, EXPR_ERR_TOO_LARGE, "expression too large (node limit reached)");
+	if (ctx->limits.max_bytes && ctx->bytes >= ctx->limits.max_bytes)
+		return expr_fail(ctx, EXPR_ERR_MEMORY, "memory budget of the expressions spent");
 	candidate->height = node_height(candidate);
 	if (ctx->limits.max_height && candidate->height > ctx->limits.max_height)
 		return expr_fail(ctx, EXPR_ERR_DEPTH,
@@ -333,6 +337,11 @@ size_t expr_node_count(const expr_ctx *ctx)
 	return ctx->count;
 }
 
+size_t expr_ctx_bytes(const expr_ctx *ctx)
+{
+	return ctx->bytes;
+}
+
 expr_error_kind expr_error(const expr_ctx *ctx)
 {
 	return ctx->error;
@@ -422,6 +431,7 @@ void expr_memo_put(expr_ctx *ctx, int tag, const void *a, const void *b, const e
 				table[memo_slot(table, capacity, old->tag, old->a, old->b)] = *old;
 		}
 		free(ctx->memo);
+		ctx->bytes += (capacity - ctx->memo_capacity) * sizeof *table;
 		ctx->memo = table;
 		ctx->memo_capacity = capacity;
 	}

@@ -71,6 +71,7 @@ struct expr_ctx {
 	struct expr_sym_record *journal;
 	size_t journal_n, journal_cap;
 	int journal_depth;
+	size_t bytes; /* arena chunks, intern table and memo (limits.max_bytes) */
 };
 
 /* A map from node pointers to node pointers (open addressing). */

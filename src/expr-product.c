@@ -399,6 +399,8 @@ static const expr *divide_exactly(expr_ctx *ctx, const expr *term, const expr *m
 				goto out;
 			exponent = expr_sub(ctx, exponent, me[j]);
 			j++;
+			if (!exponent)
+				goto out; /* a limit: the caller sees NULL */
 			if (expr_is_zero(exponent))
 				continue;
 			/* a power left over on these bases may need the full rules */

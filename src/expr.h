@@ -68,6 +68,7 @@ typedef enum expr_error_kind {
 	EXPR_ERR_INTERRUPTED, /* the interrupt flag was raised */
 	EXPR_ERR_DEPTH,	      /* nesting too deep */
 	EXPR_ERR_DOMAIN,      /* a rule or formula used outside its domain (bad input) */
+	EXPR_ERR_MEMORY,      /* the memory budget of the context is spent */
 } expr_error_kind;
 
 /* Sign knowledge, as bit flags. */
@@ -83,6 +84,7 @@ typedef struct expr_limits {
 	unsigned long max_bits;	     /* bits of a number produced by a power */
 	long max_exponent;	     /* largest integer exponent expanded or kept */
 	unsigned max_height;	     /* deepest tree (the recursive walks use the stack) */
+	size_t max_bytes;	     /* memory of nodes, intern table and memo; 0: none */
 	volatile sig_atomic_t *interrupt; /* polled in long loops; may be NULL */
 } expr_limits;
 
@@ -90,6 +92,7 @@ expr_ctx *expr_ctx_new(void);
 void expr_ctx_free(expr_ctx *ctx);
 expr_limits *expr_ctx_limits(expr_ctx *ctx);
 size_t expr_node_count(const expr_ctx *ctx);
+size_t expr_ctx_bytes(const expr_ctx *ctx); /* the memory max_bytes bounds */
 
 expr_error_kind expr_error(const expr_ctx *ctx);
 const char *expr_error_message(const expr_ctx *ctx);

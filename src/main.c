@@ -1,8 +1,11 @@
 /* main.c - the itox program: command line, scripts, -e statements, the REPL. */
 #include <config.h>
 
+#include <errno.h>
 #include <getopt.h>
 #include <signal.h>
+#include <stdbool.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -44,6 +47,18 @@ static void arm_timer(void *data)
 	setitimer(ITIMER_REAL, &timer, NULL);
 }
 
+/* A budget given as a positive whole number of units of 2^shift bytes. */
+static bool parse_budget(const char *text, int shift, size_t *bytes)
+{
+	char *end;
+	errno = 0;
+	unsigned long long n = strtoull(text, &end, 10);
+	if (errno || end == text || *end || *text == '-' || n == 0 || n > (SIZE_MAX >> shift))
+		return false;
+	*bytes = (size_t)n << shift;
+	return true;
+}
+
 static void usage(FILE *out)
 {
 	fputs("Usage: itox [OPTION]... [FILE]...\n"
@@ -58,12 +73,14 @@ static void usage(FILE *out)
 	      "      --standalone    with latex: a whole document     itox --format=latex --standalone m.itox\n"
 	      "      --seed=N        seed of the random tests         itox --seed=7 claims.itox\n"
 	      "      --time-limit=S  seconds allowed per statement    itox --time-limit=10 big.itox\n"
+	      "      --memory-limit=M MiB for expressions (1024)   itox --memory-limit=4096 big.itox\n"
+	      "      --output-limit=N bytes of a result (10^7)     itox --output-limit=100000000 big.itox\n"
 	      "      --quiet         no banner in the REPL            itox --quiet\n"
 	      "      --help          this text                        itox --help\n"
 	      "      --version       the version                      itox --version\n"
 	      "\n"
 	      "Exit status: 0 all went well and every claim held; 1 a claim or check failed;\n"
-	      "2 an error in the input; 3 an internal limit (size, time) was hit.\n"
+	      "2 an error in the input; 3 a limit (size, time, memory, output) was hit.\n"
 	      "\n"
 	      "Results are mathematics, not advice: a model's assumptions must be validated and\n"
 	      "results reviewed under your own model-risk policy before they price or hedge anything.\n",
@@ -72,7 +89,8 @@ static void usage(FILE *out)
 
 int main(int argc, char **argv)
 {
-	enum { OPT_FORMAT = 256, OPT_SEED, OPT_QUIET, OPT_HELP, OPT_VERSION, OPT_TIME, OPT_STANDALONE };
+	enum { OPT_FORMAT = 256, OPT_SEED, OPT_QUIET, OPT_HELP, OPT_VERSION, OPT_TIME, OPT_STANDALONE,
+	       OPT_MEMORY, OPT_OUTPUT };
 	static const struct option options[] = {
 		{"format", required_argument, NULL, OPT_FORMAT},
 		{"seed", required_argument, NULL, OPT_SEED},
@@ -81,6 +99,8 @@ int main(int argc, char **argv)
 		{"help", no_argument, NULL, OPT_HELP},
 		{"version", no_argument, NULL, OPT_VERSION},
 		{"time-limit", required_argument, NULL, OPT_TIME},
+		{"memory-limit", required_argument, NULL, OPT_MEMORY},
+		{"output-limit", required_argument, NULL, OPT_OUTPUT},
 		{NULL, 0, NULL, 0},
 	};
 	session_options opt = {0};
@@ -130,6 +150,18 @@ int main(int argc, char **argv)
 			time_limit = strtod(optarg, &end);
 			if (*end || !(time_limit > 0)) {
 				fprintf(stderr, "itox: --time-limit needs a positive number of seconds, not '%s'\n", optarg);
+				free(inputs);
+				return 2;
+			}
+			break;
+		}
+		case OPT_MEMORY:
+		case OPT_OUTPUT: {
+			size_t *budget = c == OPT_MEMORY ? &opt.memory_limit : &opt.output_limit;
+			if (!parse_budget(optarg, c == OPT_MEMORY ? 20 : 0, budget)) {
+				fprintf(stderr, "itox: --%s needs a positive whole number of %s, not '%s'\n",
+				        c == OPT_MEMORY ? "memory-limit" : "output-limit",
+				        c == OPT_MEMORY ? "MiB" : "bytes", optarg);
 				free(inputs);
 				return 2;
 			}

@@ -222,13 +222,20 @@ static void dump_model_body(session *s, xbuf *out, const char *only)
 	}
 }
 
-/* The same, every let spelled out: the script must not depend on the lets. */
-static void dump_model(session *s, xbuf *out, const char *only)
+/* The same, every let spelled out: the script must not depend on the lets.
+ * False after reporting when an expression is over the output budget (a
+ * chain of let can spell out to gigabytes). */
+static bool dump_model(session *s, xbuf *out, const char *only, const ast_node *st)
 {
 	bool keep_abbreviate = s->abbreviate;
 	s->abbreviate = false;
+	s->text_too_long = false;
 	dump_model_body(s, out, only);
 	s->abbreviate = keep_abbreviate;
+	if (!s->text_too_long)
+		return true;
+	report_output_budget(s, st, "the model is");
+	return false;
 }
 
 bool run_show(session *s, const ast_node *st)
@@ -239,7 +246,10 @@ bool run_show(session *s, const ast_node *st)
 		return false;
 	}
 	xbuf script = {0};
-	dump_model(s, &script, st->text);
+	if (!dump_model(s, &script, st->text, st)) {
+		xbuf_free(&script);
+		return false;
+	}
 	/* the states' SDEs as they were declared, for the formats that list them */
 	stmt_result *sdes = xcalloc(m->nsdes + 1, sizeof *sdes);
 	ito_diff *diffs = xcalloc(m->nsdes + 1, sizeof *diffs);
@@ -291,13 +301,17 @@ bool run_save(session *s, const ast_node *st)
 		report(s, SESSION_INPUT, &st->loc, "save is disabled in this session");
 		return false;
 	}
+	xbuf buf = {0};
+	if (!dump_model(s, &buf, NULL, st)) {
+		xbuf_free(&buf);
+		return false;
+	}
 	FILE *file = fopen(st->text, "w");
 	if (!file) {
+		xbuf_free(&buf);
 		report(s, SESSION_INPUT, &st->loc, "cannot write '%s'", st->text);
 		return false;
 	}
-	xbuf buf = {0};
-	dump_model(s, &buf, NULL);
 	fprintf(file, "# itox session saved as a script\n%s", buf.data ? buf.data : "");
 	if (s->format != FORMAT_TEXT)
 		fprintf(file, "format %s\n", format_names[s->format]);

@@ -336,8 +336,9 @@ static dnode *product_display(printer *p, const expr *factor, const expr *inner)
 	bool all_negative = inner->kind == EXPR_ADD;
 	for (size_t i = 0; all_negative && i < inner->nops; i++)
 		all_negative = simp_negative_form(inner->u.add.terms[i]);
-	if (all_negative) {
-		inner = expr_neg(p->ctx, inner);
+	const expr *negative = all_negative ? expr_neg(p->ctx, inner) : NULL;
+	if (negative) {
+		inner = negative;
 		mpq_neg(d->num, d->num);
 	}
 	absorb(p, d, factor, 0);

@@ -4,6 +4,7 @@
 #include "print.h"
 
 #include <ctype.h>
+#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -218,4 +219,107 @@ void prn_json_string(xbuf *buf, const char *text)
 		}
 	}
 	xbuf_putc(buf, '"');
+}
+
+/* ------------------------------------------------------------------ length */
+
+/* The memo of prn_length_estimate: node -> its length (open addressing). */
+typedef struct length_memo {
+	const expr **keys;
+	size_t *lengths;
+	size_t count, capacity;
+} length_memo;
+
+static size_t *length_slot(length_memo *memo, const expr *e)
+{
+	if ((memo->count + 1) * 2 >= memo->capacity) {
+		length_memo grown = {xcalloc(memo->capacity ? 2 * memo->capacity : 256, sizeof *grown.keys), NULL,
+		                     0, memo->capacity ? 2 * memo->capacity : 256};
+		grown.lengths = xcalloc(grown.capacity, sizeof *grown.lengths);
+		for (size_t i = 0; i < memo->capacity; i++)
+			if (memo->keys[i])
+				*length_slot(&grown, memo->keys[i]) = memo->lengths[i];
+		free(memo->keys);
+		free(memo->lengths);
+		*memo = grown;
+	}
+	size_t slot = (size_t)(((uintptr_t)e >> 4) * 0x9e3779b97f4a7c15u) & (memo->capacity - 1);
+	while (memo->keys[slot] && memo->keys[slot] != e)
+		slot = (slot + 1) & (memo->capacity - 1);
+	if (!memo->keys[slot]) {
+		memo->keys[slot] = e;
+		memo->lengths[slot] = SIZE_MAX; /* not known yet */
+		memo->count++;
+	}
+	return &memo->lengths[slot];
+}
+
+/* a + b, saturating at the cap */
+static size_t add_capped(size_t a, size_t b, size_t cap)
+{
+	return a >= cap || b >= cap || a + b >= cap ? cap : a + b;
+}
+
+static size_t digits(mpz_srcptr z)
+{
+	size_t n = mpz_sizeinbase(z, 10); /* exact or one too many */
+	return n > 1 ? n - 1 : 1;
+}
+
+static size_t length_of(const expr *e, const prn_abbrev *abbrev, size_t cap, length_memo *memo, bool top)
+{
+	if (abbrev && !top && e->kind != EXPR_NUM && e->kind != EXPR_SYM)
+		for (size_t i = 0; i < abbrev->n; i++)
+			if (abbrev->nodes[i] == e)
+				return strlen(abbrev->names[i]);
+	size_t *known = length_slot(memo, e);
+	if (*known != SIZE_MAX)
+		return *known;
+	size_t n = 0;
+	switch (e->kind) {
+	case EXPR_NUM:
+		n = digits(mpq_numref(e->u.num));
+		if (mpz_cmp_ui(mpq_denref(e->u.num), 1) != 0)
+			n += 1 + digits(mpq_denref(e->u.num));
+		break;
+	case EXPR_SYM:
+		n = strlen(e->u.sym.name);
+		break;
+	case EXPR_FUN:
+		n = add_capped(strlen(expr_builtin_name(e->u.fun.fn)) + 2,
+		               length_of(e->u.fun.arg, abbrev, cap, memo, false), cap);
+		break;
+	case EXPR_FAPP:
+		n = strlen(e->u.fapp.func->u.sym.name);
+		break;
+	case EXPR_ADD:
+		n = e->nops - 1;
+		for (size_t i = 0; i < e->nops && n < cap; i++)
+			n = add_capped(n, length_of(e->u.add.terms[i], abbrev, cap, memo, false), cap);
+		break;
+	case EXPR_MUL:
+		n = e->nops - 1;
+		for (size_t i = 0; i < e->nops && n < cap; i++) {
+			n = add_capped(n, length_of(e->u.mul.bases[i], abbrev, cap, memo, false), cap);
+			const expr *x = e->u.mul.exps[i];
+			if (!(x->kind == EXPR_NUM && mpz_cmpabs_ui(mpq_numref(x->u.num), 1) == 0 &&
+			      mpz_cmp_ui(mpq_denref(x->u.num), 1) == 0))
+				n = add_capped(n, length_of(x, abbrev, cap, memo, false), cap);
+		}
+		break;
+	}
+	/* the slot may have moved while the operands were measured */
+	*length_slot(memo, e) = n;
+	return n;
+}
+
+size_t prn_length_estimate(const expr *e, const prn_abbrev *abbrev, size_t cap)
+{
+	if (!e)
+		return 0;
+	length_memo memo = {0};
+	size_t n = length_of(e, abbrev, cap, &memo, true);
+	free(memo.keys);
+	free(memo.lengths);
+	return n;
 }

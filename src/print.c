@@ -678,6 +678,16 @@ static void emit(printer *p, xbuf *out, const dnode *d)
 	}
 }
 
+/* Printing is not interrupted: the grouping calls the constructors, which
+ * would fail half way (the output budget bounds the work instead).  Returns
+ * the interrupt flag to put back. */
+static volatile sig_atomic_t *hold_interrupt(expr_ctx *ctx)
+{
+	volatile sig_atomic_t *interrupt = expr_ctx_limits(ctx)->interrupt;
+	expr_ctx_limits(ctx)->interrupt = NULL;
+	return interrupt;
+}
+
 char *prn_expr(expr_ctx *ctx, const expr *e, prn_format format)
 {
 	return prn_expr_abbrev(ctx, e, format, NULL);
@@ -698,10 +708,12 @@ char *prn_expr_c(expr_ctx *ctx, const expr *e, prn_format format, const prn_abbr
 		p.format = PRN_LATEX;
 		p.plain_states = true;
 	}
+	volatile sig_atomic_t *interrupt = hold_interrupt(ctx);
 	dnode *d = prn_build_top(&p, e);
 	xbuf out = {0};
 	emit(&p, &out, d);
 	prn_printer_free(&p);
+	expr_ctx_limits(ctx)->interrupt = interrupt;
 	return xbuf_take(&out);
 }
 
@@ -722,9 +734,10 @@ static void emit_term(printer *p, xbuf *out, const expr *c, const char *incremen
 		bool all_negative = true;
 		for (size_t i = 0; i < d->n && all_negative; i++)
 			all_negative = d->items[i]->kind == D_NEG;
-		if (all_negative) {
+		const expr *minus_c = all_negative ? expr_neg(p->ctx, c) : NULL;
+		if (minus_c) {
 			negative = true;
-			d = prn_build_top(p, expr_neg(p->ctx, c));
+			d = prn_build_top(p, minus_c);
 		}
 	}
 	xbuf_put(out, first ? (negative ? "-" : "") : (negative ? " - " : " + "));
@@ -749,6 +762,7 @@ char *prn_differential(expr_ctx *ctx, const prn_diff *diff, prn_format format, c
 	bool latex = p.format == PRN_LATEX;
 	xbuf out = {0};
 	bool first = true;
+	volatile sig_atomic_t *interrupt = hold_interrupt(ctx);
 	if (diff->dt && !expr_is_zero(diff->dt)) {
 		emit_term(&p, &out, diff->dt, latex ? "\\mathrm{d}t" : "dt", first);
 		first = false;
@@ -773,5 +787,6 @@ char *prn_differential(expr_ctx *ctx, const prn_diff *diff, prn_format format, c
 	if (first)
 		xbuf_put(&out, "0");
 	prn_printer_free(&p);
+	expr_ctx_limits(ctx)->interrupt = interrupt;
 	return xbuf_take(&out);
 }

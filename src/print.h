@@ -58,6 +58,12 @@ char *prn_expr_c(expr_ctx *ctx, const expr *e, prn_format format, const prn_abbr
 /* Is e a generic function at its declared arguments (f_x, written without them)? */
 bool prn_fapp_declared(const expr *e);
 
+/* A lower estimate of the length of e written out in text (names, numbers
+ * and one separator between operands, each occurrence of a shared node
+ * counted), capped at cap; the printers' work grows with it.  Nodes of the
+ * abbreviations count as their names. */
+size_t prn_length_estimate(const expr *e, const prn_abbrev *abbrev, size_t cap);
+
 /* The plain printer: canonical order, no grouping (for debugging and tests). */
 char *prn_expr_flat(expr_ctx *ctx, const expr *e);
 

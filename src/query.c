@@ -10,6 +10,7 @@
 #include "expr-internal.h"
 #include "ratform.h"
 
+#include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -35,7 +36,21 @@ static writer *current_writer(session *s)
 /* Plain text of an expression, every let spelled out (show, save, messages). */
 char *text_expr(session *s, const expr *e)
 {
+	size_t budget = session_output_limit(s);
+	if (prn_length_estimate(e, NULL, budget + 1) > budget) {
+		s->text_too_long = true; /* show and save refuse; a message shows the mark */
+		return xstrdup("(too long to write out)");
+	}
 	return prn_expr(s->ctx, e, PRN_TEXT);
+}
+
+/* The error of a result over the output budget. */
+void report_output_budget(session *s, const ast_node *st, const char *what)
+{
+	report(s, SESSION_LIMIT, &st->loc,
+	       "%s too long to print (written out term by term it is over the output budget of "
+	       "%zu bytes; raise it with --output-limit=BYTES)",
+	       what, session_output_limit(s));
 }
 
 /* The source text of a node, for C comments. */
@@ -152,6 +167,24 @@ static const expr *settle(session *s, const expr *e)
 	return expr_size(r) < expr_size(e) ? r : e;
 }
 
+/* Is the result short enough to print?  The estimate of its length written
+ * out is taken before any printing: a derivative of a deeply nested
+ * expression can be a small graph of shared nodes that writes out to
+ * hundreds of megabytes, and building its display would take gigabytes. */
+static bool within_output_budget(session *s, const stmt_result *r, const ast_node *st)
+{
+	size_t budget = session_output_limit(s), length = 0;
+	const expr *parts[] = {r->of, r->of2, r->value, r->diff.dt, r->claim ? r->claim->difference : NULL};
+	for (size_t i = 0; i < sizeof parts / sizeof *parts; i++)
+		length += prn_length_estimate(parts[i], r->abbrev, budget + 1);
+	for (size_t k = 0; r->diff.dw && k < r->diff.n && length <= budget; k++)
+		length += prn_length_estimate(r->diff.dw[k], r->abbrev, budget + 1);
+	if (length <= budget)
+		return true;
+	report_output_budget(s, st, "result");
+	return false;
+}
+
 /* Hand the result to the writer; a format that cannot write it is an error
  * of the statement. */
 bool result_emit(session *s, pending *p, const ast_node *st)
@@ -166,8 +199,10 @@ bool result_emit(session *s, pending *p, const ast_node *st)
 		p->r.diff.dw = dw;
 	}
 	char *error = NULL;
-	bool ok = writer_write(current_writer(s), &p->r, &error);
-	if (!ok) {
+	bool ok = within_output_budget(s, &p->r, st);
+	if (ok)
+		ok = writer_write(current_writer(s), &p->r, &error);
+	if (!ok && error) {
 		report(s, SESSION_INPUT, &st->loc, "%s", error);
 		free(error);
 	}
@@ -508,6 +543,42 @@ bool run_claim(session *s, const ast_node *st)
 	return ok;
 }
 
+/* One numeric option of check (T, steps, paths, seed), range-checked before
+ * it is converted: a double out of range of the integer type is undefined
+ * behaviour (C11 6.3.1.4).  A count or a seed is a whole number a double
+ * holds exactly (at most 2^53); a count that is too much work is the
+ * simulation's limit (steps*paths, exit status 3), not an error here. */
+static bool check_option(session *s, const ast_node *as, double v, check_input *in)
+{
+	const double max_whole = 9007199254740992.0; /* 2^53 */
+	const char *name = as->text;
+	bool whole = v == floor(v) && v <= max_whole;
+	if (strcmp(name, "T") == 0 && v > 0) {
+		in->horizon = v;
+	} else if (strcmp(name, "steps") == 0 && whole && v >= 1) {
+		in->steps = (long)v;
+	} else if (strcmp(name, "paths") == 0 && whole && v >= 2) {
+		in->paths = (long)v;
+	} else if (strcmp(name, "seed") == 0 && whole && v >= 0) {
+		in->seed = (unsigned long)v;
+	} else if (strcmp(name, "T") == 0) {
+		report(s, SESSION_INPUT, &as->a->loc, "T must be a positive number (got %.15g)", v);
+		return false;
+	} else if (strcmp(name, "steps") == 0 || strcmp(name, "paths") == 0 || strcmp(name, "seed") == 0) {
+		int least = strcmp(name, "steps") == 0 ? 1 : strcmp(name, "paths") == 0 ? 2 : 0;
+		report(s, SESSION_INPUT, &as->a->loc,
+		       "%s must be a whole number from %d to 2^53 = 9007199254740992 (got %.15g)", name,
+		       least, v);
+		return false;
+	} else {
+		report(s, SESSION_INPUT, &as->loc,
+		       "over takes T > 0, steps >= 1, paths >= 2 (integers), seed and "
+		       "scheme=euler|milstein");
+		return false;
+	}
+	return true;
+}
+
 bool run_check(session *s, const ast_node *st)
 {
 	model *m = &s->model;
@@ -566,23 +637,9 @@ bool run_check(session *s, const ast_node *st)
 			}
 			continue;
 		}
-		if (!numeric_value(s, as->a, &v)) {
+		if (!numeric_value(s, as->a, &v) || !check_option(s, as, v, &in)) {
 			ok = false;
 			break;
-		}
-		if (strcmp(as->text, "T") == 0 && v > 0)
-			in.horizon = v;
-		else if (strcmp(as->text, "steps") == 0 && v >= 1 && v == (long)v)
-			in.steps = (long)v;
-		else if (strcmp(as->text, "paths") == 0 && v >= 2 && v == (long)v)
-			in.paths = (long)v;
-		else if (strcmp(as->text, "seed") == 0 && v >= 0 && v == (unsigned long)v)
-			in.seed = (unsigned long)v;
-		else {
-			report(s, SESSION_INPUT, &as->loc,
-			       "over takes T > 0, steps >= 1, paths >= 2 (integers), seed and "
-			       "scheme=euler|milstein");
-			ok = false;
 		}
 	}
 	in.symbols = symbols;

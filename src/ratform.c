@@ -647,6 +647,13 @@ static const ratform_frac *run_job(ratform_job *j, expr_ctx *ctx, const expr *e)
 		return NULL;
 	collect(j, prepared);
 	number_atoms(j);
+	/* each term of a polynomial stores an exponent for every atom: 900
+	 * nested sin made 1,800 atoms and took 23 GB outside the memory budget */
+	enum { RATFORM_MAX_ATOMS = 200 };
+	if (j->nvars > RATFORM_MAX_ATOMS) {
+		expr_fail(ctx, EXPR_ERR_TOO_LARGE, "expression too large (over 200 atoms for a normal form)");
+		return NULL;
+	}
 	fmpq_mpoly_ctx_init(j->ring, j->nvars > 0 ? j->nvars : 1, ORD_LEX);
 	j->ring_ready = true;
 	if (!ratform_set_relations(j))

@@ -44,6 +44,8 @@ struct session {
 	bool interactive;             /* the REPL: a declaration made again replaces the old one */
 	int load_depth;
 	unsigned long claim_count;
+	bool text_too_long;       /* text_expr met an expression over the output budget */
+	unsigned long reports;    /* errors reported so far (a failed statement says why) */
 	int fixed_line;           /* for -e statements: messages say -e:N:COLUMN */
 	bool in_sde;              /* evaluating an SDE's right side: assumed states may appear */
 	bool abbreviate;          /* print let names for their definitions in results */
@@ -64,6 +66,12 @@ typedef struct source_frame {
 	const char *origin;
 	int fixed_line;
 } source_frame;
+
+/* The output budget of one printed result, in bytes. */
+static inline size_t session_output_limit(const session *s)
+{
+	return s->opt.output_limit ? s->opt.output_limit : SESSION_OUTPUT_LIMIT;
+}
 
 /* An evaluated expression: a number-valued expression or a differential. */
 typedef struct value {
@@ -181,6 +189,8 @@ bool run_forget(session *s, const ast_node *st);
 
 /* Plain text of an expression, every let spelled out (show, save, messages). */
 char *text_expr(session *s, const expr *e);
+/* An error: the named thing is over the output budget (exit status 3). */
+void report_output_budget(session *s, const ast_node *st, const char *what);
 /* Start a result of statement st: its place, measure and abbreviations. */
 void result_start(session *s, pending *p, result_kind kind, const ast_node *st);
 /* Hand the result to the current writer and free p; false after reporting. */

@@ -144,7 +144,15 @@ static bool run_statement(session *s, const ast_node *st)
 	}
 	if (row->needs_complete_model && !model_complete(s, st))
 		return false;
-	return row->run(s, st);
+	unsigned long reports = s->reports;
+	bool ok = row->run(s, st);
+	/* a handler that leaves an engine error (a limit, an interrupt) in the
+	 * context has failed, whatever it returned; one that fails must say why */
+	if (engine_failed(s, &st->loc))
+		ok = false;
+	else if (!ok && s->reports == reports)
+		report(s, SESSION_LIMIT, &st->loc, "the statement failed without a reason (please report this)");
+	return ok;
 }
 
 /* Run one statement whole or not at all: one that reports an error (bad
@@ -186,6 +194,7 @@ session *session_new(const session_options *options)
 	xalloc_use_for_gmp();
 	s->ctx = expr_ctx_new();
 	expr_ctx_limits(s->ctx)->interrupt = options->interrupt;
+	expr_ctx_limits(s->ctx)->max_bytes = options->memory_limit ? options->memory_limit : SESSION_MEMORY_LIMIT;
 	model_init(&s->model, s->ctx);
 	expr_sym_set_rank(s->ctx, s->model.time, PRN_RANK_TIME);
 	return s;

@@ -19,6 +19,11 @@ enum {
 	SESSION_LIMIT = 3,    /* an internal limit was hit */
 };
 
+/* The default budgets: memory for expressions (1 GiB: a laptop affords it),
+ * and the length of one printed result (10 MB: more than anyone reads). */
+#define SESSION_MEMORY_LIMIT ((size_t)1 << 30)
+#define SESSION_OUTPUT_LIMIT ((size_t)10000000)
+
 typedef enum session_format { FORMAT_TEXT, FORMAT_LATEX, FORMAT_C, FORMAT_JSON } session_format;
 
 typedef struct session_options {
@@ -32,6 +37,8 @@ typedef struct session_options {
 	void (*before_statement)(void *data);	/* e.g. arm the time limit; may be NULL */
 	bool no_files;				/* refuse save and load (fuzzing, sandboxes) */
 	long max_simulation;			/* limit on steps*paths of check; 0: default */
+	size_t memory_limit;			/* bytes of symbolic work; 0: SESSION_MEMORY_LIMIT */
+	size_t output_limit;			/* bytes of one printed result; 0: SESSION_OUTPUT_LIMIT */
 	void *hook_data;
 } session_options;
 

@@ -6,7 +6,7 @@ ITOX=${ITOX:-./itox}
 src=${ITOX_SRCDIR:-.}
 fail=0
 help_text=$("$ITOX" --help)
-for option in -e --format --seed --time-limit --quiet --help --version; do
+for option in -e --format --seed --time-limit --memory-limit --output-limit --quiet --help --version; do
 	printf '%s\n' "$help_text" | grep -q -- "$option" || { echo "--help does not mention $option"; fail=1; }
 done
 # the reserved words, from the grammar's single keyword list
