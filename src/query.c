@@ -447,7 +447,7 @@ bool run_expr_statement(session *s, const ast_node *st)
 
 bool run_claim(session *s, const ast_node *st)
 {
-	verify_claim_input in = {0};
+	verify_claim_input in = {.points = s->opt.claim_points};
 	const ast_node *lhs = st->a;
 	value left = {0}, right = {0};
 	bool ok = true;

@@ -37,6 +37,7 @@ typedef struct session_options {
 	void (*before_statement)(void *data);	/* e.g. arm the time limit; may be NULL */
 	bool no_files;				/* refuse save and load (fuzzing, sandboxes) */
 	long max_simulation;			/* limit on steps*paths of check; 0: default */
+	size_t claim_points;			/* points of a claim's numeric test; 0: default (fuzzing: fewer) */
 	size_t memory_limit;			/* bytes of symbolic work; 0: SESSION_MEMORY_LIMIT */
 	size_t output_limit;			/* bytes of one printed result; 0: SESSION_OUTPUT_LIMIT */
 	void *hook_data;

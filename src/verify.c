@@ -143,7 +143,8 @@ static bool rational_counterexample(part_run *r, verify_result *out, int part)
 }
 
 /* Decide one part numerically; returns its verdict and fills out on failure. */
-static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, const char **reason)
+static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, size_t points,
+                                     const char **reason)
 {
 	size_t n = domain_size(r->dom);
 	const expr **atoms = xcalloc(n + 1, sizeof *atoms);
@@ -159,7 +160,7 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 	verify_verdict verdict = VERIFY_HOLDS;
 	size_t tested = 0;
 	*reason = NULL;
-	for (size_t attempt = 0; tested < VERIFY_POINTS && attempt < 6 * VERIFY_POINTS; attempt++) {
+	for (size_t attempt = 0; tested < points && attempt < 6 * points; attempt++) {
 		if (expr_poll_interrupt(r->ctx)) {
 			verdict = VERIFY_UNDECIDED;
 			*reason = "interrupted";
@@ -196,7 +197,7 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 			/* no precision decides this point (exp of a huge argument, a
 			 * domain boundary): it is evidence neither way; another point */
 			out->skipped++;
-			if (out->skipped > VERIFY_POINTS && verdict == VERIFY_HOLDS) {
+			if (out->skipped > points && verdict == VERIFY_HOLDS) {
 				verdict = VERIFY_UNDECIDED;
 				*reason = ball_reason_message(v.reason);
 				out->part = part;
@@ -281,7 +282,7 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		} else {
 			out->method = VERIFY_NUMERIC;
 			const char *reason = NULL;
-			verify_verdict v = decide_numeric(&r, out, (int)p, &reason);
+			verify_verdict v = decide_numeric(&r, out, (int)p, in->points ? in->points : VERIFY_POINTS, &reason);
 			if (v == VERIFY_FAILS) {
 				out->verdict = VERIFY_FAILS;
 			} else if (v == VERIFY_UNDECIDED && undecided_part < 0) {

@@ -24,6 +24,7 @@ typedef struct verify_claim_input {
 	bool is_diff;
 	size_t nparts; /* 1 for expressions; 1 + nnoises for differentials (dt first) */
 	const expr **lhs, **rhs;
+	size_t points; /* points of a numeric decision; 0: VERIFY_POINTS (fewer only for fuzzing) */
 } verify_claim_input;
 
 typedef enum verify_method { VERIFY_EXACT, VERIFY_NUMERIC } verify_method;

@@ -21,6 +21,14 @@ int fuzz_run(const uint8_t *data, size_t size, FILE *out, FILE *err, const char 
  * (steps*paths): check's default of 1000 steps and 20,000 paths is refused
  * as a limit, a check over steps=10, paths=100 runs. */
 enum { FUZZ_MAX_SIMULATION = 2000 };
+/* A claim's numeric test is the slowest part of most inputs (200 points in
+ * ball arithmetic); the fuzz target tries 4, which still reaches every way
+ * through the test (holds, fails, undecided). */
+enum { FUZZ_CLAIM_POINTS = 4 };
+/* Budgets as in tests/sh/hostile.sh: a printed result of 64 KB, 256 MiB of
+ * expressions (a chain of let doubling at each step is refused early). */
+enum { FUZZ_OUTPUT_LIMIT = 1 << 16 };
+#define FUZZ_MEMORY_LIMIT ((size_t)256 << 20)
 static void fuzz_limits(session *s)
 {
 	expr_limits *limits = expr_ctx_limits(session_expr_ctx(s));
@@ -34,7 +42,8 @@ static void fuzz_limits(session *s)
 int fuzz_run(const uint8_t *data, size_t size, FILE *out, FILE *err, const char *origin)
 {
 	session_options options = {.out = out, .err = err, .seed = 1, .no_files = true,
-				   .max_simulation = FUZZ_MAX_SIMULATION};
+				   .max_simulation = FUZZ_MAX_SIMULATION, .claim_points = FUZZ_CLAIM_POINTS,
+				   .output_limit = FUZZ_OUTPUT_LIMIT, .memory_limit = FUZZ_MEMORY_LIMIT};
 	session *s = session_new(&options);
 	fuzz_limits(s);
 	session_run(s, (const char *)data, size, origin);
