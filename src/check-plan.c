@@ -256,8 +256,37 @@ static bool plan_milstein(check_plan *p, const expr **terms)
 	return true;
 }
 
+const expr *check_plan_concrete(check_plan *p, const expr *e)
+{
+	(void)p;
+	return e;
+}
+
+/* The statistics are of f / 2^e, with 2^e near the size of f and of its
+ * increments when that is beyond 2^+-60, so that squares and sums of them
+ * neither overflow nor underflow (S = 1e200: (dS)^2 is 1e398); the scaling
+ * by a power of 2 is exact.  NULL: no scaling. */
+static const expr *plan_scale(check_plan *p, double size)
+{
+	p->scale = 1;
+	if (!(size > 0) || !isfinite(size) || (size > 0x1p-60 && size < 0x1p60))
+		return NULL;
+	int e;
+	frexp(size, &e);
+	p->scale = ldexp(1, e);
+	return expr_pow(p->ctx, expr_int(p->ctx, 2), expr_int(p->ctx, -e));
+}
+
+static const expr *scaled(check_plan *p, const expr *by, const expr *e)
+{
+	return by && e ? expr_mul(p->ctx, by, e) : e;
+}
+
 static char *plan_programs(check_plan *p)
 {
+	double size = 0;
+	p->unrepresentable = !check_fd_point(p, &size);
+	const expr *by = plan_scale(p, size);
 	size_t np = p->nproc, nn = p->nnoise;
 	p->ncoef = np + np * nn + np;
 	const expr **out = xcalloc(p->ncoef + 1, sizeof *out);
@@ -285,14 +314,24 @@ static char *plan_programs(check_plan *p)
 	free(out);
 	if (!p->coef)
 		return cannot_evaluate(p->ctx, bad);
-	p->fprog = eval_compile(p->ctx, 1, &p->in->f, p->nvars, p->vars, &bad);
+	const expr *f = scaled(p, by, check_plan_concrete(p, p->in->f));
+	if (!f)
+		return xstrdup("check could not form f");
+	p->fprog = eval_compile(p->ctx, 1, &f, p->nvars, p->vars, &bad);
 	if (!p->fprog)
 		return cannot_evaluate(p->ctx, bad);
 	p->nclaim = 1 + nn;
 	const expr **claim = xcalloc(p->nclaim, sizeof *claim);
-	claim[0] = p->in->d->dt;
+	claim[0] = scaled(p, by, check_plan_concrete(p, p->in->d->dt));
 	for (size_t a = 0; a < nn; a++)
-		claim[1 + a] = p->noise[a] < p->in->d->n ? p->in->d->dw[p->noise[a]] : expr_int(p->ctx, 0);
+		claim[1 + a] = scaled(p, by,
+		                      check_plan_concrete(p, p->noise[a] < p->in->d->n ? p->in->d->dw[p->noise[a]]
+		                                                                       : expr_int(p->ctx, 0)));
+	for (size_t i = 0; i < p->nclaim; i++)
+		if (!claim[i]) {
+			free(claim);
+			return xstrdup("check could not form the tested coefficients");
+		}
 	p->cprog = eval_compile(p->ctx, p->nclaim, claim, p->nvars, p->vars, &bad);
 	free(claim);
 	if (!p->cprog)
@@ -313,9 +352,13 @@ char *check_plan_make(check_plan *p)
 		error = plan_correlations(p);
 	if (!error) {
 		p->truncate = xcalloc(p->nproc + 1, sizeof *p->truncate);
-		for (size_t i = 0; i < p->nproc; i++)
-			p->truncate[i] = model_sde_of(p->m, p->vars[i]) &&
-			                 !(expr_sym_sign(p->vars[i]) & EXPR_SIGN_NEG);
+		for (size_t i = 0; i < p->nproc; i++) {
+			int sign = expr_sym_sign(p->vars[i]);
+			if (!model_sde_of(p->m, p->vars[i]) || (sign & EXPR_SIGN_NEG))
+				p->truncate[i] = SIM_PATHS_FREE;
+			else
+				p->truncate[i] = sign & EXPR_SIGN_ZERO ? SIM_PATHS_TRUNCATE : SIM_PATHS_REFLECT;
+		}
 		error = plan_programs(p);
 	}
 	if (!error)

@@ -119,7 +119,9 @@ static void json_zstat(xbuf *out, const char *key, const check_zstat *z, bool fi
 {
 	xbuf_printf(out, "%s\"%s\":{\"mean\":", first ? "" : ",", key);
 	put_num(out, z->mean);
-	put_fields(out, 3, (const char *[]){"se", "z", "fine_grid_mean"}, (double[]){z->se, z->z, z->fine});
+	put_fields(out, 7, (const char *[]){"se", "z", "fine_grid_mean", "bias", "bias_se", "rounding", "tolerance"},
+	           (double[]){z->se, z->z, z->fine, z->bias, z->bias_se, z->rounding, z->tolerance});
+	xbuf_printf(out, ",\"ok\":%s", z->ok ? "true" : "false");
 	xbuf_put(out, "}");
 }
 
@@ -149,7 +151,8 @@ static void json_fd(const check_result *r, xbuf *out)
 		free(name);
 		put_fields(out, 4, (const char *[]){"engine", "difference", "error", "tolerance"},
 		           (double[]){row->engine, row->difference, row->error, row->tolerance});
-		xbuf_printf(out, ",\"ok\":%s}", row->ok ? "true" : "false");
+		xbuf_printf(out, ",\"formed\":%s,\"ok\":%s}", row->formed ? "true" : "false",
+		            row->ok ? "true" : "false");
 	}
 	xbuf_put(out, "]");
 }
@@ -188,7 +191,8 @@ static void json_conv(const check_result *r, xbuf *out)
 static void check_fields(xbuf *out, const stmt_result *result, expr_ctx *ctx)
 {
 	const check_result *r = result->check;
-	field(out, "verdict", r->consistent ? "consistent" : "inconsistent");
+	static const char *const verdicts[] = {"consistent", "inconsistent", "undecided"};
+	field(out, "verdict", verdicts[r->verdict]);
 	xbuf_printf(out, ",\"consistent\":%s", r->consistent ? "true" : "false");
 	json_setup(ctx, r, out);
 	json_fd(r, out);
@@ -196,10 +200,10 @@ static void check_fields(xbuf *out, const stmt_result *result, expr_ctx *ctx)
 	if (r->nconv)
 		json_conv(r, out);
 	xbuf_printf(out,
-	            ",\"paths_used\":%ld,\"bad_paths\":%ld,\"truncated_paths\":%ld,\"tolerance\":%g,"
-	            "\"fd_tolerance\":%g",
-	            r->sim.paths_used, r->sim.bad_paths, r->sim.truncated_paths, r->setup.z_tolerance,
-	            r->setup.fd_tolerance);
+	            ",\"paths_used\":%ld,\"bad_paths\":%ld,\"truncated_paths\":%ld,\"grids\":%zu,"
+	            "\"scale\":%.17g,\"tolerance\":%g,\"fd_tolerance\":%g",
+	            r->sim.paths_used, r->sim.bad_paths, r->sim.truncated_paths, r->sim.grids, r->sim.scale,
+	            r->setup.z_tolerance, r->setup.fd_tolerance);
 	if (!r->consistent) {
 		char *reasons = writer_check_reasons(r);
 		field(out, "reason", reasons);
