@@ -12,10 +12,11 @@
  * natural size of the partial, and the working precision leaves well over
  * 100 bits after the cancellation; the balls' radii bound the rounding.
  *
- * The relative error is |engine - difference| / size, where size is the
- * larger of the two values and the natural size of the partial, F / (s_i s_j)
- * with F the largest |f| at the point and half a scale away (so a partial
- * that is 0 at the point is not judged relative to 0).  A row that cannot be
+ * The relative error is |engine - difference| / max(|engine|, |difference|);
+ * it may be 1e-5 plus four times the change of the difference when its step
+ * is doubled (a bound on its truncation error, which matters when the
+ * partial is 0 at the point: x^3 at 0) plus the radii of the balls, both
+ * relative to the same size.  A row that cannot be
  * formed (f undefined at a shifted point, a value that is not finite, a ball
  * too wide) makes the verdict undecided (check.c).
  */
@@ -61,9 +62,9 @@ static double fd_scale(check_plan *p, size_t v)
 typedef struct fd_state {
 	check_plan *p;
 	ball_prog *f;
-	arb_ptr x;    /* nvars: the point (a working copy) */
-	arb_t value;  /* scratch: f at a point */
-	arb_t f0;     /* f at the point */
+	arb_ptr x;   /* nvars: the point (a working copy) */
+	arb_t value; /* scratch: f at a point */
+	arb_t f0;    /* f at the point */
 	bool f0_ok;
 } fd_state;
 
@@ -86,29 +87,6 @@ static bool fd_f(fd_state *st, size_t i, const arb_t di, size_t j, const arb_t d
 	return ran && status == BALL_OK && arb_is_finite(out);
 }
 
-/* The largest |f| at the point and at half a scale either way in i and j
- * (points where f is undefined are skipped). */
-static double fd_size(fd_state *st, size_t i, double si, size_t j, double sj)
-{
-	double size = st->f0_ok ? fabs(arf_get_d(arb_midref(st->f0), ARF_RND_NEAR)) : 0;
-	arb_t di, dj, zero;
-	arb_init(di);
-	arb_init(dj);
-	arb_init(zero);
-	for (int k = -1; k <= 1; k += 2) {
-		arb_set_d(di, k * si / 2);
-		arb_set_d(dj, k * sj / 2);
-		if (fd_f(st, i, di, i, zero, st->value))
-			size = fmax(size, fabs(arf_get_d(arb_midref(st->value), ARF_RND_NEAR)));
-		if (j != i && fd_f(st, j, dj, j, zero, st->value))
-			size = fmax(size, fabs(arf_get_d(arb_midref(st->value), ARF_RND_NEAR)));
-	}
-	arb_clear(di);
-	arb_clear(dj);
-	arb_clear(zero);
-	return size;
-}
-
 /* h := 2^(floor(log2 s) - bits), exactly. */
 static void fd_step(arb_t h, double s, int bits)
 {
@@ -118,8 +96,9 @@ static void fd_step(arb_t h, double s, int bits)
 	arb_mul_2exp_si(h, h, e - 1 - bits);
 }
 
-/* The central difference of row (i, j) into d; j == (size_t)-1 for a first derivative. */
-static bool fd_difference(fd_state *st, size_t i, size_t j, double si, double sj, arb_t d)
+/* The central difference of row (i, j) into d, with steps 2^wider times the
+ * usual ones; j == (size_t)-1 for a first derivative. */
+static bool fd_difference(fd_state *st, size_t i, size_t j, double si, double sj, int wider, arb_t d)
 {
 	arb_t hi, hj, neg, zero, a, b;
 	arb_init(hi);
@@ -131,7 +110,7 @@ static bool fd_difference(fd_state *st, size_t i, size_t j, double si, double sj
 	bool ok;
 	if (j == (size_t)-1) {
 		/* (f(x+h) - f(x-h)) / 2h */
-		fd_step(hi, si, FD_FIRST_BITS);
+		fd_step(hi, si, FD_FIRST_BITS - wider);
 		arb_neg(neg, hi);
 		ok = fd_f(st, i, hi, i, zero, a) && fd_f(st, i, neg, i, zero, b);
 		arb_sub(d, a, b, FD_PREC);
@@ -139,7 +118,7 @@ static bool fd_difference(fd_state *st, size_t i, size_t j, double si, double sj
 		arb_mul_2exp_si(d, d, -1);
 	} else if (i == j) {
 		/* (f(x+h) - 2 f(x) + f(x-h)) / h^2 */
-		fd_step(hi, si, FD_SECOND_BITS);
+		fd_step(hi, si, FD_SECOND_BITS - wider);
 		arb_neg(neg, hi);
 		ok = st->f0_ok && fd_f(st, i, hi, i, zero, a) && fd_f(st, i, neg, i, zero, b);
 		arb_add(d, a, b, FD_PREC);
@@ -148,8 +127,8 @@ static bool fd_difference(fd_state *st, size_t i, size_t j, double si, double sj
 		arb_div(d, d, hi, FD_PREC);
 	} else {
 		/* (f(++) - f(+-) - f(-+) + f(--)) / 4 hi hj */
-		fd_step(hi, si, FD_SECOND_BITS);
-		fd_step(hj, sj, FD_SECOND_BITS);
+		fd_step(hi, si, FD_SECOND_BITS - wider);
+		fd_step(hj, sj, FD_SECOND_BITS - wider);
 		arb_zero(d);
 		ok = true;
 		for (int k = 0; k < 4 && ok; k++) {
@@ -215,13 +194,14 @@ static void fd_compute(fd_state *st, ball_prog *partial_prog, size_t i, size_t j
 	row->first = p->vars[i];
 	row->second = j == (size_t)-1 ? NULL : p->vars[j];
 	double si = fd_scale(p, i), sj = j == (size_t)-1 ? si : fd_scale(p, j);
-	arb_t engine, d;
+	arb_t engine, d, d2;
 	arb_init(engine);
 	arb_init(d);
+	arb_init(d2);
 	ball_status status = BALL_FAILED;
 	bool engine_ok = partial_prog && ball_run(partial_prog, st->x, FD_PREC, engine, &status) == BALL_OK &&
 	                 status == BALL_OK && arb_is_finite(engine);
-	bool diff_ok = fd_difference(st, i, j, si, sj, d);
+	bool diff_ok = fd_difference(st, i, j, si, sj, 0, d) && fd_difference(st, i, j, si, sj, 1, d2);
 	row->engine = engine_ok ? arf_get_d(arb_midref(engine), ARF_RND_NEAR) : NAN;
 	row->difference = diff_ok ? arf_get_d(arb_midref(d), ARF_RND_NEAR) : NAN;
 	fd_text(engine, engine_ok, row->engine_text, sizeof row->engine_text);
@@ -230,45 +210,42 @@ static void fd_compute(fd_state *st, ball_prog *partial_prog, size_t i, size_t j
 	row->error = NAN;
 	row->tolerance = CHECK_FD_TOLERANCE;
 	if (row->formed) {
-		/* the size of the partial, as a ball's upper bound, then the error relative to it */
-		double natural = fd_size(st, i, si, j == (size_t)-1 ? i : j, sj) / si;
-		if (j != (size_t)-1)
-			natural /= sj;
-		arb_t diff, size;
+		/* error = |engine - d| / size, size = max(|engine|, |d|); allowed:
+		 * the relative tolerance, plus 4 |d(h) - d(2h)| (the truncation error
+		 * of d(h) is a quarter of that change) and the balls' radii, relative
+		 * to the same size, so a partial that is 0 at the point is judged
+		 * against the truncation of its difference */
+		arb_t diff, size, slack;
 		arb_init(diff);
 		arb_init(size);
+		arb_init(slack);
 		arb_sub(diff, engine, d, FD_PREC);
 		arb_abs(diff, diff);
 		arb_abs(size, engine);
-		arb_t ad;
-		arb_init(ad);
-		arb_abs(ad, d);
-		arb_max(size, size, ad, FD_PREC);
-		arb_clear(ad);
-		if (isfinite(natural) && natural > 0) {
-			arb_t nat;
-			arb_init(nat);
-			arb_set_d(nat, natural);
-			arb_max(size, size, nat, FD_PREC);
-			arb_clear(nat);
-		}
+		arb_abs(slack, d);
+		arb_max(size, size, slack, FD_PREC);
+		arb_sub(slack, d, d2, FD_PREC);
+		arb_abs(slack, slack);
+		arb_mul_ui(slack, slack, 4, FD_PREC);
 		if (arb_is_positive(size)) {
 			arb_div(diff, diff, size, FD_PREC);
+			arb_div(slack, slack, size, FD_PREC);
 			row->error = arf_get_d(arb_midref(diff), ARF_RND_UP);
 			double radius = mag_get_d(arb_radref(diff));
-			/* the rounding bound of the comparison itself */
-			row->tolerance += radius;
-			row->formed = radius < 1e-3;
+			row->tolerance += arf_get_d(arb_midref(slack), ARF_RND_UP) +
+			                  mag_get_d(arb_radref(slack)) + radius;
+			row->formed = radius < 1e-3 && isfinite(row->tolerance);
 		} else {
-			/* both values and the natural size are 0 */
-			row->error = 0;
+			row->error = 0; /* both are 0 */
 		}
 		arb_clear(diff);
 		arb_clear(size);
+		arb_clear(slack);
 	}
 	row->ok = row->formed && isfinite(row->error) && row->error <= row->tolerance;
 	arb_clear(engine);
 	arb_clear(d);
+	arb_clear(d2);
 }
 
 static void fd_push(fd_state *st, check_fd_row **rows, size_t *n, size_t *cap, size_t i, size_t j)
@@ -280,7 +257,8 @@ static void fd_push(fd_state *st, check_fd_row **rows, size_t *n, size_t *cap, s
 	}
 	const expr *partial = check_plan_concrete(p, diff(p->ctx, p->in->f, p->vars[i]));
 	if (partial && j != (size_t)-1)
-		partial = check_plan_concrete(p, diff(p->ctx, diff(p->ctx, p->in->f, p->vars[i]), p->vars[j]));
+		partial =
+		        check_plan_concrete(p, diff(p->ctx, diff(p->ctx, p->in->f, p->vars[i]), p->vars[j]));
 	ball_prog *prog = partial ? ball_compile(p->ctx, 1, &partial, p->nvars, p->vars, NULL) : NULL;
 	memset(&(*rows)[*n], 0, sizeof **rows);
 	fd_compute(st, prog, i, j, &(*rows)[*n]);

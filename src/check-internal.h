@@ -16,18 +16,18 @@ typedef struct check_plan {
 	/* program variables: processes (states and noises), then t, then parameters */
 	size_t nproc, nparam, nvars;
 	const expr **vars;
-	double *point;    /* nvars values at the start */
+	double *point;           /* nvars values at the start */
 	unsigned char *truncate; /* nproc: SIM_PATHS_FREE, _TRUNCATE or _REFLECT */
-	ito_diff *dyn;    /* nproc: Itô dynamics under the measure */
-	size_t nnoise;    /* the noises that play a part, in model order */
-	size_t *noise;    /* model index of each */
-	double *rho;      /* nnoise x nnoise */
-	double *chol;     /* its lower Cholesky factor */
-	bool milstein;    /* the scheme used (Milstein asked for and applicable) */
-	long *mil_noise;  /* nproc: the one noise driving the state, or -1 */
-	eval_prog *coef;  /* drift_i, then b_ia (i major), then Milstein 1/2 b b_x */
-	eval_prog *fprog; /* f */
-	eval_prog *cprog; /* the claimed drift and b_a, at the truncated point like the SDE's */
+	ito_diff *dyn;           /* nproc: Itô dynamics under the measure */
+	size_t nnoise;           /* the noises that play a part, in model order */
+	size_t *noise;           /* model index of each */
+	double *rho;             /* nnoise x nnoise */
+	double *chol;            /* its lower Cholesky factor */
+	bool milstein;           /* the scheme used (Milstein asked for and applicable) */
+	long *mil_noise;         /* nproc: the one noise driving the state, or -1 */
+	eval_prog *coef;         /* drift_i, then b_ia (i major), then Milstein 1/2 b b_x */
+	eval_prog *fprog;        /* f */
+	eval_prog *cprog;        /* the claimed drift and b_a, at the truncated point like the SDE's */
 	size_t ncoef, nclaim;
 	char *note;            /* a remark for the report, or NULL */
 	bool unrepresentable;  /* f or a tested coefficient at the point is beyond the range of doubles */

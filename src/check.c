@@ -84,6 +84,15 @@ static void record_setup(check_plan *p, check_result *out)
 	s->paths = in->paths;
 	s->seed = in->seed;
 	s->hand_derived = in->hand_derived;
+	s->nconcrete = in->nconcrete;
+	s->concrete = xcalloc(in->nconcrete + 1, sizeof *s->concrete);
+	for (size_t i = 0; i < in->nconcrete; i++) {
+		const expr **formals = xcalloc(in->concrete[i].nargs + 1, sizeof *formals);
+		for (size_t j = 0; j < in->concrete[i].nargs; j++)
+			formals[j] = in->concrete[i].formals[j];
+		s->concrete[i] = in->concrete[i];
+		s->concrete[i].formals = formals;
+	}
 	s->drift = in->d->dt;
 	s->note = p->note;
 	p->note = NULL;
@@ -241,6 +250,9 @@ void check_result_free(check_result *result)
 	free(result->setup.symbols);
 	free(result->setup.values);
 	free(result->setup.note);
+	for (size_t i = 0; i < result->setup.nconcrete; i++)
+		free((void *)result->setup.concrete[i].formals);
+	free(result->setup.concrete);
 	free(result->fd);
 	free(result->noises);
 	free(result->conv);

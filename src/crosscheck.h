@@ -23,12 +23,24 @@
 #include "ito.h"
 #include "model.h"
 
+/* A concrete form for a generic function: func(formals) = body.  The check
+ * evaluates the function and its partials (f_x, f_xy, ... as the engine's
+ * differential has them) from it. */
+typedef struct check_concrete {
+	const expr *func;           /* the generic function's symbol */
+	size_t nargs;               /* its arity */
+	const expr *const *formals; /* nargs distinct symbols */
+	const expr *body;           /* an expression in the formals (and the model's names) */
+} check_concrete;
+
 typedef struct check_input {
 	model *m;
 	const model_measure *q; /* NULL: the model's own measure */
 	const expr *f;          /* the expression whose differential is checked */
 	const ito_diff *d;      /* the differential to test (drift and one coefficient per noise) */
 	bool hand_derived;      /* d came from the user: skip finite differences */
+	size_t nconcrete;       /* concrete forms for generic functions (`where`) */
+	const check_concrete *concrete;
 	/* the point: values for every parameter and state that f and the model use */
 	size_t nvalues;
 	const expr **symbols;
@@ -40,6 +52,9 @@ typedef struct check_input {
 	bool milstein; /* otherwise Euler-Maruyama */
 	bool verbose;  /* add the convergence table */
 	long max_work; /* limit on steps*paths; 0 for the default */
+	/* called now and then with the share of the simulation done (0..1); may be NULL */
+	void (*progress)(void *data, double done);
+	void *progress_data;
 } check_input;
 
 /* One partial derivative of f against its central difference. */
@@ -98,14 +113,14 @@ typedef enum check_verdict { CHECK_CONSISTENT, CHECK_INCONSISTENT, CHECK_UNDECID
 
 /* Why a check is inconsistent (the first five) or undecided (the rest). */
 typedef enum check_reason_kind {
-	CHECK_REASON_FD,          /* a finite difference disagrees (index: the row) */
-	CHECK_REASON_QV,          /* the quadratic variation disagrees with the diffusion */
-	CHECK_REASON_RESIDUAL,    /* the martingale residual is not zero (the drift) */
-	CHECK_REASON_COVARIATION, /* a covariation disagrees with its coefficient (index: the noise) */
-	CHECK_REASON_BAD_PATHS,   /* undecided: paths left the domain or overflowed (NaN or Inf) */
-	CHECK_REASON_FEW_PATHS,   /* undecided: too few usable paths */
-	CHECK_REASON_FEW_STEPS,   /* undecided: under 4 steps, no estimate of the discretisation bias */
-	CHECK_REASON_FD_SCALE,    /* undecided: a finite difference cannot be formed (index: the row) */
+	CHECK_REASON_FD,             /* a finite difference disagrees (index: the row) */
+	CHECK_REASON_QV,             /* the quadratic variation disagrees with the diffusion */
+	CHECK_REASON_RESIDUAL,       /* the martingale residual is not zero (the drift) */
+	CHECK_REASON_COVARIATION,    /* a covariation disagrees with its coefficient (index: the noise) */
+	CHECK_REASON_BAD_PATHS,      /* undecided: paths left the domain or overflowed (NaN or Inf) */
+	CHECK_REASON_FEW_PATHS,      /* undecided: too few usable paths */
+	CHECK_REASON_FEW_STEPS,      /* undecided: under 4 steps, no estimate of the discretisation bias */
+	CHECK_REASON_FD_SCALE,       /* undecided: a finite difference cannot be formed (index: the row) */
 	CHECK_REASON_UNREPRESENTABLE /* undecided: f or a coefficient is not representable in double
 	                              * precision at the point (underflow or overflow) */
 } check_reason_kind;
@@ -120,19 +135,21 @@ typedef struct check_reason {
 
 /* What was checked and how. */
 typedef struct check_setup {
-	const expr *f;        /* the expression */
-	size_t nvalues;       /* the point as given */
-	const expr **symbols; /* nvalues symbols */
-	double *values;       /* nvalues values */
-	bool milstein;        /* the scheme used: Milstein, else Euler-Maruyama */
-	double horizon;       /* T */
-	long steps, paths;    /* steps of the fine grid, paths asked for */
-	unsigned long seed;   /* the seed of the streams */
-	bool hand_derived;    /* the differential was the user's: no finite differences */
-	const expr *drift;    /* the tested differential's drift (its dW terms: check_noise) */
-	char *note;           /* a remark on the plan (Milstein not applicable), or NULL */
-	double z_tolerance;   /* a statistic is consistent when |z| is below this */
-	double fd_tolerance;  /* the relative tolerance of the finite differences */
+	const expr *f;            /* the expression */
+	size_t nvalues;           /* the point as given */
+	const expr **symbols;     /* nvalues symbols */
+	double *values;           /* nvalues values */
+	bool milstein;            /* the scheme used: Milstein, else Euler-Maruyama */
+	double horizon;           /* T */
+	long steps, paths;        /* steps of the fine grid, paths asked for */
+	unsigned long seed;       /* the seed of the streams */
+	bool hand_derived;        /* the differential was the user's: no finite differences */
+	size_t nconcrete;         /* the concrete forms used (`where`) */
+	check_concrete *concrete; /* nconcrete, each with its own copy of the formals */
+	const expr *drift;        /* the tested differential's drift (its dW terms: check_noise) */
+	char *note;               /* a remark on the plan (Milstein not applicable), or NULL */
+	double z_tolerance;       /* a statistic is consistent when |z| is below this */
+	double fd_tolerance;      /* the relative tolerance of the finite differences */
 } check_setup;
 
 /* The simulation's statistics. */
@@ -154,8 +171,8 @@ typedef struct check_simulation {
 typedef struct check_result {
 	check_verdict verdict; /* consistent: no reasons; undecided: a reason that undecides and no
 	                        * finite difference off */
-	bool consistent;   /* verdict == CHECK_CONSISTENT */
-	bool limit_hit;    /* steps*paths over the limit, or interrupted: nothing was reported */
+	bool consistent;       /* verdict == CHECK_CONSISTENT */
+	bool limit_hit;        /* steps*paths over the limit, or interrupted: nothing was reported */
 	char *error;       /* set when the check could not run (a missing value, ...); then nothing else is */
 	check_setup setup; /* what was checked */
 	size_t nfd;        /* finite-difference rows (none when hand derived) */

@@ -32,6 +32,7 @@ typedef struct session_options {
 	void (*before_statement)(void *data);	/* e.g. arm the time limit; may be NULL */
 	bool no_files;				/* refuse save and load (fuzzing, sandboxes) */
 	long max_simulation;			/* limit on steps*paths of check; 0: default */
+	bool progress;				/* a check that runs over a second shows its progress on err */
 	void *hook_data;
 } session_options;
 

@@ -513,6 +513,8 @@ static bool run_blocks(expr_ctx *ctx, const job *jb, size_t npaths, bool conv, s
 			}
 		}
 		interrupted = expr_poll_interrupt(ctx);
+		if (jb->p->progress && !interrupted)
+			jb->p->progress(jb->p->progress_data, (double)(first + count) / (double)nblocks);
 	}
 	free(convs);
 	return !interrupted;

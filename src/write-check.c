@@ -59,7 +59,8 @@ static void put_reason(const check_result *r, const check_reason *why, xbuf *out
 		            r->sim.bad_paths, r->setup.paths);
 		break;
 	case CHECK_REASON_FEW_PATHS:
-		xbuf_printf(out, "too few usable paths (%ld; %ld needed)", r->sim.paths_used, r->sim.min_paths);
+		xbuf_printf(out, "too few usable paths (%ld; %ld needed)", r->sim.paths_used,
+		            r->sim.min_paths);
 		break;
 	case CHECK_REASON_FEW_STEPS:
 		xbuf_put(out, "under 4 steps: the discretisation bias cannot be estimated");
@@ -85,6 +86,19 @@ char *writer_check_reasons(const check_result *r)
 		first = false;
 		put_reason(r, &r->reasons[i], &text);
 	}
+	return xbuf_take(&text);
+}
+
+/* "g(x, y) = body" (the caller frees). */
+char *writer_check_concrete(expr_ctx *ctx, const check_concrete *c)
+{
+	xbuf text = {0};
+	xbuf_printf(&text, "%s(", expr_sym_name(c->func));
+	for (size_t j = 0; j < c->nargs; j++)
+		xbuf_printf(&text, "%s%s", j ? ", " : "", expr_sym_name(c->formals[j]));
+	char *body = prn_expr(ctx, c->body, PRN_TEXT);
+	xbuf_printf(&text, ") = %s", body);
+	free(body);
 	return xbuf_take(&text);
 }
 
@@ -129,6 +143,11 @@ static void text_header(expr_ctx *ctx, const check_result *r, xbuf *out)
 		}
 		xbuf_put(out, "\n");
 	}
+	for (size_t i = 0; i < s->nconcrete; i++) {
+		char *text = writer_check_concrete(ctx, &s->concrete[i]);
+		xbuf_printf(out, "  where %s\n", text);
+		free(text);
+	}
 	if (s->note)
 		xbuf_printf(out, "  note: %s\n", s->note);
 }
@@ -164,16 +183,19 @@ static void text_sim(const check_result *r, xbuf *out)
 {
 	const check_simulation *sim = &r->sim;
 	if (sim->bad_paths)
-		xbuf_printf(out,
-		            "  warning: %ld of %ld paths gave NaN or Inf in f or its coefficients; left out\n",
-		            sim->bad_paths, r->setup.paths);
+		xbuf_printf(
+		        out,
+		        "  warning: %ld of %ld paths gave NaN or Inf in f or its coefficients; left out\n",
+		        sim->bad_paths, r->setup.paths);
 	if (sim->truncated_paths)
 		xbuf_printf(out,
 		            "  note: on %ld paths a state assumed positive or nonnegative went below 0 "
 		            "(reflected, or truncated, at 0)\n",
 		            sim->truncated_paths);
 	if (sim->scale != 1)
-		xbuf_printf(out, "  note: the statistics are of f/%.6g (f is far from 1 in size)\n", sim->scale);
+		xbuf_printf(out,
+		            "  note: the statistics are of f/2^%d (f is far from 1 in size; exact scaling)\n",
+		            ilogb(sim->scale));
 	xbuf_printf(out, "  quadratic variation: mean QV = %.6g, predicted I = %.6g; mean(QV - I) = ",
 	            sim->qv_realised, sim->qv_predicted);
 	text_zstat(out, &sim->qv);
@@ -231,7 +253,8 @@ char *writer_check_verdict(const check_result *r)
 		                 r->setup.z_tolerance,
 		                 r->setup.hand_derived ? "" : "; finite differences within tolerance");
 	char *reasons = writer_check_reasons(r);
-	char *text = xasprintf("%s: %s", r->verdict == CHECK_UNDECIDED ? "undecided" : "inconsistent", reasons);
+	char *text =
+	        xasprintf("%s: %s", r->verdict == CHECK_UNDECIDED ? "undecided" : "inconsistent", reasons);
 	free(reasons);
 	return text;
 }

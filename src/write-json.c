@@ -119,7 +119,8 @@ static void json_zstat(xbuf *out, const char *key, const check_zstat *z, bool fi
 {
 	xbuf_printf(out, "%s\"%s\":{\"mean\":", first ? "" : ",", key);
 	put_num(out, z->mean);
-	put_fields(out, 7, (const char *[]){"se", "z", "fine_grid_mean", "bias", "bias_se", "rounding", "tolerance"},
+	put_fields(out, 7,
+	           (const char *[]){"se", "z", "fine_grid_mean", "bias", "bias_se", "rounding", "tolerance"},
 	           (double[]){z->se, z->z, z->fine, z->bias, z->bias_se, z->rounding, z->tolerance});
 	xbuf_printf(out, ",\"ok\":%s", z->ok ? "true" : "false");
 	xbuf_put(out, "}");
@@ -136,6 +137,17 @@ static void json_setup(expr_ctx *ctx, const check_result *r, xbuf *out)
 	            s->milstein ? "milstein" : "euler");
 	put_num(out, s->horizon);
 	xbuf_printf(out, ",\"steps\":%ld,\"paths\":%ld,\"seed\":%lu", s->steps, s->paths, s->seed);
+	if (s->nconcrete) {
+		xbuf_put(out, ",\"where\":[");
+		for (size_t i = 0; i < s->nconcrete; i++) {
+			char *text = writer_check_concrete(ctx, &s->concrete[i]);
+			if (i)
+				xbuf_put(out, ",");
+			prn_json_string(out, text);
+			free(text);
+		}
+		xbuf_put(out, "]");
+	}
 }
 
 static void json_fd(const check_result *r, xbuf *out)
@@ -218,7 +230,8 @@ static void claim_fields(xbuf *buf, const stmt_result *r, expr_ctx *ctx)
 	xbuf_printf(buf, ",\"holds\":%s", c->holds ? "true" : "false");
 	field(buf, "method", c->method == VERIFY_EXACT ? "exact" : "numeric");
 	if (c->method == VERIFY_NUMERIC)
-		xbuf_printf(buf, ",\"points\":%zu,\"bits\":%ld,\"skipped\":%zu", c->points, c->bits, c->skipped);
+		xbuf_printf(buf, ",\"points\":%zu,\"bits\":%ld,\"skipped\":%zu", c->points, c->bits,
+		            c->skipped);
 	if (c->holds)
 		return;
 	char *part = writer_claim_part(r);
