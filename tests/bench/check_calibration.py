@@ -151,10 +151,11 @@ def main():
     ap.add_argument("--settings", default="0,1,2", help="which SETTINGS for the right differentials")
     ap.add_argument("--no-right", action="store_true")
     ap.add_argument("--no-wrong", action="store_true")
+    ap.add_argument("--power", help="over-settings of the wrong differentials instead of the coarse grid")
     args = ap.parse_args()
     seeds = list(range(1001, 1001 + args.seeds))
     settings = [SETTINGS[int(i)] for i in args.settings.split(",") if i != ""]
-    power = POWER
+    power = [(args.power, args.power)] if args.power else POWER
     if args.quick:
         settings = [SETTINGS[1]]
     rows = []  # (kind, model, quantity, what, setting, jobs)
