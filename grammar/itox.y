@@ -91,8 +91,10 @@ ast_node *ast_cond(ast_list *list, const ast_node *name, ast_rel op, ast_node *b
 ast_node *ast_relation(ast_list *list, ast_node *lhs, ast_rel op, ast_node *rhs,
 		       const ast_loc *loc);
 ast_node *ast_param(ast_node *holder, ast_rel op, ast_node *bound, const ast_loc *loc);
+/* check: opts is NULL or ast_check_opts(over list, where list). */
+ast_node *ast_check_opts(ast_list *list, ast_node *over, ast_node *where, const ast_loc *loc);
 ast_node *ast_check(ast_list *list, bool with_d, ast_node *a, ast_node *b,
-		    ast_node *at, ast_node *over, bool verbose, const ast_loc *loc);
+		    ast_node *at, ast_node *opts, bool verbose, const ast_loc *loc);
 void ast_push_stmt(ast_list *list, ast_node *stmt);
 /* Whether the tree under root is deeper than limit; where: the first node too deep. */
 bool ast_too_deep(const ast_node *root, int limit, ast_loc *where);
@@ -137,7 +139,8 @@ static bool statement_fits(struct itox_parse_state *ps, const ast_node *stmt);
 %token COEFFICIENTS "coefficients" FORWARD "forward" MOMENTS "moments" D "d"
 
 %type <node> stmt query dquery claim_lhs decl command expr primary args names
-%type <node> param_names conds cond interval assign assigns opt_rhs opt_over opt_discount
+%type <node> param_names conds cond interval assign assigns opt_rhs check_opts opt_discount
+%type <node> concretes concrete
 %type <flag> relop opt_d opt_verbose
 
 %left "+" "-"
@@ -188,7 +191,7 @@ query:
 				{ $$ = ast_named(L, AST_S_SDE_STRAT, $2, NULL, NULL, &@$); }
 	| "claim" claim_lhs "=" expr
 				{ $$ = ast_binary(L, AST_S_CLAIM, $2, $4, &@$); }
-	| "check" opt_d expr opt_rhs "at" assigns opt_over opt_verbose
+	| "check" opt_d expr opt_rhs "at" assigns check_opts opt_verbose
 				{ $$ = ast_check(L, $2, $3, $4, $6, $7, $8, &@$); }
 	;
 
@@ -223,9 +226,27 @@ opt_rhs:
 	| "=" expr		{ $$ = $2; }
 	;
 
-opt_over:
+/* over and where, in either order (each list NULL when not given), or NULL
+ * for neither. */
+check_opts:
 	  %empty		{ $$ = NULL; }
-	| "over" assigns	{ $$ = $2; }
+	| "over" assigns	{ $$ = ast_check_opts(L, $2, NULL, &@$); }
+	| "where" concretes	{ $$ = ast_check_opts(L, NULL, $2, &@$); }
+	| "over" assigns "where" concretes
+				{ $$ = ast_check_opts(L, $2, $4, &@$); }
+	| "where" concretes "over" assigns
+				{ $$ = ast_check_opts(L, $4, $2, &@$); }
+	;
+
+concretes:
+	  concrete		{ $$ = ast_holder(L, $1, &@$); }
+	| concretes "," concrete
+				{ $$ = ast_append($1, $3); }
+	;
+
+concrete:
+	  NAME "(" names ")" "=" expr
+				{ $$ = ast_finish($3, AST_CONCRETE, $1, $6, &@$); }
 	;
 
 opt_verbose:

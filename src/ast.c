@@ -227,9 +227,15 @@ ast_node *ast_param(ast_node *holder, ast_rel op, ast_node *bound, const ast_loc
 }
 
 /* "check d(EXPR) at ..." means the same as "check d EXPR at ...". */
-ast_node *ast_check(ast_list *list, bool with_d, ast_node *a, ast_node *b,
-		    ast_node *at, ast_node *over, bool verbose, const ast_loc *loc)
+ast_node *ast_check_opts(ast_list *list, ast_node *over, ast_node *where, const ast_loc *loc)
 {
+	return ast_binary(list, AST_HOLDER, over, where, loc);
+}
+
+ast_node *ast_check(ast_list *list, bool with_d, ast_node *a, ast_node *b,
+		    ast_node *at, ast_node *opts, bool verbose, const ast_loc *loc)
+{
+	ast_node *over = NULL;
 	ast_node *node = ast_finish(at, AST_S_CHECK, NULL, a, loc);
 
 	(void)list;
@@ -240,6 +246,10 @@ ast_node *ast_check(ast_list *list, bool with_d, ast_node *a, ast_node *b,
 	node->b = b;
 	node->with_d = with_d;
 	node->verbose = verbose;
+	if (opts != NULL) {
+		node->c = opts->b;
+		over = opts->a;
+	}
 	if (over != NULL) {
 		node->extra = over->items;
 		node->nextra = over->nitems;
@@ -410,7 +420,8 @@ static void put_list(struct buffer *out, ast_node *const *items, size_t n)
 }
 
 /* (KIND [text] [relation] [flag d] children... items...); S_CHECK writes
- * (S_CHECK [d] a [b] (at ...) [(over ...)] [verbose]) and S_PDE writes
+ * (S_CHECK [d] a [b] (at ...) [(over ...)] [(where CONCRETE...)] [verbose]),
+ * a CONCRETE (CONCRETE name body args...), and S_PDE writes
  * (S_PDE V args... [(discount a)]). */
 static void put_node(struct buffer *out, const ast_node *node)
 {
@@ -440,7 +451,7 @@ static void put_node(struct buffer *out, const ast_node *node)
 		put(out, ")");
 		return;
 	}
-	const ast_node *children[3] = {node->a, node->b, node->c};
+	const ast_node *children[3] = {node->a, node->b, node->kind == AST_S_CHECK ? NULL : node->c};
 	for (int i = 0; i < 3; i++) {
 		if (children[i] != NULL) {
 			put(out, " ");
@@ -454,6 +465,11 @@ static void put_node(struct buffer *out, const ast_node *node)
 		if (node->nextra > 0) {
 			put(out, " (over");
 			put_list(out, node->extra, node->nextra);
+			put(out, ")");
+		}
+		if (node->c != NULL) {
+			put(out, " (where");
+			put_list(out, node->c->items, node->c->nitems);
 			put(out, ")");
 		}
 		if (node->verbose)

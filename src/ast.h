@@ -37,6 +37,7 @@ typedef struct ast_loc {
 	X(INTERVAL)	  /* [a, b] */                                                         \
 	X(COND)		  /* text: name; op: relation; a: bound or INTERVAL */                 \
 	X(RELATION)	  /* a op b: two expressions (op REL_IN: b is an INTERVAL) */         \
+	X(CONCRETE)	  /* text(items) = a: a concrete form in check ... where; items NAME */ \
 	/* statements */                                                                       \
 	X(S_EXPR)	  /* a: a bare expression (may contain differentials) */              \
 	X(S_D)		  /* d a */                                                            \
@@ -62,7 +63,7 @@ typedef struct ast_loc {
 	X(S_UNDER)	  /* a: a query statement; text: measure name */                      \
 	X(S_STATE)	  /* state text = a where b: b is an ASSIGN (old = expression) */     \
 	X(S_CLAIM)	  /* claim a = b: a is an expression or S_D/S_DRIFT/... query node */ \
-	X(S_CHECK)	  /* check [d] a [= b] at items [over c...]: see flags, list fields */ \
+	X(S_CHECK)	  /* check [d] a [= b] at items [over extra] [where c]: c a HOLDER of CONCRETE */ \
 	X(S_SHOW)	  /* show [text]: text NULL for all */                                 \
 	X(S_SAVE)	  /* save text (a path) */                                             \
 	X(S_LOAD)	  /* load text (a path) */                                             \

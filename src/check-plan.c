@@ -68,7 +68,12 @@ void check_plan_free(check_plan *p)
 static char *cannot_evaluate(expr_ctx *ctx, const expr *bad)
 {
 	char *text = bad ? prn_expr(ctx, bad, PRN_TEXT) : xstrdup("?");
-	char *message = xasprintf("check cannot evaluate '%s' numerically", text);
+	bool generic = bad && (expr_kind_of(bad) == EXPR_FAPP ||
+	                       (expr_kind_of(bad) == EXPR_SYM && expr_func_arity(bad) > 0));
+	char *message = xasprintf("check cannot evaluate '%s' numerically%s", text,
+	                          generic ? " (give the function a concrete form: check ... where "
+	                                    "NAME(ARGS) = EXPR)"
+	                                  : "");
 	free(text);
 	return message;
 }
@@ -84,10 +89,10 @@ static char *plan_symbols(check_plan *p)
 	bool *active = xcalloc(m->nnoises + 1, sizeof *active);
 	ito_diff *dyn = xcalloc(1, sizeof *dyn);
 	size_t capdyn = 1;
-	push_symbols(ctx, in->f, &todo);
-	push_symbols(ctx, in->d->dt, &todo);
+	push_symbols(ctx, check_plan_concrete(p, in->f), &todo);
+	push_symbols(ctx, check_plan_concrete(p, in->d->dt), &todo);
 	for (size_t k = 0; k < in->d->n && k < m->nnoises; k++) {
-		push_symbols(ctx, in->d->dw[k], &todo);
+		push_symbols(ctx, check_plan_concrete(p, in->d->dw[k]), &todo);
 		if (in->d->dw[k] && !expr_is_zero(in->d->dw[k]))
 			active[k] = true;
 	}
@@ -101,6 +106,10 @@ static char *plan_symbols(check_plan *p)
 			expr_vec_push(&params, sym);
 			continue;
 		}
+		/* the SDE's coefficients with the concrete forms put in */
+		d.dt = check_plan_concrete(p, d.dt);
+		for (size_t k = 0; k < d.n; k++)
+			d.dw[k] = check_plan_concrete(p, d.dw[k]);
 		if (procs.n == capdyn) {
 			capdyn *= 2;
 			dyn = xreallocarray(dyn, capdyn, sizeof *dyn);
@@ -191,7 +200,7 @@ static char *plan_domain(check_plan *p)
 static char *plan_finite(check_plan *p)
 {
 	bool ok = true;
-	double f = eval_at(p->ctx, p->in->f, p->nvars, p->vars, p->point, &ok);
+	double f = eval_at(p->ctx, check_plan_concrete(p, p->in->f), p->nvars, p->vars, p->point, &ok);
 	if (!ok || !isfinite(f))
 		return xstrdup("the expression is not finite at the point");
 	return NULL;
@@ -256,8 +265,59 @@ static bool plan_milstein(check_plan *p, const expr **terms)
 	return true;
 }
 
+/* A generic function applied (with partial-derivative counts) to args:
+ * the concrete body differentiated by the formals as the counts say, then
+ * the formals replaced by the args (all at once).  NULL: no concrete form. */
+static const expr *concrete_fapp(expr_ctx *ctx, const expr *fapp, const expr *const *args, void *data)
+{
+	const check_input *in = data;
+	const expr *func = expr_fapp_func(fapp);
+	const unsigned char *counts = expr_fapp_counts(fapp);
+	for (size_t i = 0; i < in->nconcrete; i++) {
+		const check_concrete *c = &in->concrete[i];
+		if (c->func != func || c->nargs != expr_nops(fapp))
+			continue;
+		const expr *body = c->body;
+		for (size_t a = 0; a < c->nargs && counts; a++)
+			for (unsigned k = 0; k < counts[a] && body; k++)
+				body = diff(ctx, body, c->formals[a]);
+		return expr_subst(ctx, body, c->nargs, c->formals, args);
+	}
+	return NULL;
+}
+
+const expr *check_plan_concrete(check_plan *p, const expr *e)
+{
+	if (!e || p->in->nconcrete == 0)
+		return e;
+	return expr_rebuild_fapp(p->ctx, e, concrete_fapp, (void *)p->in);
+}
+
+/* The statistics are of f / 2^e, with 2^e near the size of f and of its
+ * increments when that is beyond 2^+-60, so that squares and sums of them
+ * neither overflow nor underflow (S = 1e200: (dS)^2 is 1e398); the scaling
+ * by a power of 2 is exact.  NULL: no scaling. */
+static const expr *plan_scale(check_plan *p, double size)
+{
+	p->scale = 1;
+	if (!(size > 0) || !isfinite(size) || (size > 0x1p-60 && size < 0x1p60))
+		return NULL;
+	int e;
+	frexp(size, &e);
+	p->scale = ldexp(1, e);
+	return expr_pow(p->ctx, expr_int(p->ctx, 2), expr_int(p->ctx, -e));
+}
+
+static const expr *scaled(check_plan *p, const expr *by, const expr *e)
+{
+	return by && e ? expr_mul(p->ctx, by, e) : e;
+}
+
 static char *plan_programs(check_plan *p)
 {
+	double size = 0;
+	p->unrepresentable = !check_fd_point(p, &size);
+	const expr *by = plan_scale(p, size);
 	size_t np = p->nproc, nn = p->nnoise;
 	p->ncoef = np + np * nn + np;
 	const expr **out = xcalloc(p->ncoef + 1, sizeof *out);
@@ -285,14 +345,25 @@ static char *plan_programs(check_plan *p)
 	free(out);
 	if (!p->coef)
 		return cannot_evaluate(p->ctx, bad);
-	p->fprog = eval_compile(p->ctx, 1, &p->in->f, p->nvars, p->vars, &bad);
+	const expr *f = scaled(p, by, check_plan_concrete(p, p->in->f));
+	if (!f)
+		return xstrdup("check could not form f");
+	p->fprog = eval_compile(p->ctx, 1, &f, p->nvars, p->vars, &bad);
 	if (!p->fprog)
 		return cannot_evaluate(p->ctx, bad);
 	p->nclaim = 1 + nn;
 	const expr **claim = xcalloc(p->nclaim, sizeof *claim);
-	claim[0] = p->in->d->dt;
+	claim[0] = scaled(p, by, check_plan_concrete(p, p->in->d->dt));
 	for (size_t a = 0; a < nn; a++)
-		claim[1 + a] = p->noise[a] < p->in->d->n ? p->in->d->dw[p->noise[a]] : expr_int(p->ctx, 0);
+		claim[1 + a] =
+		        scaled(p, by,
+		               check_plan_concrete(p, p->noise[a] < p->in->d->n ? p->in->d->dw[p->noise[a]]
+		                                                                : expr_int(p->ctx, 0)));
+	for (size_t i = 0; i < p->nclaim; i++)
+		if (!claim[i]) {
+			free(claim);
+			return xstrdup("check could not form the tested coefficients");
+		}
 	p->cprog = eval_compile(p->ctx, p->nclaim, claim, p->nvars, p->vars, &bad);
 	free(claim);
 	if (!p->cprog)
@@ -313,9 +384,14 @@ char *check_plan_make(check_plan *p)
 		error = plan_correlations(p);
 	if (!error) {
 		p->truncate = xcalloc(p->nproc + 1, sizeof *p->truncate);
-		for (size_t i = 0; i < p->nproc; i++)
-			p->truncate[i] = model_sde_of(p->m, p->vars[i]) &&
-			                 !(expr_sym_sign(p->vars[i]) & EXPR_SIGN_NEG);
+		for (size_t i = 0; i < p->nproc; i++) {
+			int sign = expr_sym_sign(p->vars[i]);
+			if (!model_sde_of(p->m, p->vars[i]) || (sign & EXPR_SIGN_NEG))
+				p->truncate[i] = SIM_PATHS_FREE;
+			else
+				p->truncate[i] =
+				        sign & EXPR_SIGN_ZERO ? SIM_PATHS_TRUNCATE : SIM_PATHS_REFLECT;
+		}
 		error = plan_programs(p);
 	}
 	if (!error)
@@ -335,6 +411,8 @@ char *check_plan_make(check_plan *p)
 		                             .ncoef = p->ncoef,
 		                             .nclaim = p->nclaim,
 		                             .horizon = p->in->horizon,
-		                             .seed = p->in->seed};
+		                             .seed = p->in->seed,
+		                             .progress = p->in->progress,
+		                             .progress_data = p->in->progress_data};
 	return error;
 }

@@ -7,15 +7,19 @@
  * derivative that Itô's formula uses; the paths (sim-paths.c) give the
  * realised quadratic variation, the martingale residual and the covariation
  * with each noise, each a mean that is zero when the claim is right.  Here
- * they become a check_result: each mean with its z-score, and the verdict.
- * Paths whose statistics are not finite are counted, left out and reported;
- * over 1% of them make the verdict inconsistent.  The writers (write-check.c,
- * write-json.c) write the result in each output format.
+ * they become a check_result: each mean against its tolerance (standard
+ * errors, the discretisation bias estimated from three grids, rounding) and
+ * the verdict: consistent, inconsistent, or undecided when the experiment
+ * cannot judge (paths left the domain or overflowed, too few usable paths or
+ * steps, a finite difference that cannot be formed, f not representable in
+ * double precision).  The writers (write-check.c, write-json.c) write the
+ * result in each output format.
  */
 #include <config.h>
 
 #include "crosscheck.h"
 
+#include <float.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -24,18 +28,34 @@
 #include "xalloc.h"
 
 static const double check_z_tolerance = 4;
-static const double check_bad_fraction = 0.01;
 static const double check_default_work = 2e8;
-enum { CHECK_CONV_PATHS = 1000 };
+enum { CHECK_CONV_PATHS = 1000, CHECK_MIN_PATHS = 100 };
 
-/* z = mean / se, with a rounding floor on se of 1e-9 times the size of the
- * terms summed, so that an exact deterministic identity gives z = 0. */
-static check_zstat zstat_of(const sim_stat *ext, const sim_stat *fine, double magnitude)
+/* The estimate of the bias of R(h): of the grid differences D1 and D2, the
+ * one with the larger |mean| + z_tol se; its |mean| and its se. */
+static void bias_estimate(const sim_stat *d1, const sim_stat *d2, double *bias, double *se)
 {
-	check_zstat z = {.n = ext->n, .mean = ext->mean, .se = sim_stat_se(ext), .fine = fine->mean};
-	double se = fmax(z.se, 1e-9 * fabs(magnitude));
-	z.z = se > 0 ? z.mean / se : (z.mean == 0 ? 0 : copysign(INFINITY, z.mean));
-	z.ok = ext->n > 1 && isfinite(z.z) && fabs(z.z) < check_z_tolerance;
+	double se1 = sim_stat_se(d1), se2 = sim_stat_se(d2);
+	bool first = fabs(d1->mean) + check_z_tolerance * se1 >= fabs(d2->mean) + check_z_tolerance * se2;
+	*bias = fabs(first ? d1->mean : d2->mean);
+	*se = first ? se1 : se2;
+}
+
+/* A statistic against its tolerance z_tol sqrt(se^2 + se_bias^2) + |bias| +
+ * rounding: its own sampling error and that of the bias estimate, the bias
+ * estimate, and the rounding allowance 8 eps N m, with m the mean size of
+ * the terms summed along a path (each of the N steps' terms is computed with
+ * a relative error of a few eps, and the sums accumulate at most N of them).
+ * Without randomness (se = 0) only the bias and the rounding remain. */
+static check_zstat zstat_of(const sim_paths_totals *total, size_t i, long steps)
+{
+	const sim_stat *ext = &total->ext[i];
+	check_zstat z = {.n = ext->n, .mean = ext->mean, .se = sim_stat_se(ext), .fine = total->fine[i].mean};
+	z.z = z.se > 0 ? z.mean / z.se : NAN;
+	bias_estimate(&total->d1[i], &total->d2[i], &z.bias, &z.bias_se);
+	z.rounding = 8 * DBL_EPSILON * (double)steps * fabs(total->mag.mean);
+	z.tolerance = check_z_tolerance * hypot(z.se, z.bias_se) + z.bias + z.rounding;
+	z.ok = ext->n > 1 && isfinite(z.mean) && isfinite(z.tolerance) && fabs(z.mean) <= z.tolerance;
 	return z;
 }
 
@@ -64,6 +84,15 @@ static void record_setup(check_plan *p, check_result *out)
 	s->paths = in->paths;
 	s->seed = in->seed;
 	s->hand_derived = in->hand_derived;
+	s->nconcrete = in->nconcrete;
+	s->concrete = xcalloc(in->nconcrete + 1, sizeof *s->concrete);
+	for (size_t i = 0; i < in->nconcrete; i++) {
+		const expr **formals = xcalloc(in->concrete[i].nargs + 1, sizeof *formals);
+		for (size_t j = 0; j < in->concrete[i].nargs; j++)
+			formals[j] = in->concrete[i].formals[j];
+		s->concrete[i] = in->concrete[i];
+		s->concrete[i].formals = formals;
+	}
 	s->drift = in->d->dt;
 	s->note = p->note;
 	p->note = NULL;
@@ -76,25 +105,31 @@ static void record_fd(check_result *out, check_fd_row *rows, size_t nrows)
 	out->fd = rows;
 	out->nfd = nrows;
 	for (size_t i = 0; i < nrows; i++)
-		if (!rows[i].ok)
+		if (!rows[i].formed)
+			add_reason(out, CHECK_REASON_FD_SCALE, i);
+		else if (!rows[i].ok)
 			add_reason(out, CHECK_REASON_FD, i);
 }
 
-/* The statistics of the paths and the reasons they give, in the order of the report. */
+/* The statistics of the paths and the reasons they give, in the order of the
+ * report.  Paths left out (not finite) or too few paths make the experiment
+ * unable to judge: the verdict is then undecided, never inconsistent. */
 static void record_sim(const check_plan *p, const sim_paths_totals *total, check_result *out)
 {
 	const check_input *in = p->in;
 	check_simulation *sim = &out->sim;
-	double mag = total->mag.mean;
-	sim->qv = zstat_of(&total->ext[SIM_PATHS_QV], &total->fine[SIM_PATHS_QV], mag);
-	sim->residual = zstat_of(&total->ext[SIM_PATHS_RESID], &total->fine[SIM_PATHS_RESID], mag);
-	sim->terminal = zstat_of(&total->ext[SIM_PATHS_TERMINAL], &total->fine[SIM_PATHS_TERMINAL], 0);
+	sim->qv = zstat_of(total, SIM_PATHS_QV, in->steps);
+	sim->residual = zstat_of(total, SIM_PATHS_RESID, in->steps);
+	sim->terminal = zstat_of(total, SIM_PATHS_TERMINAL, in->steps);
 	sim->qv_realised = total->qv.mean;
 	sim->qv_predicted = total->integ.mean;
-	sim->coarse_steps = in->steps >= 2 ? (in->steps + 1) / 2 : 0;
+	sim->grids = sim_paths_grids(in->steps);
+	sim->coarse_steps = sim->grids >= 2 ? (in->steps + 1) / 2 : 0;
 	sim->paths_used = (long)total->ext[0].n;
 	sim->bad_paths = total->bad;
 	sim->truncated_paths = total->below;
+	sim->scale = p->scale;
+	sim->min_paths = CHECK_MIN_PATHS;
 	if (!sim->qv.ok)
 		add_reason(out, CHECK_REASON_QV, 0);
 	if (!sim->residual.ok)
@@ -108,13 +143,33 @@ static void record_sim(const check_plan *p, const sim_paths_totals *total, check
 		check_noise *noise = &out->noises[a];
 		noise->name = renamed ? in->q->names[k] : p->m->noises[k];
 		noise->coefficient = k < in->d->n ? in->d->dw[k] : NULL;
-		noise->covariation =
-		        zstat_of(&total->ext[SIM_PATHS_COV + a], &total->fine[SIM_PATHS_COV + a], mag);
+		noise->covariation = zstat_of(total, SIM_PATHS_COV + a, in->steps);
 		if (!noise->covariation.ok)
 			add_reason(out, CHECK_REASON_COVARIATION, a);
 	}
-	if ((double)total->bad > check_bad_fraction * (double)in->paths)
+	if (total->bad > 0)
 		add_reason(out, CHECK_REASON_BAD_PATHS, 0);
+	if (sim->paths_used < CHECK_MIN_PATHS)
+		add_reason(out, CHECK_REASON_FEW_PATHS, 0);
+	if (sim->grids < 3)
+		add_reason(out, CHECK_REASON_FEW_STEPS, 0);
+}
+
+/* Inconsistent when a finite difference is off (those do not depend on the
+ * paths), or when a statistic is off and nothing makes the experiment unable
+ * to judge; undecided when something does; consistent without reasons. */
+static check_verdict verdict_of(const check_result *out)
+{
+	bool fd_off = false, undecided = false;
+	for (size_t i = 0; i < out->nreasons; i++) {
+		fd_off = fd_off || out->reasons[i].kind == CHECK_REASON_FD;
+		undecided = undecided || CHECK_REASON_UNDECIDES(out->reasons[i].kind);
+	}
+	if (fd_off)
+		return CHECK_INCONSISTENT;
+	if (undecided)
+		return CHECK_UNDECIDED;
+	return out->nreasons ? CHECK_INCONSISTENT : CHECK_CONSISTENT;
 }
 
 static void record_conv(const sim_paths_conv *conv, size_t npaths, check_result *out)
@@ -177,10 +232,13 @@ void check_run(expr_ctx *ctx, const check_input *in, check_result *out)
 	} else {
 		record_setup(&p, out);
 		record_fd(out, rows, nrows);
+		if (p.unrepresentable)
+			add_reason(out, CHECK_REASON_UNREPRESENTABLE, 0);
 		record_sim(&p, &total, out);
 		if (in->verbose && conv_paths >= 2)
 			record_conv(&conv, conv_paths, out);
-		out->consistent = out->nreasons == 0;
+		out->verdict = verdict_of(out);
+		out->consistent = out->verdict == CHECK_CONSISTENT;
 	}
 	sim_paths_totals_free(&total);
 	check_plan_free(&p);
@@ -192,6 +250,9 @@ void check_result_free(check_result *result)
 	free(result->setup.symbols);
 	free(result->setup.values);
 	free(result->setup.note);
+	for (size_t i = 0; i < result->setup.nconcrete; i++)
+		free((void *)result->setup.concrete[i].formals);
+	free(result->setup.concrete);
 	free(result->fd);
 	free(result->noises);
 	free(result->conv);

@@ -23,12 +23,24 @@
 #include "ito.h"
 #include "model.h"
 
+/* A concrete form for a generic function: func(formals) = body.  The check
+ * evaluates the function and its partials (f_x, f_xy, ... as the engine's
+ * differential has them) from it. */
+typedef struct check_concrete {
+	const expr *func;           /* the generic function's symbol */
+	size_t nargs;               /* its arity */
+	const expr *const *formals; /* nargs distinct symbols */
+	const expr *body;           /* an expression in the formals (and the model's names) */
+} check_concrete;
+
 typedef struct check_input {
 	model *m;
 	const model_measure *q; /* NULL: the model's own measure */
 	const expr *f;          /* the expression whose differential is checked */
 	const ito_diff *d;      /* the differential to test (drift and one coefficient per noise) */
 	bool hand_derived;      /* d came from the user: skip finite differences */
+	size_t nconcrete;       /* concrete forms for generic functions (`where`) */
+	const check_concrete *concrete;
 	/* the point: values for every parameter and state that f and the model use */
 	size_t nvalues;
 	const expr **symbols;
@@ -40,6 +52,9 @@ typedef struct check_input {
 	bool milstein; /* otherwise Euler-Maruyama */
 	bool verbose;  /* add the convergence table */
 	long max_work; /* limit on steps*paths; 0 for the default */
+	/* called now and then with the share of the simulation done (0..1); may be NULL */
+	void (*progress)(void *data, double done);
+	void *progress_data;
 } check_input;
 
 /* One partial derivative of f against its central difference. */
@@ -51,16 +66,28 @@ typedef struct check_fd_row {
 	double error;       /* |engine - difference| / max(1, |engine|) */
 	double tolerance;   /* the bound on error: the relative tolerance plus the rounding */
 	bool ok;            /* error within tolerance */
+	bool formed;        /* both values could be formed at the point (finite, in the domain) */
+	char engine_text[32], difference_text[32]; /* the values to 10 digits (also beyond double range) */
 } check_fd_row;
 
-/* The mean of a statistic that is zero when the claim is right. */
+/* The mean of a statistic that is zero when the claim is right.  It is
+ * judged by a tolerance made of three parts: z_tolerance standard errors
+ * (of the mean and of the bias estimate), the discretisation bias estimated
+ * from the grids, and the allowance for floating-point rounding over the
+ * steps; so a statistic without randomness (se = 0) is judged by the
+ * last two alone, never by a z-score. */
 typedef struct check_zstat {
-	double n;    /* paths in the mean */
-	double mean; /* mean of the extrapolated 2 S(h) - S(2h) (S(h) alone for one step) */
-	double se;   /* its standard error */
-	double z;    /* mean / se, se floored at the rounding of the terms summed */
-	double fine; /* mean on the fine grid alone */
-	bool ok;     /* n > 1 and |z| below the tolerance */
+	double n;         /* paths in the mean */
+	double mean;      /* mean of the extrapolated R(h) = 2 S(h) - S(2h) (S(h) alone for one step) */
+	double se;        /* its standard error */
+	double z;         /* mean / se; NaN when se = 0 */
+	double fine;      /* mean on the fine grid alone */
+	double bias;      /* the estimated bias of R(h): |mean D| of the grid difference D1 = S(h) - S(2h)
+	                   * or D2 = R(h) - R(2h), whichever has the larger |mean D| + z_tol se(D) */
+	double bias_se;   /* se(D) */
+	double rounding;  /* allowance for rounding: 8 eps steps times the mean size of the terms */
+	double tolerance; /* z_tol sqrt(se^2 + bias_se^2) + bias + rounding */
+	bool ok;          /* n > 1 and |mean| <= tolerance */
 } check_zstat;
 
 /* A noise that plays a part, in model order. */
@@ -80,35 +107,49 @@ typedef struct check_conv_row {
 	double first_variation; /* mean sum |df| */
 } check_conv_row;
 
-/* Why a check is inconsistent. */
+/* The verdicts: the numbers agree with the differential, they are evidence
+ * against it, or the experiment could not judge it. */
+typedef enum check_verdict { CHECK_CONSISTENT, CHECK_INCONSISTENT, CHECK_UNDECIDED } check_verdict;
+
+/* Why a check is inconsistent (the first five) or undecided (the rest). */
 typedef enum check_reason_kind {
-	CHECK_REASON_FD,          /* a finite difference disagrees (index: the row) */
-	CHECK_REASON_QV,          /* the quadratic variation disagrees with the diffusion */
-	CHECK_REASON_RESIDUAL,    /* the martingale residual is not zero (the drift) */
-	CHECK_REASON_COVARIATION, /* a covariation disagrees with its coefficient (index: the noise) */
-	CHECK_REASON_BAD_PATHS    /* over 1% of the paths left the domain */
+	CHECK_REASON_FD,             /* a finite difference disagrees (index: the row) */
+	CHECK_REASON_QV,             /* the quadratic variation disagrees with the diffusion */
+	CHECK_REASON_RESIDUAL,       /* the martingale residual is not zero (the drift) */
+	CHECK_REASON_COVARIATION,    /* a covariation disagrees with its coefficient (index: the noise) */
+	CHECK_REASON_BAD_PATHS,      /* undecided: paths left the domain or overflowed (NaN or Inf) */
+	CHECK_REASON_FEW_PATHS,      /* undecided: too few usable paths */
+	CHECK_REASON_FEW_STEPS,      /* undecided: under 4 steps, no estimate of the discretisation bias */
+	CHECK_REASON_FD_SCALE,       /* undecided: a finite difference cannot be formed (index: the row) */
+	CHECK_REASON_UNREPRESENTABLE /* undecided: f or a coefficient is not representable in double
+	                              * precision at the point (underflow or overflow) */
 } check_reason_kind;
 
+/* Whether a reason makes the verdict undecided rather than inconsistent. */
+#define CHECK_REASON_UNDECIDES(kind) ((kind) >= CHECK_REASON_BAD_PATHS)
+
 typedef struct check_reason {
-	check_reason_kind kind; /* what disagrees */
+	check_reason_kind kind; /* what disagrees, or why the experiment cannot judge */
 	size_t index;           /* the row of fd or of noises it concerns; 0 otherwise */
 } check_reason;
 
 /* What was checked and how. */
 typedef struct check_setup {
-	const expr *f;        /* the expression */
-	size_t nvalues;       /* the point as given */
-	const expr **symbols; /* nvalues symbols */
-	double *values;       /* nvalues values */
-	bool milstein;        /* the scheme used: Milstein, else Euler-Maruyama */
-	double horizon;       /* T */
-	long steps, paths;    /* steps of the fine grid, paths asked for */
-	unsigned long seed;   /* the seed of the streams */
-	bool hand_derived;    /* the differential was the user's: no finite differences */
-	const expr *drift;    /* the tested differential's drift (its dW terms: check_noise) */
-	char *note;           /* a remark on the plan (Milstein not applicable), or NULL */
-	double z_tolerance;   /* a statistic is consistent when |z| is below this */
-	double fd_tolerance;  /* the relative tolerance of the finite differences */
+	const expr *f;            /* the expression */
+	size_t nvalues;           /* the point as given */
+	const expr **symbols;     /* nvalues symbols */
+	double *values;           /* nvalues values */
+	bool milstein;            /* the scheme used: Milstein, else Euler-Maruyama */
+	double horizon;           /* T */
+	long steps, paths;        /* steps of the fine grid, paths asked for */
+	unsigned long seed;       /* the seed of the streams */
+	bool hand_derived;        /* the differential was the user's: no finite differences */
+	size_t nconcrete;         /* the concrete forms used (`where`) */
+	check_concrete *concrete; /* nconcrete, each with its own copy of the formals */
+	const expr *drift;        /* the tested differential's drift (its dW terms: check_noise) */
+	char *note;               /* a remark on the plan (Milstein not applicable), or NULL */
+	double z_tolerance;       /* a statistic is consistent when |z| is below this */
+	double fd_tolerance;      /* the relative tolerance of the finite differences */
 } check_setup;
 
 /* The simulation's statistics. */
@@ -122,11 +163,16 @@ typedef struct check_simulation {
 	long paths_used;      /* paths in the statistics */
 	long bad_paths;       /* paths with NaN or Inf, left out */
 	long truncated_paths; /* paths on which full truncation acted */
+	size_t grids;         /* grids of the bias estimate: 3 (N, N/2, N/4), 2 or 1 */
+	double scale;         /* the statistics are of f / scale (a power of 2; 1 unless f is huge or tiny) */
+	long min_paths;       /* usable paths needed for a verdict */
 } check_simulation;
 
 typedef struct check_result {
-	bool consistent;   /* no reasons */
-	bool limit_hit;    /* steps*paths over the limit, or interrupted: nothing was reported */
+	check_verdict verdict; /* consistent: no reasons; undecided: a reason that undecides and no
+	                        * finite difference off */
+	bool consistent;       /* verdict == CHECK_CONSISTENT */
+	bool limit_hit;        /* steps*paths over the limit, or interrupted: nothing was reported */
 	char *error;       /* set when the check could not run (a missing value, ...); then nothing else is */
 	check_setup setup; /* what was checked */
 	size_t nfd;        /* finite-difference rows (none when hand derived) */
@@ -138,7 +184,7 @@ typedef struct check_result {
 	long conv_bad;         /* of them, left out of the table (NaN or Inf) */
 	size_t nconv;          /* rows of the table */
 	check_conv_row *conv;  /* nconv rows, coarsest first */
-	size_t nreasons;       /* why inconsistent */
+	size_t nreasons;       /* why inconsistent or undecided */
 	check_reason *reasons; /* nreasons, in the order found */
 } check_result;
 

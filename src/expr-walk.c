@@ -183,6 +183,7 @@ size_t expr_size(const expr *e)
 
 typedef struct rebuild_job {
 	expr_leaf_fn leaf;
+	expr_fapp_fn fapp;
 	void *data;
 	expr_map memo;
 } rebuild_job;
@@ -225,9 +226,16 @@ static const expr *rebuild_rec(expr_ctx *ctx, const expr *e, rebuild_job *job)
 		break;
 	case EXPR_FAPP: {
 		const expr *args[EXPR_MAX_FUNC_ARGS];
-		for (size_t i = 0; i < e->nops; i++)
+		bool complete = true;
+		for (size_t i = 0; i < e->nops; i++) {
 			args[i] = rebuild_rec(ctx, e->u.fapp.args[i], job);
-		result = expr_fapp(ctx, e->u.fapp.func, e->u.fapp.counts, args);
+			complete = complete && args[i];
+		}
+		if (!complete)
+			break;
+		result = job->fapp ? job->fapp(ctx, e, args, job->data) : NULL;
+		if (!result && !expr_error(ctx))
+			result = expr_fapp(ctx, e->u.fapp.func, e->u.fapp.counts, args);
 		break;
 	}
 	default:
@@ -243,6 +251,16 @@ const expr *expr_rebuild(expr_ctx *ctx, const expr *e, expr_leaf_fn leaf, void *
 	if (!e)
 		return NULL;
 	rebuild_job job = {.leaf = leaf, .data = data};
+	const expr *result = rebuild_rec(ctx, e, &job);
+	expr_map_free(&job.memo);
+	return result;
+}
+
+const expr *expr_rebuild_fapp(expr_ctx *ctx, const expr *e, expr_fapp_fn fapp, void *data)
+{
+	if (!e)
+		return NULL;
+	rebuild_job job = {.fapp = fapp, .data = data};
 	const expr *result = rebuild_rec(ctx, e, &job);
 	expr_map_free(&job.memo);
 	return result;

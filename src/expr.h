@@ -188,6 +188,12 @@ size_t expr_size(const expr *e);
 typedef const expr *(*expr_leaf_fn)(const expr *sym, void *data);
 const expr *expr_rebuild(expr_ctx *ctx, const expr *e, expr_leaf_fn leaf, void *data);
 
+/* Rebuild e with each generic function application replaced by
+ * fapp(ctx, node, rebuilt arguments, data), or kept when that returns NULL
+ * (and no error is set in the context). */
+typedef const expr *(*expr_fapp_fn)(expr_ctx *ctx, const expr *fapp, const expr *const *args, void *data);
+const expr *expr_rebuild_fapp(expr_ctx *ctx, const expr *e, expr_fapp_fn fapp, void *data);
+
 /* Substitute: replace each symbol olds[i] by news[i] (simultaneously). */
 const expr *expr_subst(expr_ctx *ctx, const expr *e, size_t n, const expr *const *olds,
 		       const expr *const *news);

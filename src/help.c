@@ -92,7 +92,15 @@
 		   "  the reason).  A failed or undecided claim makes the exit status 1.\n"          \
 		   "  example:  claim d log(S) = (mu - sigma^2/2)*dt + sigma*dW\n")                   \
 	X("check", "check [d] EXPR [= DIFFERENTIAL] at NAME=VALUE, ... [over T=1, steps=..., paths=...]\n" \
-		   "  A numerical cross-check by finite differences and simulation.\n"                \
+		   "      [where FUNC(ARGS) = EXPR, ...] [verbose]\n"                                   \
+		   "  A numerical cross-check by finite differences (in ball arithmetic) and\n"      \
+		   "  simulated paths on three grids, whose changes give the discretisation bias\n"   \
+		   "  that the tolerance includes.  Verdicts: consistent, inconsistent (evidence\n"   \
+		   "  against the differential) or undecided (the experiment cannot judge: paths\n"  \
+		   "  left the domain or overflowed, too few paths or steps, a value beyond double\n"\
+		   "  precision), each with its reason; only consistent exits 0.  where gives a\n"    \
+		   "  generic function a concrete form for the check; the differential keeps the\n"  \
+		   "  generic partials and the check evaluates them from that form.\n"             \
 		   "  example:  check d log(S) at S=100, mu=0.05, sigma=0.2\n")                       \
 	X("partial", "partial(EXPR, x [, y ...])\n  A partial derivative.  example:  partial(S^3, S)\n") \
 	X("show", "show [NAME]\n  The model (or one name) as a script.  example:  show\n")           \
@@ -136,7 +144,7 @@ static const char overview[] =
 	"                are functions inside expressions: drift(S)/S\n"
 	"                sde, any query followed by: under MEASURE\n"
 	"  algebra       coefficients (in) forward moments\n"
-	"  verification  claim check (at, over, verbose)\n"
+	"  verification  claim check (at, over, where, verbose)\n"
 	"  session       show save load forget format help quit\n"
 	"Example:\n"
 	"  param mu, sigma > 0\n"

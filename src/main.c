@@ -189,6 +189,7 @@ int main(int argc, char **argv)
 	}
 	opt.interrupt = &interrupt_flag;
 	opt.time_limit = time_limit;
+	opt.progress = isatty(STDERR_FILENO);
 	if (time_limit > 0) {
 		signal(SIGALRM, on_alarm);
 		opt.before_statement = arm_timer;

@@ -13,6 +13,7 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
 
 #include "crosscheck.h"
 #include "print.h"
@@ -579,6 +580,80 @@ static bool check_option(session *s, const ast_node *as, double v, check_input *
 	return true;
 }
 
+/* The progress line of a long check: shown on the session's error stream
+ * when the session asks for it (the command line does when standard error is
+ * a terminal) and the check has run for over a second; erased at the end. */
+typedef struct check_progress {
+	FILE *err;
+	struct timespec start;
+	bool shown;
+} check_progress;
+
+static double seconds_since(const struct timespec *start)
+{
+	struct timespec now;
+	clock_gettime(CLOCK_MONOTONIC, &now);
+	return (double)(now.tv_sec - start->tv_sec) + 1e-9 * (double)(now.tv_nsec - start->tv_nsec);
+}
+
+static void show_progress(void *data, double done)
+{
+	check_progress *pr = data;
+	double elapsed = seconds_since(&pr->start);
+	if (elapsed < 1)
+		return;
+	fprintf(pr->err, "\rcheck: %3.0f%% of the paths simulated (%.0f s)", 100 * done, elapsed);
+	fflush(pr->err);
+	pr->shown = true;
+}
+
+static void end_progress(check_progress *pr)
+{
+	if (pr->shown)
+		fprintf(pr->err, "\r%50s\r", "");
+}
+
+/* The concrete forms of `check ... where g(x, y) = body, ...` (formals in
+ * one array, nargs apiece); false after a message. */
+static bool lower_concretes(session *s, const ast_node *list, check_concrete *out, const expr **formals)
+{
+	size_t used = 0;
+	for (size_t i = 0; list && i < list->nitems; i++) {
+		const ast_node *c = list->items[i];
+		model_entry *entry = lookup_kind(s, &c->loc, c->text, MODEL_FUNC);
+		if (!entry)
+			return false;
+		size_t arity = expr_func_arity(entry->sym);
+		if (c->nitems != arity) {
+			report(s, SESSION_INPUT, &c->loc, "'%s' takes %zu argument%s, not %zu", c->text, arity,
+			       arity == 1 ? "" : "s", c->nitems);
+			return false;
+		}
+		for (size_t k = 0; k < i; k++)
+			if (out[k].func == entry->sym) {
+				report(s, SESSION_INPUT, &c->loc, "'%s' is given two concrete forms", c->text);
+				return false;
+			}
+		out[i] = (check_concrete){.func = entry->sym, .nargs = arity, .formals = formals + used};
+		for (size_t j = 0; j < arity; j++) {
+			const expr *sym = variable_symbol(s, c->items[j], "cannot use", " as an argument here");
+			if (!sym)
+				return false;
+			for (size_t k = 0; k < j; k++)
+				if (formals[used + k] == sym) {
+					report(s, SESSION_INPUT, &c->items[j]->loc, "the argument '%s' is repeated",
+					       c->items[j]->text);
+					return false;
+				}
+			formals[used + j] = sym;
+		}
+		used += arity;
+		if (!eval_scalar(s, c->a, &out[i].body))
+			return false;
+	}
+	return true;
+}
+
 bool run_check(session *s, const ast_node *st)
 {
 	model *m = &s->model;
@@ -644,9 +719,24 @@ bool run_check(session *s, const ast_node *st)
 	}
 	in.symbols = symbols;
 	in.values = values;
+	size_t nconcrete = st->c ? st->c->nitems : 0, nformals = 0;
+	for (size_t i = 0; i < nconcrete; i++)
+		nformals += st->c->items[i]->nitems;
+	check_concrete *concrete = xcalloc(nconcrete + 1, sizeof *concrete);
+	const expr **formals = xcalloc(nformals + 1, sizeof *formals);
+	ok = ok && lower_concretes(s, st->c, concrete, formals);
+	in.nconcrete = nconcrete;
+	in.concrete = concrete;
 	if (ok) {
 		check_result result;
+		check_progress progress = {.err = s->opt.err};
+		if (s->opt.progress && s->opt.err) {
+			clock_gettime(CLOCK_MONOTONIC, &progress.start);
+			in.progress = show_progress;
+			in.progress_data = &progress;
+		}
 		check_run(s->ctx, &in, &result);
+		end_progress(&progress);
 		if (result.error && expr_error(s->ctx) == EXPR_ERR_INTERRUPTED) {
 			engine_failed(s, &st->loc); /* says whether it was Ctrl-C or the time limit */
 			ok = false;
@@ -666,6 +756,8 @@ bool run_check(session *s, const ast_node *st)
 	}
 	free(symbols);
 	free(values);
+	free(concrete);
+	free(formals);
 	ito_diff_free(&engine);
 	value_free(&hand);
 	return ok;

@@ -40,6 +40,7 @@ typedef struct session_options {
 	size_t claim_points;			/* points of a claim's numeric test; 0: default (fuzzing: fewer) */
 	size_t memory_limit;			/* bytes of symbolic work; 0: SESSION_MEMORY_LIMIT */
 	size_t output_limit;			/* bytes of one printed result; 0: SESSION_OUTPUT_LIMIT */
+	bool progress;				/* a check that runs over a second shows its progress on err */
 	void *hook_data;
 } session_options;
 

@@ -17,16 +17,32 @@
  *
  * Discretisation bias.  Conditionally on X_k one step of the scheme gives
  * E[(df)^2] - g^2 h = O(h^2) and E[df] - a h = O(h^2), so all statistics have
- * a bias c*h + O(h^2).  Every path is run on two grids driven by the same
- * Brownian increments, N steps and N/2 steps (pairs of increments summed), and
- * the statistic used is the Richardson combination 2 S(h) - S(2h), whose bias
- * is O(h^2) (Talay and Tubaro's expansion of the weak error, from memory).
+ * a bias c*h + O(h^2).  Every path is run on three grids driven by the same
+ * Brownian increments (common random numbers): N steps, N/2 and N/4 (pairs
+ * and quadruples of increments summed).  The statistic tested is the
+ * Richardson combination R(h) = 2 S(h) - S(2h), whose bias is O(h^2) (Talay
+ * and Tubaro's expansion of the weak error; Kloeden and Platen, 14.6, from
+ * memory).  Its remaining bias is bounded from the same paths by the changes
+ * between the grids, D1 = S(h) - S(2h) (the size of the first-order bias the
+ * combination removes) and D2 = R(h) - R(2h) (the change of the combination
+ * itself, about three times its own bias when the expansion holds); check.c
+ * puts the larger, with its standard error, into the tolerance.
  *
- * Domain.  States assumed positive or nonnegative get full truncation: the
- * coefficients of the SDEs, and those of the claim, see max(x, 0) (Lord,
- * Koekkoek and van Dijk, Quantitative Finance 2010); f itself is evaluated at
- * the state as simulated.  Paths whose statistics are not finite are counted
- * and left out.
+ * Domain.  A step of Euler's scheme can take a state that stays positive
+ * (a square-root diffusion under Feller's condition) below 0.  Two of the
+ * fixes compared by Lord, Koekkoek and van Dijk ("A comparison of biased
+ * simulation schemes for stochastic volatility models", Quantitative Finance
+ * 10(2), 2010, from memory) are used.  States assumed nonnegative (x >= 0)
+ * get full truncation: the state may go below 0, but the coefficients of the
+ * SDEs, those of the claim and f itself see max(x, 0) (the scheme they found
+ * least biased).  States assumed positive (x > 0) get reflection, x := |x|
+ * after each step (the symmetrised Euler scheme; for the CIR process,
+ * Berkaoui, Bossy and Diop, ESAIM: Probability and Statistics 12, 2008, from
+ * memory), which keeps them in the open domain, where f and a claim such as
+ * d sqrt(v) = (c/sqrt(v) - ...) dt + ... are finite (at 0 they are not).
+ * The bias either fix adds is part of what the grids measure.  Paths whose
+ * statistics are still not finite (f undefined, overflow) are counted and
+ * left out; check.c then calls the verdict undecided.
  *
  * Threads.  Paths run in blocks of SIM_PATHS_BLOCK; block j draws from SIM_LANES
  * streams side by side, the seed's stream jumped j SIM_LANES + k times for
@@ -59,13 +75,25 @@ typedef struct scheme {
 	unsigned char *below;
 } scheme;
 
-/* f at the states as simulated: s->x has the layout of the program's
- * variables (states, t, parameters), so only the time row changes. */
-static void scheme_eval_f(const sim_paths_model *p, scheme *s, size_t B, double *out)
+/* s->vars := the states as the coefficients and f see them (max(x, 0) for
+ * truncated states) and the time; it has the layout of the programs'
+ * variables (states, t, parameters). */
+ITOX_VECTOR static void scheme_truncate(const sim_paths_model *p, scheme *s, size_t B)
 {
+	size_t np = p->nproc;
+	for (size_t i = 0; i < np; i++) {
+		const double *restrict x = s->x + i * B;
+		double *restrict v = s->vars + i * B;
+		if (p->truncate[i] == SIM_PATHS_TRUNCATE)
+			ITOX_INDEPENDENT
+		for (size_t q = 0; q < B; q++)
+			v[q] = x[q] < 0 ? 0 : x[q];
+		else memcpy(v, x, B * sizeof *v);
+	}
+	double *restrict tv = s->vars + np * B;
+	ITOX_INDEPENDENT
 	for (size_t q = 0; q < B; q++)
-		s->x[p->nproc * B + q] = s->t;
-	eval_run(p->fprog, B, s->x, out);
+		tv[q] = s->t;
 }
 
 static void scheme_init(const sim_paths_model *p, scheme *s, size_t B, long ratio)
@@ -74,7 +102,7 @@ static void scheme_init(const sim_paths_model *p, scheme *s, size_t B, long rati
 	s->ratio = ratio;
 	s->pending = 0;
 	s->t = p->point[np];
-	s->x = xmalloc(p->nvars * B * sizeof *s->x);
+	s->x = xmalloc(np * B * sizeof *s->x + 1);
 	s->vars = xmalloc(p->nvars * B * sizeof *s->vars);
 	s->cout = xmalloc((p->ncoef + 1) * B * sizeof *s->cout);
 	s->claim = xmalloc(p->nclaim * B * sizeof *s->claim);
@@ -94,8 +122,9 @@ static void scheme_init(const sim_paths_model *p, scheme *s, size_t B, long rati
 			s->x[i * B + q] = p->point[i];
 	for (size_t v = np + 1; v < p->nvars; v++)
 		for (size_t q = 0; q < B; q++)
-			s->vars[v * B + q] = s->x[v * B + q] = p->point[v];
-	scheme_eval_f(p, s, B, s->fcur);
+			s->vars[v * B + q] = p->point[v];
+	scheme_truncate(p, s, B);
+	eval_run(p->fprog, B, s->vars, s->fcur);
 }
 
 static void scheme_free(scheme *s)
@@ -162,7 +191,8 @@ ITOX_VECTOR static void step_stats(const sim_paths_model *p, scheme *s, size_t B
 		integ[q] += g2[q] * h;
 		resid[q] += d - drift[q] * h - bdw[q];
 		fv[q] += fabs(d);
-		magsum[q] += mag[q] + d * d + fabs(g2[q]) * h + fabs(d) + fabs(drift[q]) * h + fabs(bdw[q]);
+		magsum[q] += mag[q] + d * d + fabs(g2[q]) * h + fabs(d) + fabs(drift[q]) * h + fabs(bdw[q]) +
+		             fabs(f0[q]);
 	}
 }
 
@@ -186,28 +216,17 @@ ITOX_VECTOR static void step_stats_one_noise(const sim_paths_model *p, scheme *s
 		integ[q] += g2 * h;
 		resid[q] += df - drift[q] * h - bdw;
 		fv[q] += fabs(df);
-		magsum[q] += mag + df * df + fabs(g2) * h + fabs(df) + fabs(drift[q]) * h + fabs(bdw);
+		magsum[q] += mag + df * df + fabs(g2) * h + fabs(df) + fabs(drift[q]) * h + fabs(bdw) +
+		             fabs(f0[q]);
 	}
 }
 
 /* One step of size h with the increments s->dw: X += a h + b dW (+ Milstein),
- * the coefficients at max(X, 0) for truncated states; then the sums. */
+ * the coefficients at s->vars (max(X, 0) for truncated states); then f at
+ * the new s->vars and the sums. */
 ITOX_VECTOR static void scheme_step(const sim_paths_model *p, scheme *s, size_t B, double h)
 {
 	size_t np = p->nproc, nn = p->nnoise;
-	for (size_t i = 0; i < np; i++) {
-		const double *restrict x = s->x + i * B;
-		double *restrict v = s->vars + i * B;
-		if (p->truncate[i])
-			ITOX_INDEPENDENT
-		for (size_t q = 0; q < B; q++)
-			v[q] = x[q] < 0 ? 0 : x[q];
-		else memcpy(v, x, B * sizeof *v);
-	}
-	double *restrict tv = s->vars + np * B;
-	ITOX_INDEPENDENT
-	for (size_t q = 0; q < B; q++)
-		tv[q] = s->t;
 	eval_run(p->coef, B, s->vars, s->cout);
 	eval_run(p->cprog, B, s->vars, s->claim);
 	for (size_t i = 0; i < np; i++) {
@@ -238,15 +257,21 @@ ITOX_VECTOR static void scheme_step(const sim_paths_model *p, scheme *s, size_t 
 			for (size_t q = 0; q < B; q++)
 				x[q] += c[q] * (dw[q] * dw[q] - h);
 		}
-		if (p->truncate[i]) {
+		if (p->truncate[i] != SIM_PATHS_FREE) {
 			unsigned char *restrict below = s->below;
 			ITOX_INDEPENDENT
 			for (size_t q = 0; q < B; q++)
 				below[q] |= x[q] < 0;
 		}
+		if (p->truncate[i] == SIM_PATHS_REFLECT) {
+			ITOX_INDEPENDENT
+			for (size_t q = 0; q < B; q++)
+				x[q] = fabs(x[q]);
+		}
 	}
 	s->t += h;
-	scheme_eval_f(p, s, B, s->fnext);
+	scheme_truncate(p, s, B);
+	eval_run(p->fprog, B, s->vars, s->fnext);
 	if (nn == 1)
 		step_stats_one_noise(p, s, B, h);
 	else
@@ -318,6 +343,8 @@ static void totals_init(sim_paths_totals *r, size_t nstat)
 	memset(r, 0, sizeof *r);
 	r->ext = xcalloc(nstat, sizeof *r->ext);
 	r->fine = xcalloc(nstat, sizeof *r->fine);
+	r->d1 = xcalloc(nstat, sizeof *r->d1);
+	r->d2 = xcalloc(nstat, sizeof *r->d2);
 }
 
 static void totals_merge(sim_paths_totals *into, const sim_paths_totals *b, size_t nstat)
@@ -327,6 +354,8 @@ static void totals_merge(sim_paths_totals *into, const sim_paths_totals *b, size
 	for (size_t i = 0; i < nstat; i++) {
 		sim_stat_merge(&into->ext[i], &b->ext[i]);
 		sim_stat_merge(&into->fine[i], &b->fine[i]);
+		sim_stat_merge(&into->d1[i], &b->d1[i]);
+		sim_stat_merge(&into->d2[i], &b->d2[i]);
 	}
 	sim_stat_merge(&into->qv, &b->qv);
 	sim_stat_merge(&into->integ, &b->integ);
@@ -337,6 +366,8 @@ void sim_paths_totals_free(sim_paths_totals *r)
 {
 	free(r->ext);
 	free(r->fine);
+	free(r->d1);
+	free(r->d2);
 }
 
 static void path_values(const sim_paths_model *p, const scheme *s, size_t B, size_t q, double *v)
@@ -348,44 +379,55 @@ static void path_values(const sim_paths_model *p, const scheme *s, size_t B, siz
 		v[SIM_PATHS_COV + a] = s->cov[a * B + q];
 }
 
+/* The grids of the main run: N, N/2 and N/4 steps (fewer when N < 4). */
+size_t sim_paths_grids(long steps)
+{
+	return steps >= 4 ? 3 : steps >= 2 ? 2 : 1;
+}
+
 static void main_block(const job *jb, sim_lanes *rng, size_t B, sim_paths_totals *r)
 {
 	const sim_paths_model *p = jb->p;
-	size_t nschemes = jb->steps >= 2 ? 2 : 1;
-	scheme s[2];
-	for (size_t i = 0; i < nschemes; i++)
-		scheme_init(p, &s[i], B, (long)i + 1);
-	block_paths(p, jb->interrupt, rng, B, jb->steps, jb->dt, nschemes, s);
-	double *fine = xmalloc(jb->nstat * sizeof *fine), *coarse = xmalloc(jb->nstat * sizeof *coarse);
+	size_t ngrids = sim_paths_grids(jb->steps), nstat = jb->nstat;
+	scheme s[3];
+	for (size_t i = 0; i < ngrids; i++)
+		scheme_init(p, &s[i], B, 1L << i);
+	block_paths(p, jb->interrupt, rng, B, jb->steps, jb->dt, ngrids, s);
+	/* per path: S(h), S(2h), S(4h), then R(h), D1, D2 */
+	double *v = xcalloc(6 * nstat, sizeof *v);
+	double *fine = v, *half = v + nstat, *quarter = v + 2 * nstat;
+	double *ext = v + 3 * nstat, *d1 = v + 4 * nstat, *d2 = v + 5 * nstat;
 	for (size_t q = 0; q < B; q++) {
-		path_values(p, &s[0], B, q, fine);
-		if (nschemes == 2)
-			path_values(p, &s[1], B, q, coarse);
-		bool good = isfinite(s[0].qv[q] + s[0].integ[q] + s[0].mag[q]);
-		for (size_t i = 0; i < jb->nstat; i++) {
-			if (nschemes == 2)
-				coarse[i] = 2 * fine[i] - coarse[i];
-			else
-				coarse[i] = fine[i];
-			good = good && isfinite(fine[i]) && isfinite(coarse[i]);
+		bool below = false;
+		for (size_t g = 0; g < ngrids; g++) {
+			path_values(p, &s[g], B, q, v + g * nstat);
+			below = below || s[g].below[q];
 		}
-		if (s[0].below[q] || (nschemes == 2 && s[1].below[q]))
-			r->below++;
+		bool good = isfinite(s[0].qv[q] + s[0].integ[q] + s[0].mag[q]);
+		for (size_t i = 0; i < nstat; i++) {
+			double coarse = ngrids >= 2 ? half[i] : fine[i];
+			ext[i] = 2 * fine[i] - coarse;
+			d1[i] = fine[i] - coarse;
+			d2[i] = ngrids >= 3 ? ext[i] - (2 * half[i] - quarter[i]) : 0;
+			good = good && isfinite(ext[i]) && isfinite(d1[i]) && isfinite(d2[i]);
+		}
+		r->below += below;
 		if (!good) {
 			r->bad++;
 			continue;
 		}
-		for (size_t i = 0; i < jb->nstat; i++) {
-			sim_stat_add(&r->ext[i], coarse[i]);
+		for (size_t i = 0; i < nstat; i++) {
+			sim_stat_add(&r->ext[i], ext[i]);
 			sim_stat_add(&r->fine[i], fine[i]);
+			sim_stat_add(&r->d1[i], d1[i]);
+			sim_stat_add(&r->d2[i], d2[i]);
 		}
 		sim_stat_add(&r->qv, s[0].qv[q]);
 		sim_stat_add(&r->integ, s[0].integ[q]);
 		sim_stat_add(&r->mag, s[0].mag[q]);
 	}
-	free(fine);
-	free(coarse);
-	for (size_t i = 0; i < nschemes; i++)
+	free(v);
+	for (size_t i = 0; i < ngrids; i++)
 		scheme_free(&s[i]);
 }
 
@@ -471,6 +513,8 @@ static bool run_blocks(expr_ctx *ctx, const job *jb, size_t npaths, bool conv, s
 			}
 		}
 		interrupted = expr_poll_interrupt(ctx);
+		if (jb->p->progress && !interrupted)
+			jb->p->progress(jb->p->progress_data, (double)(first + count) / (double)nblocks);
 	}
 	free(convs);
 	return !interrupted;

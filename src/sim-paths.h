@@ -15,6 +15,10 @@
 #include "expr.h"
 #include "sim.h"
 
+/* What keeps a state in its domain: nothing, full truncation at 0 (x >= 0),
+ * reflection at 0 (x > 0); see sim-paths.c. */
+enum { SIM_PATHS_FREE, SIM_PATHS_TRUNCATE, SIM_PATHS_REFLECT };
+
 /* The system as programs over the variables: the processes (states and
  * noises) 0 .. nproc-1, then t (at nproc), then the parameters. */
 typedef struct sim_paths_model {
@@ -22,7 +26,7 @@ typedef struct sim_paths_model {
 	size_t nvars;           /* program variables: nproc + 1 + parameters */
 	size_t nnoise;          /* the noises that play a part */
 	const double *point;    /* nvars values at the start */
-	const bool *truncate;   /* nproc: full truncation at 0 */
+	const unsigned char *truncate; /* nproc: SIM_PATHS_FREE, _TRUNCATE or _REFLECT at 0 */
 	const double *rho;      /* nnoise x nnoise correlations */
 	const double *chol;     /* their lower Cholesky factor */
 	const long *mil_noise;  /* nproc: the one noise of the Milstein term, or -1 */
@@ -32,6 +36,9 @@ typedef struct sim_paths_model {
 	size_t ncoef, nclaim;   /* outputs of coef and cprog */
 	double horizon;         /* T */
 	unsigned long seed;     /* block j uses the seed's stream jumped j SIM_LANES times */
+	/* called between rounds of blocks with the share of the run done (0..1); may be NULL */
+	void (*progress)(void *data, double done);
+	void *progress_data;
 } sim_paths_model;
 
 /* The per-path statistics, index SIM_PATHS_COV + a for noise a. */
@@ -40,8 +47,9 @@ enum { SIM_PATHS_QV, SIM_PATHS_RESID, SIM_PATHS_TERMINAL, SIM_PATHS_COV };
 /* Totals of the main run over all paths. */
 typedef struct sim_paths_totals {
 	long bad;             /* paths with NaN or Inf in a statistic, left out */
-	long below;           /* paths on which a truncated state went below 0 */
-	sim_stat *ext, *fine; /* nstat each: extrapolated and fine-grid */
+	long below;           /* paths on which a truncated or reflected state went below 0 */
+	sim_stat *ext, *fine; /* nstat each: extrapolated R(h) = 2 S(h) - S(2h) and fine-grid S(h) */
+	sim_stat *d1, *d2;    /* nstat each: S(h) - S(2h) and R(h) - R(2h) (0 with fewer than 3 grids) */
 	sim_stat qv, integ;   /* realised QV and the integral of g^2 dt, fine grid */
 	sim_stat mag;         /* the size of the terms summed (the rounding floor of se) */
 } sim_paths_totals;
@@ -54,6 +62,8 @@ typedef struct sim_paths_conv {
 	sim_stat qv[SIM_PATHS_NCONV], integ[SIM_PATHS_NCONV], gap[SIM_PATHS_NCONV], fv[SIM_PATHS_NCONV];
 } sim_paths_conv;
 
+/* The grids of a main run of `steps` steps: 3 (N, N/2, N/4), 2 or 1. */
+size_t sim_paths_grids(long steps);
 /* npaths paths of `steps` steps over [t0, t0 + T] into total (nstat =
  * SIM_PATHS_COV + nnoise statistics; free with sim_paths_totals_free).
  * Returns false when interrupted (the context says why). */

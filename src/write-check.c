@@ -25,13 +25,19 @@ static const char *noise_name(const check_result *r, size_t a)
 	return expr_sym_name(r->noises[a].name);
 }
 
-/* One reason of an inconsistent verdict, as a phrase. */
+/* One reason of an inconsistent or undecided verdict, as a phrase. */
 static void put_reason(const check_result *r, const check_reason *why, xbuf *out)
 {
 	switch (why->kind) {
-	case CHECK_REASON_FD: {
+	case CHECK_REASON_FD:
+	case CHECK_REASON_FD_SCALE: {
 		char *name = writer_check_fd_name(&r->fd[why->index]);
-		xbuf_printf(out, "the finite difference of %s disagrees", name);
+		xbuf_printf(out,
+		            why->kind == CHECK_REASON_FD
+		                    ? "the finite difference of %s disagrees"
+		                    : "the finite difference of %s cannot be formed at this point "
+		                      "(outside the domain or beyond the range of numbers)",
+		            name);
 		free(name);
 		break;
 	}
@@ -47,21 +53,52 @@ static void put_reason(const check_result *r, const check_reason *why, xbuf *out
 		break;
 	}
 	case CHECK_REASON_BAD_PATHS:
-		xbuf_printf(out, "%ld of %ld paths (over 1%%) left the domain", r->sim.bad_paths,
-		            r->setup.paths);
+		xbuf_printf(out,
+		            "%ld of %ld paths left the domain of f or of its coefficients, or overflowed "
+		            "(NaN or Inf)",
+		            r->sim.bad_paths, r->setup.paths);
+		break;
+	case CHECK_REASON_FEW_PATHS:
+		xbuf_printf(out, "too few usable paths (%ld; %ld needed)", r->sim.paths_used,
+		            r->sim.min_paths);
+		break;
+	case CHECK_REASON_FEW_STEPS:
+		xbuf_put(out, "under 4 steps: the discretisation bias cannot be estimated");
+		break;
+	case CHECK_REASON_UNREPRESENTABLE:
+		xbuf_put(out, "f or a coefficient at the point is beyond the range of double precision "
+		              "(underflow or overflow)");
 		break;
 	}
 }
 
-/* The reasons joined by "; " (the caller frees). */
+/* The reasons for the verdict joined by "; " (the caller frees): for an
+ * undecided verdict those that make it undecided, otherwise the others. */
 char *writer_check_reasons(const check_result *r)
 {
 	xbuf text = {0};
+	bool undecided = r->verdict == CHECK_UNDECIDED, first = true;
 	for (size_t i = 0; i < r->nreasons; i++) {
-		if (i)
+		if (CHECK_REASON_UNDECIDES(r->reasons[i].kind) != undecided)
+			continue;
+		if (!first)
 			xbuf_put(&text, "; ");
+		first = false;
 		put_reason(r, &r->reasons[i], &text);
 	}
+	return xbuf_take(&text);
+}
+
+/* "g(x, y) = body" (the caller frees). */
+char *writer_check_concrete(expr_ctx *ctx, const check_concrete *c)
+{
+	xbuf text = {0};
+	xbuf_printf(&text, "%s(", expr_sym_name(c->func));
+	for (size_t j = 0; j < c->nargs; j++)
+		xbuf_printf(&text, "%s%s", j ? ", " : "", expr_sym_name(c->formals[j]));
+	char *body = prn_expr(ctx, c->body, PRN_TEXT);
+	xbuf_printf(&text, ") = %s", body);
+	free(body);
 	return xbuf_take(&text);
 }
 
@@ -70,10 +107,16 @@ char *writer_check_reasons(const check_result *r)
 static void text_zstat(xbuf *out, const check_zstat *z)
 {
 	if (z->n < 2) {
-		xbuf_put(out, "n/a (too few valid paths)  <-- off\n");
+		xbuf_put(out, "n/a (too few valid paths)\n");
 		return;
 	}
-	xbuf_printf(out, "%.6g (se %.3g, z = %.2f)%s\n", z->mean, z->se, z->z, z->ok ? "" : "  <-- off");
+	xbuf_printf(out, "%.6g (se %.3g, ", z->mean, z->se);
+	if (isnan(z->z))
+		xbuf_put(out, "no randomness");
+	else
+		xbuf_printf(out, "z = %.2f", z->z);
+	xbuf_printf(out, "; tolerance %.3g: bias %.3g (se %.3g), rounding %.3g)%s\n", z->tolerance, z->bias,
+	            z->bias_se, z->rounding, z->ok ? "" : "  <-- off");
 }
 
 static void text_header(expr_ctx *ctx, const check_result *r, xbuf *out)
@@ -100,6 +143,11 @@ static void text_header(expr_ctx *ctx, const check_result *r, xbuf *out)
 		}
 		xbuf_put(out, "\n");
 	}
+	for (size_t i = 0; i < s->nconcrete; i++) {
+		char *text = writer_check_concrete(ctx, &s->concrete[i]);
+		xbuf_printf(out, "  where %s\n", text);
+		free(text);
+	}
 	if (s->note)
 		xbuf_printf(out, "  note: %s\n", s->note);
 }
@@ -114,15 +162,19 @@ static void text_fd(const check_result *r, xbuf *out)
 		xbuf_put(out, "  finite differences: none (f has no partial derivatives to check)\n");
 	else
 		xbuf_printf(out,
-		            "  finite differences (central; tolerance %g relative to max(1, |value|), "
-		            "plus rounding):\n"
+		            "  finite differences (central, in ball arithmetic; tolerance %g relative to the "
+		            "size of the partial):\n"
 		            "    %-12s %-16s %-16s %s\n",
 		            r->setup.fd_tolerance, "partial", "engine", "difference", "rel. error");
 	for (size_t i = 0; i < r->nfd; i++) {
 		const check_fd_row *row = &r->fd[i];
 		char *name = writer_check_fd_name(row);
-		xbuf_printf(out, "    %-12s %-16.10g %-16.10g %.2g%s\n", name, row->engine, row->difference,
-		            row->error, row->ok ? "" : "  <-- off");
+		if (row->formed)
+			xbuf_printf(out, "    %-12s %-16s %-16s %.2g%s\n", name, row->engine_text,
+			            row->difference_text, row->error, row->ok ? "" : "  <-- off");
+		else
+			xbuf_printf(out, "    %-12s %-16s %-16s cannot be formed\n", name, row->engine_text,
+			            row->difference_text);
 		free(name);
 	}
 }
@@ -137,9 +189,13 @@ static void text_sim(const check_result *r, xbuf *out)
 		        sim->bad_paths, r->setup.paths);
 	if (sim->truncated_paths)
 		xbuf_printf(out,
-		            "  note: full truncation used on %ld paths "
-		            "(a state assumed nonnegative went below 0)\n",
+		            "  note: on %ld paths a state assumed positive or nonnegative went below 0 "
+		            "(reflected, or truncated, at 0)\n",
 		            sim->truncated_paths);
+	if (sim->scale != 1)
+		xbuf_printf(out,
+		            "  note: the statistics are of f/2^%d (f is far from 1 in size; exact scaling)\n",
+		            ilogb(sim->scale));
 	xbuf_printf(out, "  quadratic variation: mean QV = %.6g, predicted I = %.6g; mean(QV - I) = ",
 	            sim->qv_realised, sim->qv_predicted);
 	text_zstat(out, &sim->qv);
@@ -151,13 +207,15 @@ static void text_sim(const check_result *r, xbuf *out)
 		text_zstat(out, &r->noises[a].covariation);
 	}
 	xbuf_printf(out, "  f at T: mean = %.8g (se %.3g)\n", sim->terminal.mean, sim->terminal.se);
-	if (sim->coarse_steps)
+	if (sim->grids >= 3)
 		xbuf_printf(out,
-		            "  discretisation: O(dt) bias removed by extrapolation "
-		            "2*S(%ld steps) - S(%ld steps); fine-grid means: QV - I %.3g, residual %.3g\n",
-		            r->setup.steps, sim->coarse_steps, sim->qv.fine, sim->residual.fine);
+		            "  discretisation: the same Brownian paths on %ld, %ld and %ld steps; tested "
+		            "2*S(%ld) - S(%ld), its bias bounded by the changes between the grids; "
+		            "fine-grid means: QV - I %.3g, residual %.3g\n",
+		            r->setup.steps, sim->coarse_steps, (sim->coarse_steps + 1) / 2, r->setup.steps,
+		            sim->coarse_steps, sim->qv.fine, sim->residual.fine);
 	else
-		xbuf_put(out, "  discretisation: one step, no extrapolation (bias of order dt remains)\n");
+		xbuf_put(out, "  discretisation: under 4 steps, the bias cannot be estimated\n");
 }
 
 static void text_conv(const check_result *r, xbuf *out)
@@ -189,11 +247,14 @@ void writer_check_table(expr_ctx *ctx, const check_result *r, xbuf *out)
 
 char *writer_check_verdict(const check_result *r)
 {
-	if (r->consistent)
-		return xasprintf("consistent (tolerance |z| < %g%s)", r->setup.z_tolerance,
-		                 r->setup.hand_derived ? "" : ", finite differences within tolerance");
+	if (r->verdict == CHECK_CONSISTENT)
+		return xasprintf("consistent (each mean within its tolerance: %g standard errors, the "
+		                 "discretisation bias, rounding%s)",
+		                 r->setup.z_tolerance,
+		                 r->setup.hand_derived ? "" : "; finite differences within tolerance");
 	char *reasons = writer_check_reasons(r);
-	char *text = xasprintf("inconsistent: %s (tolerance |z| < %g)", reasons, r->setup.z_tolerance);
+	char *text =
+	        xasprintf("%s: %s", r->verdict == CHECK_UNDECIDED ? "undecided" : "inconsistent", reasons);
 	free(reasons);
 	return text;
 }

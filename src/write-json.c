@@ -125,7 +125,10 @@ static void json_zstat(xbuf *out, const char *key, const check_zstat *z, bool fi
 {
 	xbuf_printf(out, "%s\"%s\":{\"mean\":", first ? "" : ",", key);
 	put_num(out, z->mean);
-	put_fields(out, 3, (const char *[]){"se", "z", "fine_grid_mean"}, (double[]){z->se, z->z, z->fine});
+	put_fields(out, 7,
+	           (const char *[]){"se", "z", "fine_grid_mean", "bias", "bias_se", "rounding", "tolerance"},
+	           (double[]){z->se, z->z, z->fine, z->bias, z->bias_se, z->rounding, z->tolerance});
+	xbuf_printf(out, ",\"ok\":%s", z->ok ? "true" : "false");
 	xbuf_put(out, "}");
 }
 
@@ -140,6 +143,17 @@ static void json_setup(expr_ctx *ctx, const check_result *r, xbuf *out)
 	            s->milstein ? "milstein" : "euler");
 	put_num(out, s->horizon);
 	xbuf_printf(out, ",\"steps\":%ld,\"paths\":%ld,\"seed\":%lu", s->steps, s->paths, s->seed);
+	if (s->nconcrete) {
+		xbuf_put(out, ",\"where\":[");
+		for (size_t i = 0; i < s->nconcrete; i++) {
+			char *text = writer_check_concrete(ctx, &s->concrete[i]);
+			if (i)
+				xbuf_put(out, ",");
+			prn_json_string(out, text);
+			free(text);
+		}
+		xbuf_put(out, "]");
+	}
 }
 
 static void json_fd(const check_result *r, xbuf *out)
@@ -155,7 +169,8 @@ static void json_fd(const check_result *r, xbuf *out)
 		free(name);
 		put_fields(out, 4, (const char *[]){"engine", "difference", "error", "tolerance"},
 		           (double[]){row->engine, row->difference, row->error, row->tolerance});
-		xbuf_printf(out, ",\"ok\":%s}", row->ok ? "true" : "false");
+		xbuf_printf(out, ",\"formed\":%s,\"ok\":%s}", row->formed ? "true" : "false",
+		            row->ok ? "true" : "false");
 	}
 	xbuf_put(out, "]");
 }
@@ -194,7 +209,8 @@ static void json_conv(const check_result *r, xbuf *out)
 static void check_fields(xbuf *out, const stmt_result *result, expr_ctx *ctx)
 {
 	const check_result *r = result->check;
-	field(out, "verdict", r->consistent ? "consistent" : "inconsistent");
+	static const char *const verdicts[] = {"consistent", "inconsistent", "undecided"};
+	field(out, "verdict", verdicts[r->verdict]);
 	xbuf_printf(out, ",\"consistent\":%s", r->consistent ? "true" : "false");
 	json_setup(ctx, r, out);
 	json_fd(r, out);
@@ -202,10 +218,10 @@ static void check_fields(xbuf *out, const stmt_result *result, expr_ctx *ctx)
 	if (r->nconv)
 		json_conv(r, out);
 	xbuf_printf(out,
-	            ",\"paths_used\":%ld,\"bad_paths\":%ld,\"truncated_paths\":%ld,\"tolerance\":%g,"
-	            "\"fd_tolerance\":%g",
-	            r->sim.paths_used, r->sim.bad_paths, r->sim.truncated_paths, r->setup.z_tolerance,
-	            r->setup.fd_tolerance);
+	            ",\"paths_used\":%ld,\"bad_paths\":%ld,\"truncated_paths\":%ld,\"grids\":%zu,"
+	            "\"scale\":%.17g,\"tolerance\":%g,\"fd_tolerance\":%g",
+	            r->sim.paths_used, r->sim.bad_paths, r->sim.truncated_paths, r->sim.grids, r->sim.scale,
+	            r->setup.z_tolerance, r->setup.fd_tolerance);
 	if (!r->consistent) {
 		char *reasons = writer_check_reasons(r);
 		field(out, "reason", reasons);
@@ -220,7 +236,8 @@ static void claim_fields(xbuf *buf, const stmt_result *r, expr_ctx *ctx)
 	xbuf_printf(buf, ",\"holds\":%s", c->holds ? "true" : "false");
 	field(buf, "method", c->method == VERIFY_EXACT ? "exact" : "numeric");
 	if (c->method == VERIFY_NUMERIC)
-		xbuf_printf(buf, ",\"points\":%zu,\"bits\":%ld,\"skipped\":%zu", c->points, c->bits, c->skipped);
+		xbuf_printf(buf, ",\"points\":%zu,\"bits\":%ld,\"skipped\":%zu", c->points, c->bits,
+		            c->skipped);
 	if (c->holds)
 		return;
 	char *part = writer_claim_part(r);

@@ -81,5 +81,6 @@ void writer_check_table(expr_ctx *ctx, const check_result *r, xbuf *out);
 char *writer_check_verdict(const check_result *r);
 char *writer_check_reasons(const check_result *r);
 char *writer_check_fd_name(const check_fd_row *row);
+char *writer_check_concrete(expr_ctx *ctx, const check_concrete *c); /* "g(x, y) = body" */
 
 #endif

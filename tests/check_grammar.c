@@ -316,6 +316,16 @@ START_TEST(test_checks)
 	PARSES("check d S at S=1 verbose", "(S_CHECK d (NAME S) (at (ASSIGN S (NUM 1))) verbose)");
 	/* the operator form means the same as the keyword form */
 	PARSES("check d(S^2) at S=1", "(S_CHECK d (POW (NAME S) (NUM 2)) (at (ASSIGN S (NUM 1))))");
+	/* concrete forms for generic functions, before or after over */
+	PARSES("check d log(S) at S=1 where sigma(t, S) = 0.2 + t, g(x) = x",
+	       "(S_CHECK d (CALL log (NAME S)) (at (ASSIGN S (NUM 1))) (where (CONCRETE sigma "
+	       "(ADD (NUM 0.2) (NAME t)) (NAME t) (NAME S)) (CONCRETE g (NAME x) (NAME x))))");
+	PARSES("check d S at S=1 over T=2 where g(x) = x verbose",
+	       "(S_CHECK d (NAME S) (at (ASSIGN S (NUM 1))) (over (ASSIGN T (NUM 2))) "
+	       "(where (CONCRETE g (NAME x) (NAME x))) verbose)");
+	PARSES("check d S at S=1 where g(x) = x over T=2",
+	       "(S_CHECK d (NAME S) (at (ASSIGN S (NUM 1))) (over (ASSIGN T (NUM 2))) "
+	       "(where (CONCRETE g (NAME x) (NAME x))))");
 }
 END_TEST
 
