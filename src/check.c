@@ -56,6 +56,12 @@ static check_zstat zstat_of(const sim_paths_totals *total, size_t i, long steps)
 	z.rounding = 8 * DBL_EPSILON * (double)steps * fabs(total->mag.mean);
 	z.tolerance = check_z_tolerance * hypot(z.se, z.bias_se) + z.bias + z.rounding;
 	z.ok = ext->n > 1 && isfinite(z.mean) && isfinite(z.tolerance) && fabs(z.mean) <= z.tolerance;
+	/* A mean that sampling and rounding do not explain, as large as the bias
+	 * estimate itself: the extrapolation has not converged, and a wrong
+	 * drift would look the same (a missing Itô term of d log(v) for a
+	 * square-root v on 50 steps once passed that way). */
+	z.grid_decides = z.ok && fabs(z.mean) > check_z_tolerance * z.se + z.rounding &&
+	                 fabs(z.mean) > 0.5 * z.bias;
 	return z;
 }
 
@@ -134,6 +140,11 @@ static void record_sim(const check_plan *p, const sim_paths_totals *total, check
 		add_reason(out, CHECK_REASON_QV, 0);
 	if (!sim->residual.ok)
 		add_reason(out, CHECK_REASON_RESIDUAL, 0);
+	bool grids = sim->grids >= 3; /* else the bias was not estimated at all (FEW_STEPS) */
+	if (grids && sim->qv.grid_decides)
+		add_reason(out, CHECK_REASON_COARSE_GRID, 0);
+	if (grids && sim->residual.grid_decides)
+		add_reason(out, CHECK_REASON_COARSE_GRID, 1);
 	out->nnoise = p->nnoise;
 	out->noises = xcalloc(p->nnoise + 1, sizeof *out->noises);
 	for (size_t a = 0; a < p->nnoise; a++) {
@@ -146,6 +157,8 @@ static void record_sim(const check_plan *p, const sim_paths_totals *total, check
 		noise->covariation = zstat_of(total, SIM_PATHS_COV + a, in->steps);
 		if (!noise->covariation.ok)
 			add_reason(out, CHECK_REASON_COVARIATION, a);
+		if (grids && noise->covariation.grid_decides)
+			add_reason(out, CHECK_REASON_COARSE_GRID, 2 + a);
 	}
 	if (total->bad > 0)
 		add_reason(out, CHECK_REASON_BAD_PATHS, 0);
@@ -156,20 +169,27 @@ static void record_sim(const check_plan *p, const sim_paths_totals *total, check
 }
 
 /* Inconsistent when a finite difference is off (those do not depend on the
- * paths), or when a statistic is off and nothing makes the experiment unable
- * to judge; undecided when something does; consistent without reasons. */
+ * paths), or when a statistic is off and nothing makes the paths unable to
+ * judge; undecided when something does, or when no statistic is off but one
+ * is within its tolerance only by the bias allowance (a grid too coarse);
+ * consistent without reasons. */
 static check_verdict verdict_of(const check_result *out)
 {
-	bool fd_off = false, undecided = false;
+	bool fd_off = false, undecided = false, coarse = false, off = false;
 	for (size_t i = 0; i < out->nreasons; i++) {
-		fd_off = fd_off || out->reasons[i].kind == CHECK_REASON_FD;
-		undecided = undecided || CHECK_REASON_UNDECIDES(out->reasons[i].kind);
+		check_reason_kind kind = out->reasons[i].kind;
+		fd_off = fd_off || kind == CHECK_REASON_FD;
+		coarse = coarse || kind == CHECK_REASON_COARSE_GRID;
+		undecided = undecided || (CHECK_REASON_UNDECIDES(kind) && kind != CHECK_REASON_COARSE_GRID);
+		off = off || !CHECK_REASON_UNDECIDES(kind);
 	}
 	if (fd_off)
 		return CHECK_INCONSISTENT;
 	if (undecided)
 		return CHECK_UNDECIDED;
-	return out->nreasons ? CHECK_INCONSISTENT : CHECK_CONSISTENT;
+	if (off)
+		return CHECK_INCONSISTENT;
+	return coarse ? CHECK_UNDECIDED : CHECK_CONSISTENT;
 }
 
 static void record_conv(const sim_paths_conv *conv, size_t npaths, check_result *out)

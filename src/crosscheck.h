@@ -88,6 +88,9 @@ typedef struct check_zstat {
 	double rounding;  /* allowance for rounding: 8 eps steps times the mean size of the terms */
 	double tolerance; /* z_tol sqrt(se^2 + bias_se^2) + bias + rounding */
 	bool ok;          /* n > 1 and |mean| <= tolerance */
+	bool grid_decides; /* ok only by the bias allowance: |mean| is over z_tol se + rounding and
+	                    * over half the bias, so the grid is too coarse to tell a wrong drift
+	                    * from the discretisation */
 } check_zstat;
 
 /* A noise that plays a part, in model order. */
@@ -121,6 +124,8 @@ typedef enum check_reason_kind {
 	CHECK_REASON_FEW_PATHS,      /* undecided: too few usable paths */
 	CHECK_REASON_FEW_STEPS,      /* undecided: under 4 steps, no estimate of the discretisation bias */
 	CHECK_REASON_FD_SCALE,       /* undecided: a finite difference cannot be formed (index: the row) */
+	CHECK_REASON_COARSE_GRID,    /* undecided: only the bias allowance covers a statistic (index:
+	                              * 0 qv, 1 residual, 2 + a the covariation with noise a) */
 	CHECK_REASON_UNREPRESENTABLE /* undecided: f or a coefficient is not representable in double
 	                              * precision at the point (underflow or overflow) */
 } check_reason_kind;

@@ -65,6 +65,15 @@ static void put_reason(const check_result *r, const check_reason *why, xbuf *out
 	case CHECK_REASON_FEW_STEPS:
 		xbuf_put(out, "under 4 steps: the discretisation bias cannot be estimated");
 		break;
+	case CHECK_REASON_COARSE_GRID:
+		if (why->index >= 2)
+			xbuf_printf(out, "the time grid is too coarse to judge the covariation with %s",
+			            noise_name(r, why->index - 2));
+		else
+			xbuf_printf(out, "the time grid is too coarse to judge %s",
+			            why->index == 0 ? "the quadratic variation" : "the martingale residual");
+		xbuf_put(out, ": only the discretisation bias allowance covers its mean (use more steps)");
+		break;
 	case CHECK_REASON_UNREPRESENTABLE:
 		xbuf_put(out, "f or a coefficient at the point is beyond the range of double precision "
 		              "(underflow or overflow)");

