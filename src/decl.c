@@ -111,11 +111,9 @@ static bool narrow_side(session *s, model_entry *entry, const ast_node *cond, co
 		int cmp = mpq_cmp(expr_num_value(bound), expr_num_value(*side));
 		if (upper ? cmp > 0 : cmp < 0)
 			return true; /* the bound there already is the tighter */
-		if (cmp == 0)
-			strict |= *side_strict;
-	} else if (*side == bound) {
-		strict |= *side_strict;
 	}
+	if (*side == bound) /* nodes are hash-consed: an equal number is the same node */
+		strict |= *side_strict; /* the same bound: strict if either is */
 	*side = bound;
 	*side_strict = strict;
 	return true;
