@@ -42,8 +42,18 @@ start() {
 	tmux -S "$sock" new-session -d -s repl -x 160 -y 50 "$ITOX --quiet"
 	wait_for "itox>" || { fail=1; }
 }
-# clear the screen and its history, so the next expect sees only new text
-fresh() { keys C-l; tmux -S "$sock" clear-history -t repl; sleep 0.2; }
+# clear the screen and its history, so the next expect sees only new text:
+# the history is cleared only once the redraw has happened (tmux moves a
+# cleared screen into the history, so clearing it first raced with readline)
+fresh() {
+	keys C-l
+	i=0
+	while [ $i -lt 50 ] && [ "$(tmux -S "$sock" capture-pane -t repl -p | grep -c .)" -gt 1 ]; do
+		sleep 0.1
+		i=$((i + 1))
+	done
+	tmux -S "$sock" clear-history -t repl
+}
 
 start
 keys 'param mu, sigma > 0' Enter 'noise W' Enter
