@@ -586,6 +586,7 @@ static bool check_option(session *s, const ast_node *as, double v, check_input *
 typedef struct check_progress {
 	FILE *err;
 	struct timespec start;
+	double last; /* seconds when the line was last written */
 	bool shown;
 } check_progress;
 
@@ -600,8 +601,9 @@ static void show_progress(void *data, double done)
 {
 	check_progress *pr = data;
 	double elapsed = seconds_since(&pr->start);
-	if (elapsed < 1)
+	if (elapsed < 1 || (pr->shown && elapsed - pr->last < 0.25))
 		return;
+	pr->last = elapsed;
 	fprintf(pr->err, "\rcheck: %3.0f%% of the paths simulated (%.0f s)", 100 * done, elapsed);
 	fflush(pr->err);
 	pr->shown = true;

@@ -49,6 +49,9 @@
  * lane k (xoshiro256++ jump, sim.h), and block results are merged in block
  * order, so the result does not depend on the number of threads.
  * Blocks run in rounds of SIM_PATHS_ROUND, so memory does not grow with paths.
+ * Progress is reported after every block the calling thread (OpenMP thread 0,
+ * the only one that calls back) finishes, so the first report does not wait
+ * for a whole round.
  */
 #include <config.h>
 
@@ -57,6 +60,9 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#ifdef _OPENMP
+#include <omp.h>
+#endif
 
 #include "vector.h"
 #include "xalloc.h"
@@ -470,6 +476,17 @@ static void conv_merge(sim_paths_conv *into, const sim_paths_conv *b)
 	}
 }
 
+/* Whether this is the thread that called run_blocks (the progress callback
+ * writes to the session's stream, so only that thread calls it). */
+static bool calling_thread(void)
+{
+#ifdef _OPENMP
+	return omp_get_thread_num() == 0;
+#else
+	return true;
+#endif
+}
+
 /* Run npaths in blocks; block j uses the stream of the seed jumped j times.
  * Returns false when interrupted. */
 static bool run_blocks(expr_ctx *ctx, const job *jb, size_t npaths, bool conv, sim_paths_totals *total,
@@ -482,6 +499,7 @@ static bool run_blocks(expr_ctx *ctx, const job *jb, size_t npaths, bool conv, s
 	sim_paths_totals results[SIM_PATHS_ROUND];
 	sim_paths_conv *convs = conv ? xcalloc(SIM_PATHS_ROUND, sizeof *convs) : NULL;
 	bool interrupted = false;
+	size_t done = 0; /* blocks finished, for the progress report */
 	for (size_t first = 0; first < nblocks && !interrupted; first += SIM_PATHS_ROUND) {
 		size_t count = nblocks - first < SIM_PATHS_ROUND ? nblocks - first : SIM_PATHS_ROUND;
 		for (size_t i = 0; i < count; i++) {
@@ -503,6 +521,13 @@ static bool run_blocks(expr_ctx *ctx, const job *jb, size_t npaths, bool conv, s
 				conv_block(jb, &rngs[i], B, &convs[i]);
 			else
 				main_block(jb, &rngs[i], B, &results[i]);
+			size_t finished;
+#ifdef _OPENMP
+#pragma omp atomic capture
+#endif
+			finished = ++done;
+			if (jb->p->progress && calling_thread() && !(jb->interrupt && *jb->interrupt))
+				jb->p->progress(jb->p->progress_data, (double)finished / (double)nblocks);
 		}
 		for (size_t i = 0; i < count; i++) {
 			if (conv) {
@@ -513,8 +538,6 @@ static bool run_blocks(expr_ctx *ctx, const job *jb, size_t npaths, bool conv, s
 			}
 		}
 		interrupted = expr_poll_interrupt(ctx);
-		if (jb->p->progress && !interrupted)
-			jb->p->progress(jb->p->progress_data, (double)(first + count) / (double)nblocks);
 	}
 	free(convs);
 	return !interrupted;

@@ -36,7 +36,8 @@ typedef struct sim_paths_model {
 	size_t ncoef, nclaim;   /* outputs of coef and cprog */
 	double horizon;         /* T */
 	unsigned long seed;     /* block j uses the seed's stream jumped j SIM_LANES times */
-	/* called between rounds of blocks with the share of the run done (0..1); may be NULL */
+	/* called by the calling thread after each block it finishes, with the share
+	 * of the run done (0..1); may be NULL */
 	void (*progress)(void *data, double done);
 	void *progress_data;
 } sim_paths_model;
