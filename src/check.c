@@ -29,6 +29,9 @@
 
 static const double check_z_tolerance = 4;
 static const double check_default_work = 2e8;
+/* Refinement stops at this much work (steps*paths), that of a check at the
+ * default settings, or at the work asked for when that is more. */
+static const double check_refine_work = 2e7;
 enum { CHECK_CONV_PATHS = 1000, CHECK_MIN_PATHS = 100 };
 
 /* The estimate of the bias of R(h): of the grid differences D1 and D2, the
@@ -39,6 +42,18 @@ static void bias_estimate(const sim_stat *d1, const sim_stat *d2, double *bias, 
 	bool first = fabs(d1->mean) + check_z_tolerance * se1 >= fabs(d2->mean) + check_z_tolerance * se2;
 	*bias = fabs(first ? d1->mean : d2->mean);
 	*se = first ? se1 : se2;
+}
+
+/* The share of a statistic's sum of squared deviations above which one path
+ * is said to dominate it: 10%, or for few paths ten times 2 log(n)/n, about
+ * what the largest of n normal values holds (so light tails pass at any n).
+ * One path with share s moves the mean by about sqrt(s) standard errors and
+ * makes the standard error itself a matter of chance: under Euler's scheme
+ * the drift 1/v of d log(v) for a square-root v on 50 steps had one path
+ * holding over 90% of the residual's spread, and a missing Itô term passed. */
+static double heavy_share(double n)
+{
+	return n > 1 ? fmax(0.1, 20 * log(n) / n) : 1;
 }
 
 /* A statistic against its tolerance z_tol sqrt(se^2 + se_bias^2) + |bias| +
@@ -62,6 +77,9 @@ static check_zstat zstat_of(const sim_paths_totals *total, size_t i, long steps)
 	 * square-root v on 50 steps once passed that way). */
 	z.grid_decides = z.ok && fabs(z.mean) > check_z_tolerance * z.se + z.rounding &&
 	                 fabs(z.mean) > 0.5 * z.bias;
+	z.top_share = fmax(sim_stat_top_share(ext),
+	                   fmax(sim_stat_top_share(&total->d1[i]), sim_stat_top_share(&total->d2[i])));
+	z.heavy = z.top_share > heavy_share(ext->n);
 	return z;
 }
 
@@ -87,6 +105,7 @@ static void record_setup(check_plan *p, check_result *out)
 	s->milstein = p->milstein;
 	s->horizon = in->horizon;
 	s->steps = in->steps;
+	s->steps_asked = in->steps;
 	s->paths = in->paths;
 	s->seed = in->seed;
 	s->hand_derived = in->hand_derived;
@@ -120,31 +139,35 @@ static void record_fd(check_result *out, check_fd_row *rows, size_t nrows)
 /* The statistics of the paths and the reasons they give, in the order of the
  * report.  Paths left out (not finite) or too few paths make the experiment
  * unable to judge: the verdict is then undecided, never inconsistent. */
-static void record_sim(const check_plan *p, const sim_paths_totals *total, check_result *out)
+static void record_sim(const check_plan *p, const sim_paths_totals *total, long steps, check_result *out)
 {
 	const check_input *in = p->in;
 	check_simulation *sim = &out->sim;
-	sim->qv = zstat_of(total, SIM_PATHS_QV, in->steps);
-	sim->residual = zstat_of(total, SIM_PATHS_RESID, in->steps);
-	sim->terminal = zstat_of(total, SIM_PATHS_TERMINAL, in->steps);
+	sim->qv = zstat_of(total, SIM_PATHS_QV, steps);
+	sim->residual = zstat_of(total, SIM_PATHS_RESID, steps);
+	sim->terminal = zstat_of(total, SIM_PATHS_TERMINAL, steps);
 	sim->qv_realised = total->qv.mean;
 	sim->qv_predicted = total->integ.mean;
-	sim->grids = sim_paths_grids(in->steps);
-	sim->coarse_steps = sim->grids >= 2 ? (in->steps + 1) / 2 : 0;
+	sim->grids = sim_paths_grids(steps);
+	sim->coarse_steps = sim->grids >= 2 ? (steps + 1) / 2 : 0;
 	sim->paths_used = (long)total->ext[0].n;
 	sim->bad_paths = total->bad;
 	sim->truncated_paths = total->below;
 	sim->scale = p->scale;
 	sim->min_paths = CHECK_MIN_PATHS;
-	if (!sim->qv.ok)
+	if (!sim->qv.ok && !sim->qv.heavy)
 		add_reason(out, CHECK_REASON_QV, 0);
-	if (!sim->residual.ok)
+	if (!sim->residual.ok && !sim->residual.heavy)
 		add_reason(out, CHECK_REASON_RESIDUAL, 0);
 	bool grids = sim->grids >= 3; /* else the bias was not estimated at all (FEW_STEPS) */
 	if (grids && sim->qv.grid_decides)
 		add_reason(out, CHECK_REASON_COARSE_GRID, 0);
 	if (grids && sim->residual.grid_decides)
 		add_reason(out, CHECK_REASON_COARSE_GRID, 1);
+	if (sim->qv.heavy)
+		add_reason(out, CHECK_REASON_HEAVY_TAILS, 0);
+	if (sim->residual.heavy)
+		add_reason(out, CHECK_REASON_HEAVY_TAILS, 1);
 	out->nnoise = p->nnoise;
 	out->noises = xcalloc(p->nnoise + 1, sizeof *out->noises);
 	for (size_t a = 0; a < p->nnoise; a++) {
@@ -154,11 +177,13 @@ static void record_sim(const check_plan *p, const sim_paths_totals *total, check
 		check_noise *noise = &out->noises[a];
 		noise->name = renamed ? in->q->names[k] : p->m->noises[k];
 		noise->coefficient = k < in->d->n ? in->d->dw[k] : NULL;
-		noise->covariation = zstat_of(total, SIM_PATHS_COV + a, in->steps);
-		if (!noise->covariation.ok)
+		noise->covariation = zstat_of(total, SIM_PATHS_COV + a, steps);
+		if (!noise->covariation.ok && !noise->covariation.heavy)
 			add_reason(out, CHECK_REASON_COVARIATION, a);
 		if (grids && noise->covariation.grid_decides)
 			add_reason(out, CHECK_REASON_COARSE_GRID, 2 + a);
+		if (noise->covariation.heavy)
+			add_reason(out, CHECK_REASON_HEAVY_TAILS, 2 + a);
 	}
 	if (total->bad > 0)
 		add_reason(out, CHECK_REASON_BAD_PATHS, 0);
@@ -168,19 +193,39 @@ static void record_sim(const check_plan *p, const sim_paths_totals *total, check
 		add_reason(out, CHECK_REASON_FEW_STEPS, 0);
 }
 
+/* Whether the grid should be refined: a statistic under test is dominated
+ * by one path (heavy tails, which a finer grid tames when they come from
+ * Euler steps near a boundary), or is within its tolerance only by the bias
+ * allowance (the extrapolation has not converged). */
+static bool grid_too_coarse(const sim_paths_totals *total, size_t nstat, long steps)
+{
+	if (sim_paths_grids(steps) < 3)
+		return false;
+	for (size_t i = 0; i < nstat; i++) {
+		if (i == SIM_PATHS_TERMINAL)
+			continue; /* reported, not tested */
+		check_zstat z = zstat_of(total, i, steps);
+		if (z.heavy || z.grid_decides)
+			return true;
+	}
+	return false;
+}
+
 /* Inconsistent when a finite difference is off (those do not depend on the
  * paths), or when a statistic is off and nothing makes the paths unable to
  * judge; undecided when something does, or when no statistic is off but one
- * is within its tolerance only by the bias allowance (a grid too coarse);
- * consistent without reasons. */
+ * is within its tolerance only by the bias allowance (a grid too coarse) or
+ * is dominated by one path (heavy tails; such a statistic is never "off",
+ * its standard error being a matter of chance); consistent without reasons. */
 static check_verdict verdict_of(const check_result *out)
 {
-	bool fd_off = false, undecided = false, coarse = false, off = false;
+	bool fd_off = false, undecided = false, doubtful = false, off = false;
 	for (size_t i = 0; i < out->nreasons; i++) {
 		check_reason_kind kind = out->reasons[i].kind;
+		bool soft = kind == CHECK_REASON_COARSE_GRID || kind == CHECK_REASON_HEAVY_TAILS;
 		fd_off = fd_off || kind == CHECK_REASON_FD;
-		coarse = coarse || kind == CHECK_REASON_COARSE_GRID;
-		undecided = undecided || (CHECK_REASON_UNDECIDES(kind) && kind != CHECK_REASON_COARSE_GRID);
+		doubtful = doubtful || soft;
+		undecided = undecided || (CHECK_REASON_UNDECIDES(kind) && !soft);
 		off = off || !CHECK_REASON_UNDECIDES(kind);
 	}
 	if (fd_off)
@@ -189,7 +234,7 @@ static check_verdict verdict_of(const check_result *out)
 		return CHECK_UNDECIDED;
 	if (off)
 		return CHECK_INCONSISTENT;
-	return coarse ? CHECK_UNDECIDED : CHECK_CONSISTENT;
+	return doubtful ? CHECK_UNDECIDED : CHECK_CONSISTENT;
 }
 
 static void record_conv(const sim_paths_conv *conv, size_t npaths, check_result *out)
@@ -232,8 +277,19 @@ void check_run(expr_ctx *ctx, const check_input *in, check_result *out)
 	check_fd_row *rows = NULL;
 	size_t nrows = in->hand_derived ? 0 : check_fd_table(&p, &rows);
 
+	/* The grid is doubled while it limits the test and the work stays within
+	 * check_refine_work (or the work asked for, if more) and max_work. */
 	sim_paths_totals total;
-	bool finished = sim_paths_run(ctx, &p.paths, in->steps, (size_t)in->paths, &total);
+	long steps = in->steps;
+	double refine_work = fmin(fmax(work, check_refine_work), max_work);
+	size_t nstat = SIM_PATHS_COV + p.nnoise;
+	bool finished = sim_paths_run(ctx, &p.paths, steps, (size_t)in->paths, &total);
+	while (finished && 2 * (double)steps * (double)in->paths <= refine_work &&
+	       grid_too_coarse(&total, nstat, steps)) {
+		sim_paths_totals_free(&total);
+		steps *= 2;
+		finished = sim_paths_run(ctx, &p.paths, steps, (size_t)in->paths, &total);
+	}
 	sim_paths_conv conv;
 	size_t conv_paths = 0;
 	if (finished && in->verbose) {
@@ -254,7 +310,8 @@ void check_run(expr_ctx *ctx, const check_input *in, check_result *out)
 		record_fd(out, rows, nrows);
 		if (p.unrepresentable)
 			add_reason(out, CHECK_REASON_UNREPRESENTABLE, 0);
-		record_sim(&p, &total, out);
+		out->setup.steps = steps;
+		record_sim(&p, &total, steps, out);
 		if (in->verbose && conv_paths >= 2)
 			record_conv(&conv, conv_paths, out);
 		out->verdict = verdict_of(out);

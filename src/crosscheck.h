@@ -91,6 +91,9 @@ typedef struct check_zstat {
 	bool grid_decides; /* ok only by the bias allowance: |mean| is over z_tol se + rounding and
 	                    * over half the bias, so the grid is too coarse to tell a wrong drift
 	                    * from the discretisation */
+	double top_share;  /* the largest share of the sum of squared deviations one path holds, in
+	                    * R(h) or in the grid differences */
+	bool heavy;        /* top_share is too large for the standard errors to be trusted */
 } check_zstat;
 
 /* A noise that plays a part, in model order. */
@@ -126,8 +129,10 @@ typedef enum check_reason_kind {
 	CHECK_REASON_FD_SCALE,       /* undecided: a finite difference cannot be formed (index: the row) */
 	CHECK_REASON_COARSE_GRID,    /* undecided: only the bias allowance covers a statistic (index:
 	                              * 0 qv, 1 residual, 2 + a the covariation with noise a) */
-	CHECK_REASON_UNREPRESENTABLE /* undecided: f or a coefficient is not representable in double
-	                              * precision at the point (underflow or overflow) */
+	CHECK_REASON_UNREPRESENTABLE, /* undecided: f or a coefficient is not representable in double
+	                               * precision at the point (underflow or overflow) */
+	CHECK_REASON_HEAVY_TAILS      /* undecided: one path holds much of a statistic's spread
+	                               * (index as for COARSE_GRID) */
 } check_reason_kind;
 
 /* Whether a reason makes the verdict undecided rather than inconsistent. */
@@ -147,6 +152,7 @@ typedef struct check_setup {
 	bool milstein;            /* the scheme used: Milstein, else Euler-Maruyama */
 	double horizon;           /* T */
 	long steps, paths;        /* steps of the fine grid, paths asked for */
+	long steps_asked;         /* steps asked for; steps is larger when the grid was refined */
 	unsigned long seed;       /* the seed of the streams */
 	bool hand_derived;        /* the differential was the user's: no finite differences */
 	size_t nconcrete;         /* the concrete forms used (`where`) */

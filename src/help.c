@@ -95,12 +95,15 @@
 		   "      [where FUNC(ARGS) = EXPR, ...] [verbose]\n"                                   \
 		   "  A numerical cross-check by finite differences (in ball arithmetic) and\n"      \
 		   "  simulated paths on three grids, whose changes give the discretisation bias\n"   \
-		   "  that the tolerance includes.  Verdicts: consistent, inconsistent (evidence\n"   \
-		   "  against the differential) or undecided (the experiment cannot judge: paths\n"  \
-		   "  left the domain or overflowed, too few paths or steps, a value beyond double\n"\
-		   "  precision), each with its reason; only consistent exits 0.  where gives a\n"    \
-		   "  generic function a concrete form for the check; the differential keeps the\n"  \
-		   "  generic partials and the check evaluates them from that form.\n"             \
+		   "  that the tolerance includes; a grid too coarse to judge (one path dominating\n" \
+		   "  a statistic, or a mean covered only by the bias) is refined, doubling the\n"   \
+		   "  steps up to the work of a default check.  Verdicts: consistent, inconsistent\n"\
+		   "  (evidence against the differential) or undecided (the experiment cannot\n"     \
+		   "  judge: paths left the domain or overflowed, too few paths or steps, a value\n" \
+		   "  beyond double precision, heavy tails), each with its reason; only\n"          \
+		   "  consistent exits 0.  where gives a generic function a concrete form for the\n"\
+		   "  check; the differential keeps the generic partials and the check evaluates\n" \
+		   "  them from that form.\n"                                                      \
 		   "  example:  check d log(S) at S=100, mu=0.05, sigma=0.2\n")                       \
 	X("partial", "partial(EXPR, x [, y ...])\n  A partial derivative.  example:  partial(S^3, S)\n") \
 	X("show", "show [NAME]\n  The model (or one name) as a script.  example:  show\n")           \

@@ -285,6 +285,10 @@ bool sim_cholesky(size_t n, const double *c, double *l)
 
 void sim_stat_add(sim_stat *s, double x)
 {
+	if (s->n == 0 || x < s->lo)
+		s->lo = x;
+	if (s->n == 0 || x > s->hi)
+		s->hi = x;
 	s->n += 1;
 	double delta = x - s->mean;
 	s->mean += delta / s->n;
@@ -305,6 +309,8 @@ void sim_stat_merge(sim_stat *into, const sim_stat *other)
 	into->mean += delta * other->n / n;
 	into->m2 += other->m2 + delta * delta * into->n * other->n / n;
 	into->n = n;
+	into->lo = fmin(into->lo, other->lo);
+	into->hi = fmax(into->hi, other->hi);
 }
 
 double sim_stat_sd(const sim_stat *s)
@@ -315,4 +321,12 @@ double sim_stat_sd(const sim_stat *s)
 double sim_stat_se(const sim_stat *s)
 {
 	return s->n > 1 ? sim_stat_sd(s) / sqrt(s->n) : 0;
+}
+
+double sim_stat_top_share(const sim_stat *s)
+{
+	if (!(s->m2 > 0))
+		return 0;
+	double top = fmax(s->hi - s->mean, s->mean - s->lo);
+	return fmin(1, top * top / s->m2);
 }

@@ -58,10 +58,15 @@ bool sim_cholesky(size_t n, const double *c, double *l);
  * Golub, LeVeque), so block sums combine the same whatever the threads. */
 typedef struct sim_stat {
 	double n, mean, m2;
+	double lo, hi; /* the smallest and largest value added */
 } sim_stat;
 void sim_stat_add(sim_stat *s, double x);
 void sim_stat_merge(sim_stat *into, const sim_stat *other);
 double sim_stat_sd(const sim_stat *s); /* sample standard deviation */
 double sim_stat_se(const sim_stat *s); /* standard error of the mean: sd/sqrt(n) */
+/* The largest share of the sum of squared deviations that one value holds:
+ * about 2 log(n)/n for normal samples, near 1 when one value dominates (then
+ * the standard error says little). */
+double sim_stat_top_share(const sim_stat *s);
 
 #endif

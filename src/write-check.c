@@ -74,6 +74,18 @@ static void put_reason(const check_result *r, const check_reason *why, xbuf *out
 			            why->index == 0 ? "the quadratic variation" : "the martingale residual");
 		xbuf_put(out, ": only the discretisation bias allowance covers its mean (use more steps)");
 		break;
+	case CHECK_REASON_HEAVY_TAILS: {
+		const check_zstat *z = why->index == 0   ? &r->sim.qv
+		                       : why->index == 1 ? &r->sim.residual
+		                                         : &r->noises[why->index - 2].covariation;
+		xbuf_printf(out, "one path holds %.0f%% of the spread of ", 100 * z->top_share);
+		if (why->index >= 2)
+			xbuf_printf(out, "the covariation with %s", noise_name(r, why->index - 2));
+		else
+			xbuf_put(out, why->index == 0 ? "the quadratic variation" : "the martingale residual");
+		xbuf_put(out, " (heavy tails: its standard error cannot be trusted; use more steps)");
+		break;
+	}
 	case CHECK_REASON_UNREPRESENTABLE:
 		xbuf_put(out, "f or a coefficient at the point is beyond the range of double precision "
 		              "(underflow or overflow)");
@@ -124,8 +136,8 @@ static void text_zstat(xbuf *out, const check_zstat *z)
 		xbuf_put(out, "no randomness");
 	else
 		xbuf_printf(out, "z = %.2f", z->z);
-	xbuf_printf(out, "; tolerance %.3g: bias %.3g (se %.3g), rounding %.3g)%s\n", z->tolerance, z->bias,
-	            z->bias_se, z->rounding, z->ok ? "" : "  <-- off");
+	xbuf_printf(out, "; tolerance %.3g: bias %.3g (se %.3g), rounding %.3g)%s%s\n", z->tolerance, z->bias,
+	            z->bias_se, z->rounding, z->ok ? "" : "  <-- off", z->heavy ? "  <-- heavy tails" : "");
 }
 
 static void text_header(expr_ctx *ctx, const check_result *r, xbuf *out)
@@ -136,8 +148,11 @@ static void text_header(expr_ctx *ctx, const check_result *r, xbuf *out)
 	free(f);
 	for (size_t i = 0; i < s->nvalues; i++)
 		xbuf_printf(out, "%s%s=%.10g", i ? ", " : "", expr_sym_name(s->symbols[i]), s->values[i]);
-	xbuf_printf(out, " (%s, T=%g, %ld steps, %ld paths, seed %lu)\n",
-	            s->milstein ? "Milstein" : "Euler-Maruyama", s->horizon, s->steps, s->paths, s->seed);
+	xbuf_printf(out, " (%s, T=%g, %ld steps", s->milstein ? "Milstein" : "Euler-Maruyama", s->horizon,
+	            s->steps);
+	if (s->steps != s->steps_asked)
+		xbuf_printf(out, " (%ld asked, refined)", s->steps_asked);
+	xbuf_printf(out, ", %ld paths, seed %lu)\n", s->paths, s->seed);
 	if (s->hand_derived) {
 		char *drift = prn_expr(ctx, s->drift, PRN_TEXT);
 		xbuf_printf(out, "  differential tested (by hand): drift %s", drift);
@@ -225,6 +240,11 @@ static void text_sim(const check_result *r, xbuf *out)
 		            sim->coarse_steps, sim->qv.fine, sim->residual.fine);
 	else
 		xbuf_put(out, "  discretisation: under 4 steps, the bias cannot be estimated\n");
+	if (r->setup.steps != r->setup.steps_asked)
+		xbuf_printf(out,
+		            "  grid refined from %ld to %ld steps: on each coarser grid a statistic was dominated "
+		            "by one path or within its tolerance only by the bias allowance\n",
+		            r->setup.steps_asked, r->setup.steps);
 }
 
 static void text_conv(const check_result *r, xbuf *out)

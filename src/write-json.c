@@ -125,9 +125,11 @@ static void json_zstat(xbuf *out, const char *key, const check_zstat *z, bool fi
 {
 	xbuf_printf(out, "%s\"%s\":{\"mean\":", first ? "" : ",", key);
 	put_num(out, z->mean);
-	put_fields(out, 7,
-	           (const char *[]){"se", "z", "fine_grid_mean", "bias", "bias_se", "rounding", "tolerance"},
-	           (double[]){z->se, z->z, z->fine, z->bias, z->bias_se, z->rounding, z->tolerance});
+	put_fields(out, 8,
+	           (const char *[]){"se", "z", "fine_grid_mean", "bias", "bias_se", "rounding", "tolerance",
+	                            "top_share"},
+	           (double[]){z->se, z->z, z->fine, z->bias, z->bias_se, z->rounding, z->tolerance,
+	                      z->top_share});
 	xbuf_printf(out, ",\"ok\":%s", z->ok ? "true" : "false");
 	xbuf_put(out, "}");
 }
@@ -142,7 +144,8 @@ static void json_setup(expr_ctx *ctx, const check_result *r, xbuf *out)
 	xbuf_printf(out, ",\"hand_derived\":%s,\"scheme\":\"%s\",\"T\":", s->hand_derived ? "true" : "false",
 	            s->milstein ? "milstein" : "euler");
 	put_num(out, s->horizon);
-	xbuf_printf(out, ",\"steps\":%ld,\"paths\":%ld,\"seed\":%lu", s->steps, s->paths, s->seed);
+	xbuf_printf(out, ",\"steps\":%ld,\"steps_asked\":%ld,\"paths\":%ld,\"seed\":%lu", s->steps,
+	            s->steps_asked, s->paths, s->seed);
 	if (s->nconcrete) {
 		xbuf_put(out, ",\"where\":[");
 		for (size_t i = 0; i < s->nconcrete; i++) {
