@@ -52,8 +52,9 @@ typedef struct check_input {
 	bool milstein; /* otherwise Euler-Maruyama */
 	bool verbose;  /* add the convergence table */
 	long max_work; /* limit on steps*paths; 0 for the default */
-	/* called now and then with the share of the simulation done (0..1); may be NULL */
-	void (*progress)(void *data, double done);
+	/* called now and then with the share of the simulation done (0..1) on a grid of
+	 * `steps` steps (a refined grid starts again from 0); may be NULL */
+	void (*progress)(void *data, double done, long steps);
 	void *progress_data;
 } check_input;
 

@@ -597,14 +597,15 @@ static double seconds_since(const struct timespec *start)
 	return (double)(now.tv_sec - start->tv_sec) + 1e-9 * (double)(now.tv_nsec - start->tv_nsec);
 }
 
-static void show_progress(void *data, double done)
+static void show_progress(void *data, double done, long steps)
 {
 	check_progress *pr = data;
 	double elapsed = seconds_since(&pr->start);
 	if (elapsed < 1 || (pr->shown && elapsed - pr->last < 0.25))
 		return;
 	pr->last = elapsed;
-	fprintf(pr->err, "\rcheck: %3.0f%% of the paths simulated (%.0f s)", 100 * done, elapsed);
+	fprintf(pr->err, "\rcheck: %3.0f%% of the paths simulated on %ld steps (%.0f s)", 100 * done, steps,
+	        elapsed);
 	fflush(pr->err);
 	pr->shown = true;
 }
@@ -612,7 +613,7 @@ static void show_progress(void *data, double done)
 static void end_progress(check_progress *pr)
 {
 	if (pr->shown)
-		fprintf(pr->err, "\r%50s\r", "");
+		fprintf(pr->err, "\r%70s\r", "");
 }
 
 /* The concrete forms of `check ... where g(x, y) = body, ...` (formals in

@@ -527,7 +527,8 @@ static bool run_blocks(expr_ctx *ctx, const job *jb, size_t npaths, bool conv, s
 #endif
 			finished = ++done;
 			if (jb->p->progress && calling_thread() && !(jb->interrupt && *jb->interrupt))
-				jb->p->progress(jb->p->progress_data, (double)finished / (double)nblocks);
+				jb->p->progress(jb->p->progress_data, (double)finished / (double)nblocks,
+				                jb->steps);
 		}
 		for (size_t i = 0; i < count; i++) {
 			if (conv) {

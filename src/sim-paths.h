@@ -38,7 +38,7 @@ typedef struct sim_paths_model {
 	unsigned long seed;     /* block j uses the seed's stream jumped j SIM_LANES times */
 	/* called by the calling thread after each block it finishes, with the share
 	 * of the run done (0..1); may be NULL */
-	void (*progress)(void *data, double done);
+	void (*progress)(void *data, double done, long steps);
 	void *progress_data;
 } sim_paths_model;
 
