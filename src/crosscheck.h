@@ -95,6 +95,8 @@ typedef struct check_zstat {
 	double top_share;  /* the largest share of the sum of squared deviations one path holds, in
 	                    * R(h) or in the grid differences */
 	bool heavy;        /* top_share is too large for the standard errors to be trusted */
+	bool off;          /* evidence against the differential: not ok, and when heavy, also off
+	                    * by twice the tolerance without the path farthest from the mean */
 } check_zstat;
 
 /* A noise that plays a part, in model order. */

@@ -330,3 +330,18 @@ double sim_stat_top_share(const sim_stat *s)
 	double top = fmax(s->hi - s->mean, s->mean - s->lo);
 	return fmin(1, top * top / s->m2);
 }
+
+/* Welford's update run backwards: n' = n - 1, mean' = mean - (x - mean)/n',
+ * M2' = M2 - (x - mean)(x - mean') (lo and hi are kept: the next extreme is
+ * not known). */
+sim_stat sim_stat_without_extreme(const sim_stat *s)
+{
+	if (s->n < 3)
+		return *s;
+	double x = s->hi - s->mean >= s->mean - s->lo ? s->hi : s->lo;
+	sim_stat r = *s;
+	r.n = s->n - 1;
+	r.mean = s->mean - (x - s->mean) / r.n;
+	r.m2 = fmax(0, s->m2 - (x - s->mean) * (x - r.mean));
+	return r;
+}

@@ -68,5 +68,7 @@ double sim_stat_se(const sim_stat *s); /* standard error of the mean: sd/sqrt(n)
  * about 2 log(n)/n for normal samples, near 1 when one value dominates (then
  * the standard error says little). */
 double sim_stat_top_share(const sim_stat *s);
+/* The statistics without the value farthest from the mean (lo or hi). */
+sim_stat sim_stat_without_extreme(const sim_stat *s);
 
 #endif

@@ -137,7 +137,8 @@ static void text_zstat(xbuf *out, const check_zstat *z)
 	else
 		xbuf_printf(out, "z = %.2f", z->z);
 	xbuf_printf(out, "; tolerance %.3g: bias %.3g (se %.3g), rounding %.3g)%s%s\n", z->tolerance, z->bias,
-	            z->bias_se, z->rounding, z->ok ? "" : "  <-- off", z->heavy ? "  <-- heavy tails" : "");
+	            z->bias_se, z->rounding, z->off ? "  <-- off" : z->ok ? "" : "  <-- outside",
+	            z->heavy ? "  <-- heavy tails" : "");
 }
 
 static void text_header(expr_ctx *ctx, const check_result *r, xbuf *out)

@@ -130,7 +130,7 @@ static void json_zstat(xbuf *out, const char *key, const check_zstat *z, bool fi
 	                            "top_share"},
 	           (double[]){z->se, z->z, z->fine, z->bias, z->bias_se, z->rounding, z->tolerance,
 	                      z->top_share});
-	xbuf_printf(out, ",\"ok\":%s", z->ok ? "true" : "false");
+	xbuf_printf(out, ",\"ok\":%s,\"off\":%s", z->ok ? "true" : "false", z->off ? "true" : "false");
 	xbuf_put(out, "}");
 }
 
