@@ -7,6 +7,7 @@
  */
 #include <stdint.h>
 #include <stdio.h>
+#include <string.h>
 
 #include "expr.h"
 #include "session.h"
@@ -61,7 +62,50 @@ static void fuzz_limits(session *s)
 	limits->max_exponent = 1000;
 }
 
-/* Run one input under the fuzz limits; returns the session's status. */
+/* An input whose first line is INTERACTIVE_MARK runs as the REPL runs what
+ * is typed (src/repl.c): line by line, a line that leaves a statement
+ * unfinished waiting for the next, each entry on its own (an error does not
+ * stop the rest), a name declared again replacing its definition, quit
+ * ending the input.  Any other input runs as a script.  The mark is a
+ * comment, so such a file is still a script for itox.  Only the first
+ * INTERACTIVE_LINES lines are read: the REPL parses an unfinished entry again
+ * at each new line, so a long one costs the square of its length, and an
+ * error does not end the input as it ends a script. */
+static const char INTERACTIVE_MARK[] = "# interactive\n";
+enum { INTERACTIVE_LINES = 32 };
+
+/* The input is not a C string: no strspn. */
+static bool blank(const char *text, size_t length)
+{
+	for (size_t i = 0; i < length; i++)
+		if (text[i] != ' ' && text[i] != '\t' && text[i] != '\n')
+			return false;
+	return true;
+}
+
+static void run_interactive(session *s, const char *text, size_t size, const char *origin)
+{
+	size_t start = 0; /* of the pending entry */
+	int entries = 0, lines = 0;
+	for (size_t end = 0; end < size && !session_quit_requested(s); end++) {
+		if (text[end] != '\n' && end + 1 < size)
+			continue;
+		size_t length = end + 1 - start;
+		/* an unfinished entry waits for the next line; at the end of the
+		 * input it is dropped, as Ctrl-D drops it; a blank one is skipped */
+		if (!session_incomplete(text + start, length)) {
+			if (!blank(text + start, length))
+				session_run_numbered(s, text + start, length, origin, ++entries);
+			start = end + 1;
+		}
+		if (++lines == INTERACTIVE_LINES)
+			break;
+	}
+}
+
+/* Run one input under the fuzz limits, as the program does: the statements,
+ * then the end of input (a pending run of corr statements is judged, a
+ * standalone LaTeX document closed).  Returns the session's status. */
 int fuzz_run(const uint8_t *data, size_t size, FILE *out, FILE *err, const char *origin)
 {
 	session_options options = {.out = out, .err = err, .seed = 1, .no_files = true,
@@ -69,8 +113,14 @@ int fuzz_run(const uint8_t *data, size_t size, FILE *out, FILE *err, const char 
 				   .output_limit = FUZZ_OUTPUT_LIMIT, .memory_limit = FUZZ_MEMORY_LIMIT};
 	session *s = session_new(&options);
 	fuzz_limits(s);
-	session_run(s, (const char *)data, size, origin);
-	int status = session_status(s);
+	size_t mark = sizeof INTERACTIVE_MARK - 1;
+	if (size >= mark && memcmp(data, INTERACTIVE_MARK, mark) == 0) {
+		session_set_interactive(s, true);
+		run_interactive(s, (const char *)data, size, origin);
+	} else {
+		session_run(s, (const char *)data, size, origin);
+	}
+	int status = session_finish(s);
 	session_free(s);
 	return status;
 }
