@@ -102,7 +102,11 @@ bool run_measure(session *s, const ast_node *st)
 		}
 		listed[k] = true;
 		shift[k] = theta;
-		names[k] = expr_sym(s->ctx, zname);
+		names[k] = declared_symbol(s, zname, &st->loc);
+		if (!names[k]) {
+			ok = false;
+			break;
+		}
 		expr_sym_set_rank(s->ctx, names[k], PRN_RANK_NOISE);
 	}
 	if (ok && measure_complete(m, listed, shift, names) == MEASURE_SINGULAR) {
@@ -161,7 +165,9 @@ bool run_state(session *s, const ast_node *st)
 		return false;
 	/* the new name is visible in the inverse; its sign follows from the
 	 * forward map when that is known (sqrt(v) >= 0, exp(x) > 0) */
-	const expr *new_sym = expr_sym(ctx, st->text);
+	const expr *new_sym = declared_symbol(s, st->text, &st->loc);
+	if (!new_sym)
+		return false;
 	int keep_sign = chstate_infer_sign(ctx, new_sym, forward);
 	model_entry *tmp = model_add(m, st->text, MODEL_PARAM, new_sym);
 	tmp->pending_state = false;

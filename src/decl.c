@@ -234,7 +234,9 @@ bool run_param(session *s, const ast_node *st)
 				return false;
 			continue;
 		}
-		const expr *sym = expr_sym(s->ctx, cond->text);
+		const expr *sym = declared_symbol(s, cond->text, &cond->loc);
+		if (!sym)
+			return false;
 		entry = model_add(&s->model, cond->text, MODEL_PARAM, sym);
 		entry->pending_state = false;
 		expr_sym_set_rank(s->ctx, sym, PRN_RANK_PARAM);
@@ -418,7 +420,10 @@ static bool assume_one(session *s, const ast_node *cond)
 		}
 		if (!check_new_name(s, &cond->loc, cond->text, false))
 			return false;
-		entry = model_add(&s->model, cond->text, MODEL_ARG, expr_sym(s->ctx, cond->text));
+		const expr *sym = declared_symbol(s, cond->text, &cond->loc);
+		if (!sym)
+			return false;
+		entry = model_add(&s->model, cond->text, MODEL_ARG, sym);
 		entry->pending_state = true;
 	}
 	return apply_condition(s, entry, cond);
@@ -445,7 +450,9 @@ bool run_noise(session *s, const ast_node *st)
 		model_entry *entry = model_lookup(&s->model, st->items[i]->text);
 		if (entry && entry->kind == MODEL_NOISE)
 			continue;
-		const expr *sym = expr_sym(s->ctx, st->items[i]->text);
+		const expr *sym = declared_symbol(s, st->items[i]->text, &st->items[i]->loc);
+		if (!sym)
+			return false;
 		model_add(&s->model, st->items[i]->text, MODEL_NOISE, sym);
 		expr_sym_set_rank(s->ctx, sym, PRN_RANK_NOISE);
 		model_add_noise(&s->model, sym);
@@ -610,12 +617,16 @@ bool declare_function(session *s, const ast_loc *loc, const char *name, size_t n
 			return false;
 		}
 	}
-	const expr *sym = expr_sym(s->ctx, name);
+	const expr *sym = declared_symbol(s, name, loc);
+	if (!sym)
+		return false;
 	expr_func_declare(s->ctx, sym, nargs, names);
 	model_add(&s->model, name, MODEL_FUNC, sym);
 	for (size_t i = 0; i < nargs; i++)
 		if (strcmp(names[i], "t") != 0 && !model_lookup(&s->model, names[i])) {
-			const expr *arg = expr_sym(s->ctx, names[i]);
+			const expr *arg = declared_symbol(s, names[i], &args[i]->loc);
+			if (!arg)
+				return false;
 			model_add(&s->model, names[i], MODEL_ARG, arg);
 		}
 	return true;
@@ -785,7 +796,9 @@ bool run_sde(session *s, const ast_node *st)
 		return sde_again(s, st, entry, stratonovich);
 	/* declare the state first so its own SDE may use it (a failure puts
 	 * the model back as it was: run_whole) */
-	const expr *sym = expr_sym(s->ctx, name);
+	const expr *sym = declared_symbol(s, name, &st->loc);
+	if (!sym)
+		return false;
 	entry = model_add(m, name, MODEL_STATE, sym);
 	entry->pending_state = false;
 	expr_sym_set_rank(s->ctx, sym, PRN_RANK_STATE);

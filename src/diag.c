@@ -137,6 +137,14 @@ bool engine_failed(session *s, const ast_loc *loc)
 	return true;
 }
 
+const expr *declared_symbol(session *s, const char *name, const ast_loc *loc)
+{
+	const expr *sym = expr_sym(s->ctx, name);
+	if (!sym && !engine_failed(s, loc))
+		report(s, SESSION_LIMIT, loc, "no room for the name '%s'", name);
+	return sym;
+}
+
 bool differential_failed(session *s, ito_diff *d, const ast_loc *loc)
 {
 	if (engine_failed(s, loc)) {

@@ -225,7 +225,10 @@ static bool eval_name(session *s, const ast_node *n, value *out)
 		 * has its SDE */
 		if (!check_new_name(s, &n->loc, name, false))
 			return false;
-		model_entry *ahead = model_add(&s->model, name, MODEL_ARG, expr_sym(s->ctx, name));
+		const expr *sym = declared_symbol(s, name, &n->loc);
+		if (!sym)
+			return false;
+		model_entry *ahead = model_add(&s->model, name, MODEL_ARG, sym);
 		ahead->pending_state = true;
 		return make_scalar(s, n, ahead->sym, out);
 	}

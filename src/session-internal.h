@@ -108,6 +108,9 @@ void report(session *s, int status, const ast_loc *loc, const char *format, ...)
 void note(session *s, const ast_loc *loc, const char *format, ...) __attribute__((format(printf, 3, 4)));
 /* Report the engine's error (limit, interrupt, division by zero) if one is set. */
 bool engine_failed(session *s, const ast_loc *loc);
+/* The symbol of a name being declared, or NULL after reporting why the
+ * engine has none (the node limit or the memory budget, spent earlier). */
+const expr *declared_symbol(session *s, const char *name, const ast_loc *loc);
 /* A differential that failed (a limit, an interrupt): reported, freed, true. */
 bool differential_failed(session *s, ito_diff *d, const ast_loc *loc);
 /* The declared or built-in name closest to name, or NULL when none is close. */

@@ -5,7 +5,7 @@
 # (a signal is status > 128) or hang (each run is under `timeout`).
 #   1. nesting depth: 100,000 open brackets, '-' signs, '^' and log( on a line
 #   2. line length: a 2 MB line
-#   3. node limit: a session run under the fuzz target's limits (200,000
+#   3. node limit: a session run under the fuzz target's limits (5,000
 #      nodes; the program has no flag for it) through tests/fuzz/replay -v
 #   4. tree depth through let: every line is shallow, the tree is not
 #   5. a simulation that explodes is reported, not averaged silently; a time
@@ -86,7 +86,7 @@ terms=$(tr '+' '\n' <long-sum.out | grep -c 'x')
 
 # ---- 3. node limit (expr_limits.max_nodes).  Each statement
 # (a1+...+a12)^3*c^k adds its C(14, 3) = 364 new products (stars and bars;
-# common practice, no source) and more; under the fuzz limits of 200,000 live
+# common practice, no source) and more; under the fuzz limits of 5,000 live
 # nodes some statement runs out.  Which one depends on the engine's node
 # count, so the line is not fixed: the message is, and everything before it
 # printed one line each.
