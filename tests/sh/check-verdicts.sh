@@ -9,6 +9,10 @@
 set -u
 ITOX=${ITOX:-./itox}
 case $ITOX in /*) ;; *) ITOX=$(pwd)/$ITOX ;; esac
+# ITOX_SLOW: how many times slower the program runs (50 under configure
+# --enable-valgrind); the time limit that must outlast the progress line is
+# scaled by it
+slow=${ITOX_SLOW:-1}
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 fail=0
@@ -64,12 +68,13 @@ where_error "vol(t, S) = 0.2 + nonesuch" "unknown name 'nonesuch'"
 # machine and far more under the sanitizers; the time limit cuts it at 8 s.
 # The progress line is updated after each block of paths the first thread
 # finishes, so it appears just after one second in the plain build and under
-# the sanitizers alike, well inside 8 s even on a loaded machine.
+# the sanitizers alike, well inside 8 s even on a loaded machine (8 s times
+# ITOX_SLOW under valgrind: the check still outlasts it).
 printf '%s\n' 'param mu, sigma > 0' 'noise W, B, C' 'dS = mu*S*dt + sigma*S*dW' \
 	'dU = mu*U*dt + sigma*U*dB' 'dV = mu*V*dt + sigma*V*dC' 'assume S > 0, U > 0, V > 0' > "$work/three.itox"
 long="check d log(S*U*V) + sin(S/U) + cos(U/V) at S=100, U=50, V=70, mu=0.05, sigma=0.2 over steps=1000, paths=200000"
 if command -v script > /dev/null 2>&1; then
-	script -qec "'$ITOX' --time-limit=8 '$work/three.itox' -e '$long' > /dev/null" "$work/tty.txt" > /dev/null 2>&1
+	script -qec "'$ITOX' --time-limit=$((8 * slow)) '$work/three.itox' -e '$long' > /dev/null" "$work/tty.txt" > /dev/null 2>&1
 	if grep -q "check: *[0-9]*% of the paths simulated" "$work/tty.txt"; then ok "progress on a terminal"
 	else bad "no progress line on a terminal"; cat "$work/tty.txt"; fi
 	if grep -q "time limit exceeded" "$work/tty.txt"; then ok "the time limit stops a check"
