@@ -895,6 +895,7 @@ def run_batch(lines):
 		try:
 			proc = subprocess.run([ITOX, "--format=json", path], capture_output=True, text=True,
 			                      timeout=BATCH_TIMEOUT, preexec_fn=_limit_memory)
+			check_valgrind(proc)
 			text, status = proc.stdout, proc.returncode
 		except subprocess.TimeoutExpired as exc:
 			text = exc.stdout or ""
@@ -1003,6 +1004,7 @@ def check_refusals():
 		try:
 			proc = subprocess.run([ITOX, "--format=json", path], capture_output=True, text=True,
 			                      timeout=60 * SLOW, preexec_fn=_limit_memory)
+			check_valgrind(proc)
 		finally:
 			os.unlink(path)
 		objs = [json.loads(l) for l in proc.stdout.splitlines() if l.strip().startswith("{")]
