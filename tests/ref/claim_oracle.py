@@ -105,8 +105,8 @@ N_TINY = int(os.environ.get("CLAIM_ORACLE_N_TINY", "300"))
 CHUNK = 500            # claims generated from one seed by one worker
 PER_FUNCTION = 3       # claims about each generated function (of different kinds)
 BATCH = 250            # claims per itox process
-WORKERS = 2            # itox processes at a time (the machine has 2 cores)
-BATCH_TIMEOUT = 600    # seconds without an answer from a batch: reported as a hang
+WORKERS = PROCESSES    # itox processes at a time (the machine has 2 cores; 1 under valgrind)
+BATCH_TIMEOUT = 600 * SLOW  # seconds without an answer from a batch: reported as a hang
 UNDECIDED_SHARE = 0.01
 MAX_TEXT = 1800        # longest right side written into a claim (characters)
 mpmath.mp.dps = 30
@@ -895,6 +895,7 @@ def run_batch(lines):
 		try:
 			proc = subprocess.run([ITOX, "--format=json", path], capture_output=True, text=True,
 			                      timeout=BATCH_TIMEOUT, preexec_fn=_limit_memory)
+			check_valgrind(proc)
 			text, status = proc.stdout, proc.returncode
 		except subprocess.TimeoutExpired as exc:
 			text = exc.stdout or ""
@@ -1002,7 +1003,8 @@ def check_refusals():
 			out.write("\n".join(PRELUDE + [stmt]) + "\n")
 		try:
 			proc = subprocess.run([ITOX, "--format=json", path], capture_output=True, text=True,
-			                      timeout=60, preexec_fn=_limit_memory)
+			                      timeout=60 * SLOW, preexec_fn=_limit_memory)
+			check_valgrind(proc)
 		finally:
 			os.unlink(path)
 		objs = [json.loads(l) for l in proc.stdout.splitlines() if l.strip().startswith("{")]

@@ -1193,8 +1193,9 @@ def run(script_text, fmt_name, args=(), timeout=240):
 		out.write(script_text)
 	try:
 		proc = subprocess.run([ITOX, "--format=" + fmt_name] + list(args) + [path],
-		                      capture_output=True, text=True, timeout=timeout,
+		                      capture_output=True, text=True, timeout=timeout * SLOW,
 		                      preexec_fn=_limit_memory)
+		check_valgrind(proc)
 		return proc.returncode, proc.stdout, proc.stderr, path
 	finally:
 		os.unlink(path)

@@ -13,6 +13,9 @@
 set -u
 ITOX=${ITOX:-./itox}
 case $ITOX in /*) ;; *) ITOX=$(pwd)/$ITOX ;; esac
+# ITOX_SLOW: how many times slower the program runs (50 under configure
+# --enable-valgrind); the time-outs against a hang are scaled by it
+slow=${ITOX_SLOW:-1}
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 cd "$work" || exit 1
@@ -22,7 +25,7 @@ fail=0
 run() {
 	name=$1 want_status=$2 want=$3
 	shift 3
-	timeout 120 "$ITOX" "$@" "$name.itox" >"$name.out" 2>"$name.err"
+	timeout $((120 * slow)) "$ITOX" "$@" "$name.itox" >"$name.out" 2>"$name.err"
 	status=$?
 	got=$(head -n 1 "$name.err")
 	if [ "$status" -ne "$want_status" ] || [ "$got" != "$want" ]; then
@@ -104,7 +107,7 @@ state x = log(S) where S = exp(x)
 show
 EOF
 for limit in 0.001 0.002 0.005 0.01 0.02 0.03 0.05 0.08 0.1 0.15 0.2 0.3; do
-	timeout 120 "$ITOX" --time-limit=$limit mix.itox >mix.out 2>mix.err
+	timeout $((120 * slow)) "$ITOX" --time-limit=$limit mix.itox >mix.out 2>mix.err
 	status=$?
 	if [ "$status" -gt 3 ]; then
 		echo "FAILED: time limit $limit: status $status"; head -c 300 mix.err; fail=1

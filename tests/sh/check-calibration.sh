@@ -12,4 +12,7 @@ set -u
 ITOX=${ITOX:-./itox}
 src=${ITOX_SRCDIR:-.}
 command -v python3 > /dev/null 2>&1 || { echo "python3 not installed: skipped"; exit 77; }
-python3 "$src/tests/bench/check_calibration.py" --itox "$ITOX" --quick --seeds 4 --jobs 2 --power "steps=1000, paths=2000"
+# one process at a time under configure --enable-valgrind (ITOX_VALGRIND)
+jobs=2
+[ -n "${ITOX_VALGRIND:-}" ] && jobs=1
+python3 "$src/tests/bench/check_calibration.py" --itox "$ITOX" --quick --seeds 4 --jobs $jobs --power "steps=1000, paths=2000"

@@ -54,10 +54,13 @@ GBM="S=100, mu=0.05, sigma=0.2"
 CIR="v=0.04, kappa=2, theta=0.04, xi=0.2"
 TWO="S1=100, S2=80, mu1=0.05, mu2=0.03, s1=0.2, s2=0.3, rho=0.6"
 
-# run MODEL STATEMENT: JSON output in $work/out.json, status in $status
+# run MODEL STATEMENT: JSON output in $work/out.json, status in $status (a
+# status over 3 is never itox's: 99 is valgrind's under configure
+# --enable-valgrind, over 128 a signal)
 run() {
 	"$ITOX" --format=json "$work/$1.itox" -e "$2" > "$work/out.json" 2> "$work/err.txt"
 	status=$?
+	[ $status -le 3 ] || { bad "$2: exit status $status"; cat "$work/err.txt"; }
 }
 
 # 1. Brownian motion on [0, 1]: the realised quadratic variation over n steps
@@ -181,7 +184,10 @@ check d S1/S2 at $TWO over paths=3000, steps=200
 check d S1*S2 at $TWO over paths=1000, steps=100 verbose
 EOF
 OMP_NUM_THREADS=1 "$ITOX" "$work/threads.itox" > "$work/one.txt" 2>&1
+one=$?
 OMP_NUM_THREADS=2 "$ITOX" "$work/threads.itox" > "$work/two.txt" 2>&1
+two=$?
+[ $one -le 3 ] && [ $two -le 3 ] || bad "threads: exit status $one with 1 thread, $two with 2"
 if [ -s "$work/one.txt" ] && cmp -s "$work/one.txt" "$work/two.txt"; then ok "same output with 1 and 2 threads";
 else bad "output differs between 1 and 2 threads"; diff "$work/one.txt" "$work/two.txt" | head; fi
 

@@ -18,6 +18,9 @@ replay=${ITOX_REPLAY:-./tests/fuzz/replay}
 # the cases run in a temporary directory: make relative program paths absolute
 case $ITOX in /*) ;; *) ITOX=$(pwd)/$ITOX ;; esac
 case $replay in /*) ;; *) replay=$(pwd)/$replay ;; esac
+# ITOX_SLOW: how many times slower the programs run (50 under configure
+# --enable-valgrind); the time-outs and the waits for the REPL are scaled by it
+slow=${ITOX_SLOW:-1}
 work=$(mktemp -d)
 sock="$work/tmux.sock"
 trap 'tmux -S "$sock" kill-server 2>/dev/null; rm -rf "$work"' EXIT
@@ -30,7 +33,7 @@ run() {
 	name=$1 want_status=$2 want=$3
 	shift 3
 	[ $# -gt 0 ] || set -- "$ITOX"
-	timeout 120 "$@" "$name.itox" >"$name.out" 2>"$name.err"
+	timeout $((120 * slow)) "$@" "$name.itox" >"$name.out" 2>"$name.err"
 	status=$?
 	got=$(head -n 1 "$name.err")
 	if [ "$status" -ne "$want_status" ]; then
@@ -93,7 +96,7 @@ terms=$(tr '+' '\n' <long-sum.out | grep -c 'x')
 awk 'BEGIN { printf "param c"; for (i = 1; i <= 12; i++) printf ", a%d", i; print "";
 	for (k = 1; k <= 2000; k++) {
 		printf "(a1"; for (i = 2; i <= 12; i++) printf "+a%d", i; printf ")^3*c^%d\n", k } }' >nodes.itox
-timeout 120 "$replay" -v nodes.itox >nodes.out 2>nodes.err
+timeout $((120 * slow)) "$replay" -v nodes.itox >nodes.out 2>nodes.err
 status=$?
 first=$(head -n 1 nodes.err)
 line=$(echo "$first" | sed -n 's/^nodes.itox:\([0-9]*\):1: error: expression too large (node limit reached)$/\1/p')
@@ -115,7 +118,7 @@ awk 'BEGIN { print "param x"; print "let y0 = x";
 		printf "let y%d = ", k; for (i = 0; i < 900; i++) printf "exp(";
 		printf "y%d", k - 1; for (i = 0; i < 900; i++) printf ")"; print "" }
 	print "y50"; print "d y50" }' >let-depth.itox
-timeout 120 "$ITOX" let-depth.itox >let-depth.out 2>let-depth.err
+timeout $((120 * slow)) "$ITOX" let-depth.itox >let-depth.out 2>let-depth.err
 status=$?
 if [ "$status" -eq 3 ] && grep -q '^let-depth.itox:[0-9]*:[0-9]*: error: expression nested too deeply' let-depth.err; then
 	echo "ok: let-depth (status 3)"
@@ -133,7 +136,7 @@ noise W
 dX = X^3*dt + X*dW
 check d X^2 at X=10
 EOF
-timeout 120 "$ITOX" explode.itox >explode.out 2>explode.err
+timeout $((120 * slow)) "$ITOX" explode.itox >explode.out 2>explode.err
 status=$?
 if [ "$status" -ne 0 ] && [ "$status" -lt 128 ] &&
 	grep -q '20000 of 20000 paths gave NaN or Inf' explode.out; then
@@ -150,7 +153,7 @@ fi
 # the script stopped after the power with status 0 and no message.
 awk 'BEGIN { printf "param a1"; for (i = 2; i <= 20; i++) printf ", a%d", i; print "";
 	printf "(a1"; for (i = 2; i <= 20; i++) printf "+a%d", i; print ")^5"; print "a1" }' >print-time.itox
-timeout 120 "$ITOX" --time-limit=0.2 print-time.itox >print-time.out 2>print-time.err
+timeout $((120 * slow)) "$ITOX" --time-limit=0.2 print-time.itox >print-time.out 2>print-time.err
 status=$?
 last=$(tail -n 1 print-time.out)
 if [ "$status" -eq 3 ] && grep -q '^print-time.itox:2:1: error: time limit exceeded (0.2 s per statement; see --time-limit)$' print-time.err; then
@@ -170,9 +173,9 @@ fi
 export XDG_STATE_HOME="$work/state"
 screen() { tmux -S "$sock" capture-pane -t repl -p; }
 keys() { tmux -S "$sock" send-keys -t repl "$@"; }
-wait_for() { # TEXT [TENTHS]: wait until the screen shows TEXT (~5 s by default)
+wait_for() { # TEXT [TENTHS]: wait until the screen shows TEXT (~5 s by default, times ITOX_SLOW)
 	i=0
-	while [ $i -lt "${2:-50}" ]; do
+	while [ $i -lt $((${2:-50} * slow)) ]; do
 		screen | grep -F -q -- "$1" && return 0
 		sleep 0.1
 		i=$((i + 1))
@@ -182,7 +185,16 @@ wait_for() { # TEXT [TENTHS]: wait until the screen shows TEXT (~5 s by default)
 expect() { # TEXT DESCRIPTION [TENTHS]
 	if wait_for "$1" "${3:-50}"; then echo "ok: $2"; else echo "FAILED: $2"; fail=1; fi
 }
-tmux -S "$sock" new-session -d -s repl -x 200 -y 50 "$ITOX --quiet"
+# left STATUS DESCRIPTION: the REPL's exit status once it has left (the tmux
+# command writes it; 99 is an error valgrind found, under configure
+# --enable-valgrind)
+left() {
+	i=0
+	while [ $i -lt $((50 * slow)) ] && [ ! -s repl.status ]; do sleep 0.1; i=$((i + 1)); done
+	if [ "$(cat repl.status 2>/dev/null)" = "$1" ]; then echo "ok: $2 (exit status $1)"
+	else echo "FAILED: $2: exit status '$(cat repl.status 2>/dev/null)', expected $1"; fail=1; fi
+}
+tmux -S "$sock" new-session -d -s repl -x 200 -y 50 "'$ITOX' --quiet; echo \$? >'$work/repl.status'"
 wait_for "itox>" || fail=1
 keys 'param mu, sigma > 0' Enter 'noise W' Enter
 keys 'dS = mu*S*dt + sigma*S*dW' Enter 'assume S > 0' Enter
@@ -196,9 +208,12 @@ expect 'd(log(S)) = (mu - 1/2*sigma^2)*dt + sigma*dW' "the declarations survive 
 # A = a1 + ... + a20 is 1, reached by expanding both powers (42504 terms
 # each): most of its time is computation, and its answer is short (a
 # statement whose time goes into printing is not interrupted until it ends).
+# The line is on the screen once readline has read it, so the computation has
+# begun when the 0.2 s start (under valgrind the parameters take longer).
 keys "param $(awk 'BEGIN { printf "a1"; for (i = 2; i <= 20; i++) printf ", a%d", i }')" Enter
 sum=$(awk 'BEGIN { printf "a1"; for (i = 2; i <= 20; i++) printf "+a%d", i }')
 keys "(($sum)^5 + 1) - ($sum)^5" Enter
+wait_for "+a20)^5 + 1) - (a1+" || fail=1
 sleep 0.2
 keys C-c
 expect 'error: interrupted' "Ctrl-C stops the computation"
@@ -207,4 +222,5 @@ expect '(2*mu + sigma^2)*S^2' "the declarations survive Ctrl-C"
 keys 'a1 + a + 1' Enter
 expect '1 + a + a1' "names declared before Ctrl-C are still known"
 keys C-d
+left 3 "the REPL leaves after a limit and Ctrl-C (3: a limit)"
 exit $fail

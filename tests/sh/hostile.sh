@@ -16,6 +16,10 @@ exec /usr/bin/python3 - "$ITOX" "$src" "${HOSTILE_KEEP:-}" <<'EOF'
 import concurrent.futures, glob, os, random, re, shutil, subprocess, sys, tempfile
 
 itox, src, keep = sys.argv[1], sys.argv[2], sys.argv[3]
+# under configure --enable-valgrind (ITOX_VALGRIND) one process at a time, and
+# the time-out against a hang is scaled by ITOX_SLOW
+workers = 1 if os.environ.get("ITOX_VALGRIND") else 2
+hang_seconds = 60 * float(os.environ.get("ITOX_SLOW") or 1)
 rng = random.Random(14)
 sources = sorted(glob.glob(os.path.join(src, "examples", "*.itox")) +
                  glob.glob(os.path.join(src, "tests", "scripts", "*.itox")))
@@ -165,14 +169,14 @@ try:
             r = subprocess.run([itox, "--time-limit=0.1", "--memory-limit=256",
                                 "--output-limit=100000", path],
                                stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL,
-                               stderr=subprocess.PIPE, cwd=work, timeout=60)
+                               stderr=subprocess.PIPE, cwd=work, timeout=hang_seconds)
             return path, r.returncode, r.stderr[-300:]
         except subprocess.TimeoutExpired:
             return path, "timeout", b""
 
     failures = 0
     counts = {}
-    with concurrent.futures.ThreadPoolExecutor(max_workers=2) as pool:
+    with concurrent.futures.ThreadPoolExecutor(max_workers=workers) as pool:
         for path, status, err in pool.map(run, paths):
             counts[status] = counts.get(status, 0) + 1
             if status not in (0, 1, 2, 3):

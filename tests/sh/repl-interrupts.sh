@@ -11,6 +11,9 @@ set -u
 command -v tmux >/dev/null 2>&1 || { echo "tmux not installed: skipped"; exit 77; }
 ITOX=${ITOX:-./itox}
 case $ITOX in /*) ;; *) ITOX=$(pwd)/$ITOX ;; esac
+# ITOX_SLOW: how many times slower the program runs (50 under configure
+# --enable-valgrind); the waits for the screen are scaled by it
+slow=${ITOX_SLOW:-1}
 work=$(mktemp -d)
 sock="$work/tmux.sock"
 export XDG_STATE_HOME="$work/state"
@@ -18,11 +21,11 @@ trap 'tmux -S "$sock" kill-server 2>/dev/null; rm -rf "$work"' EXIT
 cd "$work" || exit 1
 fail=0
 
-screen() { tmux -S "$sock" capture-pane -t repl -p; }
+screen() { tmux -S "$sock" capture-pane -t repl -p -J; }
 keys() { tmux -S "$sock" send-keys -t repl "$@"; }
-wait_for() { # TEXT [TENTHS]: wait until the screen shows TEXT (~10 s by default)
+wait_for() { # TEXT [TENTHS]: wait until the screen shows TEXT (~10 s by default, times ITOX_SLOW)
 	i=0
-	while [ $i -lt "${2:-100}" ]; do
+	while [ $i -lt $((${2:-100} * slow)) ]; do
 		screen | grep -F -q -- "$1" && return 0
 		sleep 0.1
 		i=$((i + 1))
@@ -36,19 +39,30 @@ nested=$(awk 'BEGIN { for (i = 0; i < 900; i++) printf "sin("; printf "S"; for (
 printf 'd %s\n' "$nested" >long.itox
 
 # case NAME STATEMENT QUERY ANSWER: a fresh REPL with the model, STATEMENT,
-# Ctrl-C about a second into it, then QUERY must print ANSWER.
+# Ctrl-C about a second into it, then QUERY must print ANSWER, and Ctrl-D
+# leaves with exit status 3, an interrupt's (the tmux command writes it; 99 is
+# an error valgrind found, under configure --enable-valgrind).  The second counts from
+# the moment the statement's end is on the screen: readline has read it all
+# (under valgrind the model and the echo of a long line take seconds).
 case_of() {
 	name=$1 statement=$2 query=$3 answer=$4
-	tmux -S "$sock" new-session -d -s repl -x 200 -y 50 "$ITOX --quiet"
+	rm -f repl.status
+	tmux -S "$sock" new-session -d -s repl -x 200 -y 50 "'$ITOX' --quiet; echo \$? >'$work/repl.status'"
 	wait_for "itox>" || { fail=1; return; }
 	keys 'param mu, sigma > 0' Enter 'noise W' Enter
 	keys 'dS = mu*S*dt + sigma*S*dW' Enter 'assume S > 0' Enter
 	keys "$statement" Enter
+	wait_for "$(printf '%s' "$statement" | tail -c 10)" || fail=1
 	sleep 1
 	keys C-c
 	expect 'error: interrupted' "Ctrl-C stops $name"
 	keys "$query" Enter
 	expect "$answer" "the model is intact after Ctrl-C during $name"
+	keys C-d
+	i=0
+	while [ $i -lt $((100 * slow)) ] && [ ! -s repl.status ]; do sleep 0.1; i=$((i + 1)); done
+	if [ "$(cat repl.status 2>/dev/null)" = 3 ]; then echo "ok: the REPL leaves with exit status 3 after $name"
+	else echo "FAILED: exit status '$(cat repl.status 2>/dev/null)' after $name, expected 3"; fail=1; fi
 	tmux -S "$sock" kill-server 2>/dev/null
 	sleep 0.2
 }

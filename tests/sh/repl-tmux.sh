@@ -17,6 +17,9 @@ set -u
 command -v tmux >/dev/null 2>&1 || { echo "tmux not installed: skipped"; exit 77; }
 ITOX=${ITOX:-./itox}
 case $ITOX in /*) ;; *) ITOX=$(pwd)/$ITOX ;; esac
+# ITOX_SLOW: how many times slower the program runs (50 under configure
+# --enable-valgrind); the waits for the screen are scaled by it
+slow=${ITOX_SLOW:-1}
 work=$(mktemp -d)
 sock="$work/tmux.sock"
 export XDG_STATE_HOME="$work/state"
@@ -25,10 +28,10 @@ fail=0
 
 screen() { tmux -S "$sock" capture-pane -t repl -p -S -200; }
 keys() { tmux -S "$sock" send-keys -t repl "$@"; }
-# wait until the screen contains a text (at most ~5 s)
+# wait until the screen contains a text (at most ~5 s, times ITOX_SLOW)
 wait_for() {
 	i=0
-	while [ $i -lt 50 ]; do
+	while [ $i -lt $((50 * slow)) ]; do
 		screen | grep -F -q -- "$1" && return 0
 		sleep 0.1
 		i=$((i + 1))
@@ -38,9 +41,20 @@ wait_for() {
 expect() { # TEXT DESCRIPTION
 	if wait_for "$1"; then echo "ok: $2"; else echo "FAILED: $2"; fail=1; fi
 }
+# the tmux command writes the REPL's exit status when it leaves (99 is an
+# error valgrind found, under configure --enable-valgrind)
 start() {
-	tmux -S "$sock" new-session -d -s repl -x 160 -y 50 "$ITOX --quiet"
+	rm -f "$work/repl.status"
+	tmux -S "$sock" new-session -d -s repl -x 160 -y 50 "'$ITOX' --quiet; echo \$? >'$work/repl.status'"
 	wait_for "itox>" || { fail=1; }
+}
+# left STATUS DESCRIPTION: wait for the REPL to leave; its exit status is the
+# worst of its statements' (LANGUAGE.md: 2 after an error)
+left() {
+	i=0
+	while [ $i -lt $((50 * slow)) ] && [ ! -s "$work/repl.status" ]; do sleep 0.1; i=$((i + 1)); done
+	if [ "$(cat "$work/repl.status" 2>/dev/null)" = "$1" ]; then echo "ok: $2 (exit status $1)"
+	else echo "FAILED: $2: exit status '$(cat "$work/repl.status" 2>/dev/null)', expected $1"; fail=1; fi
 }
 # clear the screen and its history, so the next expect sees only new text:
 # the history is cleared only once the redraw has happened (tmux moves a
@@ -48,7 +62,7 @@ start() {
 fresh() {
 	keys C-l
 	i=0
-	while [ $i -lt 50 ] && [ "$(tmux -S "$sock" capture-pane -t repl -p | grep -c .)" -gt 1 ]; do
+	while [ $i -lt $((50 * slow)) ] && [ "$(tmux -S "$sock" capture-pane -t repl -p | grep -c .)" -gt 1 ]; do
 		sleep 0.1
 		i=$((i + 1))
 	done
@@ -83,7 +97,7 @@ expect '(2*mu + sigma^2)*S^2' "Ctrl-C abandons the line and the prompt returns"
 if screen | grep -F -q "this line is abandonedgenerator"; then echo "FAILED: Ctrl-C kept the line"; fail=1; fi
 # Ctrl-D leaves; history is kept across a restart
 keys C-d
-sleep 0.5
+left 2 "Ctrl-D leaves after the errors"
 tmux -S "$sock" kill-server 2>/dev/null
 if grep -F -q 'generator S^2' "$XDG_STATE_HOME/itox/history"; then
 	echo "ok: history file written"
@@ -93,6 +107,8 @@ fi
 start
 keys Up
 expect 'itox> generator S^2' "history available after a restart"
+keys C-a C-k C-d
+left 0 "the restarted REPL leaves"
 tmux -S "$sock" kill-server 2>/dev/null
 
 # ---- correcting declarations; whole or not at all (run in the work folder,
@@ -170,6 +186,7 @@ keys 'u + M' Enter
 expect "unknown name 'u'" "nothing of the file was applied"
 keys 'drift S' Enter
 expect 'drift(S) = 0' "the session is intact after the failures"
-
+keys C-d
+left 2 "the REPL leaves after corrections and failures"
 tmux -S "$sock" kill-server 2>/dev/null
 exit $fail

@@ -35,7 +35,9 @@ for f in "$src"/examples/*.itox "$src"/tests/scripts/*.itox; do
 	fi
 	units=$((units + 1))
 	[ $have_latex = 1 ] || continue
-	(cd "$dir" && "$ITOX" --format=latex --standalone "$name.itox") > "$work/$name.tex" 2>/dev/null
+	if (cd "$dir" && "$ITOX" --format=latex --standalone "$name.itox") > "$work/$name.tex" 2> "$work/$name.err"; then :; else
+		echo "FAIL: $name: itox --format=latex --standalone exited $?"; cat "$work/$name.err"; fail=1; continue
+	fi
 	if ! (cd "$work" && pdflatex -interaction=nonstopmode -halt-on-error "$name.tex" > "$name.latexlog" 2>&1); then
 		echo "FAIL: $name: the standalone LaTeX does not compile"; grep -A3 '^!' "$work/$name.latexlog" | head; fail=1
 	fi
