@@ -88,8 +88,8 @@ typedef struct waves {
 
 static void wave_add(expr_ctx *ctx, waves *w, const expr *c, unsigned long p, const expr *rate)
 {
-	if (expr_is_zero(c))
-		return;
+	if (!c || expr_is_zero(c))
+		return; /* NULL after a limit: the caller sees expr_error */
 	for (size_t i = 0; i < w->n; i++)
 		if (w->items[i].p == p && w->items[i].rate == rate) {
 			w->items[i].c = expr_add(ctx, w->items[i].c, c);
@@ -123,12 +123,16 @@ static const expr *wave_expr(expr_ctx *ctx, const waves *w, const expr *t)
 static bool add_convolution(expr_ctx *ctx, waves *out, const expr *factor, const waves *g, const expr *lambda,
                             const expr **unknown)
 {
+	if (expr_error(ctx))
+		return false; /* a limit: moments_compute reports it */
 	if (expr_is_zero(factor))
 		return true;
 	for (size_t i = 0; i < g->n; i++) {
 		const wave *w = &g->items[i];
 		const expr *c = expr_mul(ctx, factor, w->c);
 		const expr *a = expr_sub(ctx, w->rate, lambda);
+		if (!c || !a)
+			return false;
 		if (expr_is_zero(a)) {
 			wave_add(ctx, out, expr_div(ctx, c, expr_int(ctx, (long)w->p + 1)), w->p + 1, lambda);
 			continue;
@@ -194,7 +198,7 @@ static void solve(expr_ctx *ctx, moments *mo, const expr *X, const expr *t, cons
 		if (ok && k >= 2)
 			ok = add_convolution(ctx, &m[k], gamma[k], &m[k - 2], lambda[k], &mo->no_solution);
 	}
-	if (ok) {
+	if (ok && !expr_error(ctx)) {
 		mo->solutions = xcalloc(K, sizeof *mo->solutions);
 		for (size_t k = 1; k <= K; k++)
 			mo->solutions[k - 1] = wave_expr(ctx, &m[k], t);
