@@ -99,8 +99,9 @@ static void add_reason(check_result *out, check_reason_kind kind, size_t index)
 	out->reasons[out->nreasons++] = (check_reason){.kind = kind, .index = index};
 }
 
-/* What was checked: the input as given and the plan's choices. */
-static void record_setup(check_plan *p, check_result *out)
+/* What was checked: the input as given, the plan's choices and the steps of
+ * the grid used (more than asked when refined). */
+static void record_setup(check_plan *p, long steps, check_result *out)
 {
 	const check_input *in = p->in;
 	check_setup *s = &out->setup;
@@ -114,7 +115,7 @@ static void record_setup(check_plan *p, check_result *out)
 	}
 	s->milstein = p->milstein;
 	s->horizon = in->horizon;
-	s->steps = in->steps;
+	s->steps = steps;
 	s->steps_asked = in->steps;
 	s->paths = in->paths;
 	s->seed = in->seed;
@@ -319,11 +320,10 @@ void check_run(expr_ctx *ctx, const check_input *in, check_result *out)
 		out->error = xstrdup("interrupted");
 		free(rows);
 	} else {
-		record_setup(&p, out);
+		record_setup(&p, steps, out);
 		record_fd(out, rows, nrows);
 		if (p.unrepresentable)
 			add_reason(out, CHECK_REASON_UNREPRESENTABLE, 0);
-		out->setup.steps = steps;
 		record_sim(&p, &total, steps, out);
 		if (in->verbose && conv_paths >= 2)
 			record_conv(&conv, conv_paths, out);
