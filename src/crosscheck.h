@@ -77,6 +77,15 @@ typedef struct check_fd_row {
  * from the grids, and the allowance for floating-point rounding over the
  * steps; so a statistic without randomness (se = 0) is judged by the
  * last two alone, never by a z-score. */
+/* A heavy statistic judged without the paths that dominate it. */
+typedef enum check_trim {
+	CHECK_TRIM_NONE,      /* not judged: not heavy, or outside its tolerance untrimmed */
+	CHECK_TRIM_WITHIN,    /* within its tolerance */
+	CHECK_TRIM_DOMINATED, /* still dominated by one path after 7 were set aside */
+	CHECK_TRIM_OUTSIDE,   /* outside its tolerance */
+	CHECK_TRIM_BY_BIAS    /* within only by the bias allowance */
+} check_trim;
+
 typedef struct check_zstat {
 	double n;         /* paths in the mean */
 	double mean;      /* mean of the extrapolated R(h) = 2 S(h) - S(2h) (S(h) alone for one step) */
@@ -97,6 +106,15 @@ typedef struct check_zstat {
 	bool heavy;        /* top_share is too large for the standard errors to be trusted */
 	bool off;          /* evidence against the differential: not ok, and when heavy, also off
 	                    * by twice the tolerance without the path farthest from the mean */
+	/* Only for a heavy statistic within its tolerance: the same test on the trimmed statistics
+	 * (R(h), D1 and D2 each without their farthest paths until none is dominated by one path). */
+	int trimmed;              /* paths set aside from R(h) */
+	int trimmed_grid;         /* the most set aside from D1 or D2 */
+	double trimmed_mean;      /* mean of R(h) without them */
+	double trimmed_tolerance; /* its tolerance, from the trimmed se, bias and bias se */
+	check_trim trimmed_is;    /* how the trimmed statistic stands; CHECK_TRIM_WITHIN (not dominated,
+	                           * within its tolerance not only by the bias allowance) keeps the
+	                           * heavy tails from making the verdict undecided */
 } check_zstat;
 
 /* A noise that plays a part, in model order. */

@@ -100,10 +100,10 @@
 		   "  steps up to the work of a default check.  Verdicts: consistent, inconsistent\n"\
 		   "  (evidence against the differential) or undecided (the experiment cannot\n"     \
 		   "  judge: paths left the domain or overflowed, too few paths or steps, a value\n" \
-		   "  beyond double precision, heavy tails), each with its reason; only\n"          \
-		   "  consistent exits 0.  where gives a generic function a concrete form for the\n"\
-		   "  check; the differential keeps the generic partials and the check evaluates\n" \
-		   "  them from that form.\n"                                                      \
+		   "  beyond double precision, heavy tails that trimming the dominant paths does\n"\
+		   "  not tame), each with its reason; only consistent exits 0.  where gives a\n"   \
+		   "  generic function a concrete form for the check; the differential keeps the\n"\
+		   "  generic partials and the check evaluates them from that form.\n"             \
 		   "  example:  check d log(S) at S=100, mu=0.05, sigma=0.2\n")                       \
 	X("partial", "partial(EXPR, x [, y ...])\n  A partial derivative.  example:  partial(S^3, S)\n") \
 	X("show", "show [NAME]\n  The model (or one name) as a script.  example:  show\n")           \

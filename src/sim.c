@@ -283,12 +283,27 @@ bool sim_cholesky(size_t n, const double *c, double *l)
 	return true;
 }
 
+/* x into a list of the most extreme values kept in order (descending for
+ * the largest, ascending for the smallest); most values are not extreme and
+ * cost one comparison. */
+static void keep_extreme(double *list, int *count, double x, bool largest)
+{
+	int n = *count;
+	if (n == SIM_STAT_EXTREMES && !(largest ? x > list[n - 1] : x < list[n - 1]))
+		return;
+	if (n < SIM_STAT_EXTREMES)
+		n++;
+	int i = n - 1;
+	for (; i > 0 && (largest ? x > list[i - 1] : x < list[i - 1]); i--)
+		list[i] = list[i - 1];
+	list[i] = x;
+	*count = n;
+}
+
 void sim_stat_add(sim_stat *s, double x)
 {
-	if (s->n == 0 || x < s->lo)
-		s->lo = x;
-	if (s->n == 0 || x > s->hi)
-		s->hi = x;
+	keep_extreme(s->lo, &s->nlo, x, false);
+	keep_extreme(s->hi, &s->nhi, x, true);
 	s->n += 1;
 	double delta = x - s->mean;
 	s->mean += delta / s->n;
@@ -309,8 +324,10 @@ void sim_stat_merge(sim_stat *into, const sim_stat *other)
 	into->mean += delta * other->n / n;
 	into->m2 += other->m2 + delta * delta * into->n * other->n / n;
 	into->n = n;
-	into->lo = fmin(into->lo, other->lo);
-	into->hi = fmax(into->hi, other->hi);
+	for (int i = 0; i < other->nlo; i++)
+		keep_extreme(into->lo, &into->nlo, other->lo[i], false);
+	for (int i = 0; i < other->nhi; i++)
+		keep_extreme(into->hi, &into->nhi, other->hi[i], true);
 }
 
 double sim_stat_sd(const sim_stat *s)
@@ -327,21 +344,54 @@ double sim_stat_top_share(const sim_stat *s)
 {
 	if (!(s->m2 > 0))
 		return 0;
-	double top = fmax(s->hi - s->mean, s->mean - s->lo);
+	if (s->nlo == 0 || s->nhi == 0)
+		return 1; /* the extremes are not known: assume the worst */
+	double top = fmax(s->hi[0] - s->mean, s->mean - s->lo[0]);
 	return fmin(1, top * top / s->m2);
 }
 
+static void drop_first(double *list, int *count)
+{
+	memmove(list, list + 1, (size_t)(*count - 1) * sizeof *list);
+	*count -= 1;
+}
+
 /* Welford's update run backwards: n' = n - 1, mean' = mean - (x - mean)/n',
- * M2' = M2 - (x - mean)(x - mean') (lo and hi are kept: the next extreme is
- * not known). */
+ * M2' = M2 - (x - mean)(x - mean').  The value comes off its side's list;
+ * when n is small it may also sit in the other list, which is then wrong,
+ * so callers remove values only from a large sample. */
+static void remove_farthest(sim_stat *s)
+{
+	bool high = s->hi[0] - s->mean >= s->mean - s->lo[0];
+	double x = high ? s->hi[0] : s->lo[0];
+	double n = s->n - 1;
+	double mean = s->mean - (x - s->mean) / n;
+	s->m2 = fmax(0, s->m2 - (x - s->mean) * (x - mean));
+	s->mean = mean;
+	s->n = n;
+	if (high)
+		drop_first(s->hi, &s->nhi);
+	else
+		drop_first(s->lo, &s->nlo);
+}
+
 sim_stat sim_stat_without_extreme(const sim_stat *s)
 {
-	if (s->n < 3)
-		return *s;
-	double x = s->hi - s->mean >= s->mean - s->lo ? s->hi : s->lo;
 	sim_stat r = *s;
-	r.n = s->n - 1;
-	r.mean = s->mean - (x - s->mean) / r.n;
-	r.m2 = fmax(0, s->m2 - (x - s->mean) * (x - r.mean));
+	if (s->n >= 3 && s->nlo > 0 && s->nhi > 0)
+		remove_farthest(&r);
+	return r;
+}
+
+sim_stat sim_stat_tame(const sim_stat *s, double share, int *removed)
+{
+	sim_stat r = *s;
+	*removed = 0;
+	if (s->n < 4 * SIM_STAT_EXTREMES)
+		return r;
+	while (*removed < SIM_STAT_EXTREMES - 1 && sim_stat_top_share(&r) > share) {
+		remove_farthest(&r);
+		*removed += 1;
+	}
 	return r;
 }

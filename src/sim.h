@@ -55,10 +55,15 @@ const double *sim_ziggurat_x(double *r, double *v);
 bool sim_cholesky(size_t n, const double *c, double *l);
 
 /* Running mean and variance (Welford), mergeable in a fixed order (Chan,
- * Golub, LeVeque), so block sums combine the same whatever the threads. */
+ * Golub, LeVeque), so block sums combine the same whatever the threads; with
+ * the SIM_STAT_EXTREMES smallest and largest values added, so that the values
+ * farthest from the mean can be set aside at the end. */
+enum { SIM_STAT_EXTREMES = 8 };
 typedef struct sim_stat {
 	double n, mean, m2;
-	double lo, hi; /* the smallest and largest value added */
+	double lo[SIM_STAT_EXTREMES]; /* the smallest values, ascending: lo[0] the smallest */
+	double hi[SIM_STAT_EXTREMES]; /* the largest values, descending: hi[0] the largest */
+	int nlo, nhi;                 /* how many of lo and hi are kept */
 } sim_stat;
 void sim_stat_add(sim_stat *s, double x);
 void sim_stat_merge(sim_stat *into, const sim_stat *other);
@@ -68,7 +73,13 @@ double sim_stat_se(const sim_stat *s); /* standard error of the mean: sd/sqrt(n)
  * about 2 log(n)/n for normal samples, near 1 when one value dominates (then
  * the standard error says little). */
 double sim_stat_top_share(const sim_stat *s);
-/* The statistics without the value farthest from the mean (lo or hi). */
+/* The statistics without the value farthest from the mean (lo[0] or hi[0]). */
 sim_stat sim_stat_without_extreme(const sim_stat *s);
+/* The statistics without their farthest values, set aside one at a time (the
+ * one farthest from the mean of those left) while one value holds more than
+ * `share` of the sum of squared deviations; at most SIM_STAT_EXTREMES - 1 of
+ * them, and none when n < 4 SIM_STAT_EXTREMES.  *removed says how many; the
+ * result's top share is over `share` only when that limit stopped it. */
+sim_stat sim_stat_tame(const sim_stat *s, double share, int *removed);
 
 #endif

@@ -136,9 +136,17 @@ static void text_zstat(xbuf *out, const check_zstat *z)
 		xbuf_put(out, "no randomness");
 	else
 		xbuf_printf(out, "z = %.2f", z->z);
-	xbuf_printf(out, "; tolerance %.3g: bias %.3g (se %.3g), rounding %.3g)%s%s\n", z->tolerance, z->bias,
-	            z->bias_se, z->rounding, z->off ? "  <-- off" : z->ok ? "" : "  <-- outside",
-	            z->heavy ? "  <-- heavy tails" : "");
+	xbuf_printf(out, "; tolerance %.3g: bias %.3g (se %.3g), rounding %.3g)%s", z->tolerance, z->bias,
+	            z->bias_se, z->rounding, z->off ? "  <-- off" : z->ok ? "" : "  <-- outside");
+	if (z->heavy)
+		xbuf_printf(out, "  <-- heavy tails (%.0f%% in one path)", 100 * z->top_share);
+	if (z->heavy && z->ok)
+		xbuf_printf(out, "; trimmed (paths set aside: %d from the mean, %d from the bias estimate): %.6g, "
+		            "tolerance %.3g%s",
+		            z->trimmed, z->trimmed_grid, z->trimmed_mean, z->trimmed_tolerance,
+		            (const char *[]){"", ", within", ", still dominated by one path", ", outside",
+		                             ", within only by the bias allowance"}[z->trimmed_is]);
+	xbuf_putc(out, '\n');
 }
 
 static void text_header(expr_ctx *ctx, const check_result *r, xbuf *out)

@@ -131,6 +131,15 @@ static void json_zstat(xbuf *out, const char *key, const check_zstat *z, bool fi
 	           (double[]){z->se, z->z, z->fine, z->bias, z->bias_se, z->rounding, z->tolerance,
 	                      z->top_share});
 	xbuf_printf(out, ",\"ok\":%s,\"off\":%s", z->ok ? "true" : "false", z->off ? "true" : "false");
+	if (z->heavy && z->ok) {
+		xbuf_printf(out, ",\"trimmed\":{\"paths\":%d,\"grid_paths\":%d,\"mean\":", z->trimmed,
+		            z->trimmed_grid);
+		put_num(out, z->trimmed_mean);
+		xbuf_put(out, ",\"tolerance\":");
+		put_num(out, z->trimmed_tolerance);
+		xbuf_printf(out, ",\"is\":\"%s\"}",
+		            (const char *[]){"none", "within", "dominated", "outside", "within_by_bias"}[z->trimmed_is]);
+	}
 	xbuf_put(out, "}");
 }
 

@@ -292,6 +292,88 @@ START_TEST(test_uniform_variables)
 }
 END_TEST
 
+/* Mean and sum of squared deviations of the values not flagged gone, by
+ * the plain two-pass formulas (common practice, no source). */
+static void two_pass(const double *x, const bool *gone, size_t n, double *count, double *mean, double *m2)
+{
+	double sum = 0, k = 0, sq = 0;
+	for (size_t i = 0; i < n; i++)
+		if (!gone[i]) {
+			sum += x[i];
+			k += 1;
+		}
+	*mean = sum / k;
+	for (size_t i = 0; i < n; i++)
+		if (!gone[i])
+			sq += (x[i] - *mean) * (x[i] - *mean);
+	*count = k;
+	*m2 = sq;
+}
+
+/* Running statistics merged from blocks of uneven sizes (Chan, Golub and
+ * LeVeque's pairwise update, from memory) against two passes over the
+ * whole sample; the kept extremes against a sort; and trimming against
+ * removing, one at a time, the value farthest from the mean of those left
+ * and recomputing everything from scratch. */
+START_TEST(test_stat_trim)
+{
+	enum { N = 5000 };
+	double *x = malloc(N * sizeof *x);
+	bool *gone = calloc(N, sizeof *gone);
+	sim_rng stream;
+	sim_rng_seed(&stream, 99);
+	sim_lanes lanes;
+	sim_lanes_take(&lanes, &stream);
+	sim_lanes_normals(&lanes, N, x);
+	/* heavy tails: a few values far out on both sides */
+	x[17] = 900, x[1234] = -400, x[2500] = 650, x[4999] = 300, x[3] = -250;
+	sim_stat total = {0};
+	for (size_t start = 0, size = 1; start < N; start += size, size = size * 3 % 1001 + 1) {
+		sim_stat block = {0};
+		for (size_t i = start; i < N && i < start + size; i++)
+			sim_stat_add(&block, x[i]);
+		sim_stat_merge(&total, &block);
+	}
+	double count, mean, m2;
+	two_pass(x, gone, N, &count, &mean, &m2);
+	ck_assert(total.n == count);
+	ck_assert_double_eq_tol(total.mean, mean, 1e-12 * fabs(mean) + 1e-15);
+	ck_assert_double_eq_tol(total.m2, m2, 1e-10 * m2);
+	ck_assert_int_eq(total.nhi, SIM_STAT_EXTREMES);
+	ck_assert(total.hi[0] == 900 && total.hi[1] == 650 && total.hi[2] == 300);
+	ck_assert(total.lo[0] == -400 && total.lo[1] == -250);
+	for (int i = 1; i < SIM_STAT_EXTREMES; i++)
+		ck_assert(total.hi[i] <= total.hi[i - 1] && total.lo[i] >= total.lo[i - 1]);
+	ck_assert_double_eq_tol(sim_stat_top_share(&total), pow(900 - mean, 2) / m2, 1e-12);
+
+	int removed;
+	sim_stat tamed = sim_stat_tame(&total, 0.01, &removed);
+	int expect = 0;
+	for (;;) {
+		two_pass(x, gone, N, &count, &mean, &m2);
+		size_t far = 0;
+		double top = -1;
+		for (size_t i = 0; i < N; i++)
+			if (!gone[i] && fabs(x[i] - mean) > top)
+				top = fabs(x[i] - mean), far = i;
+		if (top * top / m2 <= 0.01 || expect == SIM_STAT_EXTREMES - 1)
+			break;
+		gone[far] = true;
+		expect++;
+	}
+	ck_assert_int_eq(removed, expect);
+	ck_assert_int_eq(removed, 5); /* the five planted values, then a normal sample */
+	ck_assert(tamed.n == count);
+	ck_assert_double_eq_tol(tamed.mean, mean, 1e-9);
+	ck_assert_double_eq_tol(tamed.m2, m2, 1e-9 * m2);
+	ck_assert(sim_stat_top_share(&tamed) <= 0.01);
+	sim_stat one = sim_stat_without_extreme(&total);
+	ck_assert(one.n == N - 1 && one.hi[0] == 650);
+	free(x);
+	free(gone);
+}
+END_TEST
+
 Suite *sim_suite(void)
 {
 	Suite *suite = suite_create("sim");
@@ -303,6 +385,7 @@ Suite *sim_suite(void)
 	tcase_add_test(tc, test_normal_lanes);
 	tcase_add_test(tc, test_block_log);
 	tcase_add_test(tc, test_uniform_variables);
+	tcase_add_test(tc, test_stat_trim);
 	suite_add_tcase(suite, tc);
 	return suite;
 }
