@@ -145,7 +145,8 @@ def main():
     ap.add_argument("--itox", default="./itox")
     ap.add_argument("--seeds", type=int, default=200)
     ap.add_argument("--jobs", type=int, default=2)
-    ap.add_argument("--only")
+    ap.add_argument("--only", help="one model")
+    ap.add_argument("--quantity", help="one f of the model, as in CASES")
     ap.add_argument("--quick", action="store_true")
     ap.add_argument("--by-hand", action="store_true", help="also the right differentials typed by hand")
     ap.add_argument("--settings", default="0,1,2", help="which SETTINGS for the right differentials")
@@ -160,7 +161,7 @@ def main():
         settings = [SETTINGS[1]]
     rows = []  # (kind, model, quantity, what, setting, jobs)
     for model, f, hand, wrongs, extra in CASES:
-        if args.only and args.only != model:
+        if (args.only and args.only != model) or (args.quantity and args.quantity != f):
             continue
         at = " at " + POINTS[model]
         for name, s in settings if not args.no_right else []:
