@@ -66,34 +66,58 @@ static bool only_by_bias(double mean, double se, double bias, double rounding)
 	return fabs(mean) > check_z_tolerance * se + rounding && fabs(mean) > 0.5 * bias;
 }
 
+/* The tolerance z_tol sqrt(se^2 + se_bias^2) + |bias| + rounding. */
+static double tolerance_of(double se, double bias_se, double bias, double rounding)
+{
+	return check_z_tolerance * hypot(se, bias_se) + bias + rounding;
+}
+
+/* The allowance for rounding, 8 eps N m, with m the mean size of the terms
+ * summed along a path (each of the N steps' terms is computed with a
+ * relative error of a few eps, and the sums accumulate at most N of them). */
+static double rounding_of(const sim_stat *mag, long steps)
+{
+	return 8 * DBL_EPSILON * (double)steps * fabs(mag->mean);
+}
+
+/* The largest share of the sum of squared deviations one path holds in
+ * R(h) or in either grid difference. */
+static double top_share_of(const sim_stat *ext, const sim_stat *d1, const sim_stat *d2)
+{
+	return fmax(sim_stat_top_share(ext), fmax(sim_stat_top_share(d1), sim_stat_top_share(d2)));
+}
+
 /* A heavy statistic within its tolerance is judged again without the paths
- * that dominate it: R(h), D1 and D2 each without their farthest paths (at
- * most 7) until no path holds over the dominance share, the standard errors
- * and the bias estimate recomputed from those.  Such a sample's standard
- * error can be trusted as for light tails, so a wrong drift hidden by one
- * path's inflated spread shows there; a right one whose terms are lognormal
- * (the quadratic variation of GBM's S^3 sums terms like S^6 dt, and at the
- * default settings one path held over 10% of its spread on 14.5% of seeds)
- * stays within. */
-static void judge_trimmed(const sim_paths_totals *total, size_t i, check_zstat *z)
+ * that dominate it: R(h), D1, D2 and the sizes of the terms (for rounding)
+ * each without their farthest paths (at most 7) until no path holds over the
+ * dominance share, the standard errors, the bias estimate and the rounding
+ * allowance recomputed from those.  The trimmed mean estimates the mean of
+ * the bulk of the paths, not of all of them, so both must be within the
+ * trimmed tolerance: the untrimmed mean too, which bounds what the paths set
+ * aside may contribute.  A wrong drift hidden by one path's inflated spread
+ * shows there; a right one whose terms are lognormal (the quadratic variation
+ * of GBM's S^3 sums terms like S^6 dt, and at the default settings one path
+ * held over 10% of its spread on 14.5% of seeds) stays within. */
+static void judge_trimmed(const sim_paths_totals *total, size_t i, long steps, check_zstat *z)
 {
 	double share = heavy_share(total->ext[i].n);
-	int k_ext, k_d1, k_d2;
+	int k_ext, k_d1, k_d2, k_mag;
 	sim_stat ext = sim_stat_tame(&total->ext[i], share, &k_ext);
 	sim_stat d1 = sim_stat_tame(&total->d1[i], share, &k_d1);
 	sim_stat d2 = sim_stat_tame(&total->d2[i], share, &k_d2);
-	double bias, bias_se, se = sim_stat_se(&ext);
+	sim_stat mag = sim_stat_tame(&total->mag, share, &k_mag);
+	double bias, bias_se, se = sim_stat_se(&ext), rounding = rounding_of(&mag, steps);
 	bias_estimate(&d1, &d2, &bias, &bias_se);
 	z->trimmed = k_ext;
 	z->trimmed_grid = k_d1 > k_d2 ? k_d1 : k_d2;
 	z->trimmed_mean = ext.mean;
-	z->trimmed_tolerance = check_z_tolerance * hypot(se, bias_se) + bias + z->rounding;
-	bool dominated = fmax(sim_stat_top_share(&ext), fmax(sim_stat_top_share(&d1), sim_stat_top_share(&d2))) > share;
-	if (dominated)
+	z->trimmed_tolerance = tolerance_of(se, bias_se, bias, rounding);
+	double tolerance = z->trimmed_tolerance;
+	if (top_share_of(&ext, &d1, &d2) > share)
 		z->trimmed_is = CHECK_TRIM_DOMINATED;
-	else if (!isfinite(ext.mean) || !(fabs(ext.mean) <= z->trimmed_tolerance))
+	else if (!isfinite(ext.mean) || !(fabs(ext.mean) <= tolerance && fabs(z->mean) <= tolerance))
 		z->trimmed_is = CHECK_TRIM_OUTSIDE;
-	else if (only_by_bias(ext.mean, se, bias, z->rounding))
+	else if (only_by_bias(ext.mean, se, bias, rounding))
 		z->trimmed_is = CHECK_TRIM_BY_BIAS;
 	else
 		z->trimmed_is = CHECK_TRIM_WITHIN;
@@ -108,22 +132,19 @@ static bool heavy_undecides(const check_zstat *z)
 
 /* A statistic against its tolerance z_tol sqrt(se^2 + se_bias^2) + |bias| +
  * rounding: its own sampling error and that of the bias estimate, the bias
- * estimate, and the rounding allowance 8 eps N m, with m the mean size of
- * the terms summed along a path (each of the N steps' terms is computed with
- * a relative error of a few eps, and the sums accumulate at most N of them).
- * Without randomness (se = 0) only the bias and the rounding remain. */
+ * estimate, and the rounding allowance.  Without randomness (se = 0) only the
+ * bias and the rounding remain. */
 static check_zstat zstat_of(const sim_paths_totals *total, size_t i, long steps)
 {
 	const sim_stat *ext = &total->ext[i];
 	check_zstat z = {.n = ext->n, .mean = ext->mean, .se = sim_stat_se(ext), .fine = total->fine[i].mean};
 	z.z = z.se > 0 ? z.mean / z.se : NAN;
 	bias_estimate(&total->d1[i], &total->d2[i], &z.bias, &z.bias_se);
-	z.rounding = 8 * DBL_EPSILON * (double)steps * fabs(total->mag.mean);
-	z.tolerance = check_z_tolerance * hypot(z.se, z.bias_se) + z.bias + z.rounding;
+	z.rounding = rounding_of(&total->mag, steps);
+	z.tolerance = tolerance_of(z.se, z.bias_se, z.bias, z.rounding);
 	z.ok = ext->n > 1 && isfinite(z.mean) && isfinite(z.tolerance) && fabs(z.mean) <= z.tolerance;
 	z.grid_decides = z.ok && only_by_bias(z.mean, z.se, z.bias, z.rounding);
-	z.top_share = fmax(sim_stat_top_share(ext),
-	                   fmax(sim_stat_top_share(&total->d1[i]), sim_stat_top_share(&total->d2[i])));
+	z.top_share = top_share_of(ext, &total->d1[i], &total->d2[i]);
 	z.heavy = z.top_share > heavy_share(ext->n);
 	/* A statistic dominated by one path is evidence only if it stays far off
 	 * without that path: its mean and standard error recomputed, against
@@ -132,11 +153,11 @@ static check_zstat zstat_of(const sim_paths_totals *total, size_t i, long steps)
 	z.off = !z.ok && ext->n > 1;
 	if (z.off && z.heavy) {
 		sim_stat rest = sim_stat_without_extreme(ext);
-		double tolerance = check_z_tolerance * hypot(sim_stat_se(&rest), z.bias_se) + z.bias + z.rounding;
+		double tolerance = tolerance_of(sim_stat_se(&rest), z.bias_se, z.bias, z.rounding);
 		z.off = isfinite(rest.mean) && fabs(rest.mean) > 2 * tolerance;
 	}
-	if (z.heavy && z.ok)
-		judge_trimmed(total, i, &z);
+	if (z.heavy && z.ok && i != SIM_PATHS_TERMINAL) /* the terminal value is reported, not tested */
+		judge_trimmed(total, i, steps, &z);
 	return z;
 }
 

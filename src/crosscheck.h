@@ -71,21 +71,28 @@ typedef struct check_fd_row {
 	char engine_text[32], difference_text[32]; /* the values to 10 digits (also beyond double range) */
 } check_fd_row;
 
+/* How a heavy statistic stands without the paths that dominate it (name, the
+ * words of the text table, the JSON value): not judged (not heavy, or outside
+ * its tolerance untrimmed); both means within the trimmed tolerance; still
+ * dominated (after 7 paths set aside from R(h), D1 or D2, with too few paths
+ * to trim, or with a rest lost to rounding); a mean outside the trimmed
+ * tolerance; within it only by the bias allowance. */
+#define CHECK_TRIM_LIST(X)                                                    \
+	X(NONE, "", "none")                                                   \
+	X(WITHIN, "within", "within")                                         \
+	X(DOMINATED, "still dominated by one path", "dominated")              \
+	X(OUTSIDE, "outside", "outside")                                      \
+	X(BY_BIAS, "within only by the bias allowance", "within_by_bias")
+#define CHECK_TRIM_ENUM(name, text, json) CHECK_TRIM_##name,
+typedef enum check_trim { CHECK_TRIM_LIST(CHECK_TRIM_ENUM) CHECK_TRIM_COUNT } check_trim;
+#undef CHECK_TRIM_ENUM
+
 /* The mean of a statistic that is zero when the claim is right.  It is
  * judged by a tolerance made of three parts: z_tolerance standard errors
  * (of the mean and of the bias estimate), the discretisation bias estimated
  * from the grids, and the allowance for floating-point rounding over the
  * steps; so a statistic without randomness (se = 0) is judged by the
  * last two alone, never by a z-score. */
-/* A heavy statistic judged without the paths that dominate it. */
-typedef enum check_trim {
-	CHECK_TRIM_NONE,      /* not judged: not heavy, or outside its tolerance untrimmed */
-	CHECK_TRIM_WITHIN,    /* within its tolerance */
-	CHECK_TRIM_DOMINATED, /* still dominated by one path after 7 were set aside */
-	CHECK_TRIM_OUTSIDE,   /* outside its tolerance */
-	CHECK_TRIM_BY_BIAS    /* within only by the bias allowance */
-} check_trim;
-
 typedef struct check_zstat {
 	double n;         /* paths in the mean */
 	double mean;      /* mean of the extrapolated R(h) = 2 S(h) - S(2h) (S(h) alone for one step) */
@@ -107,7 +114,8 @@ typedef struct check_zstat {
 	bool off;          /* evidence against the differential: not ok, and when heavy, also off
 	                    * by twice the tolerance without the path farthest from the mean */
 	/* Only for a heavy statistic within its tolerance: the same test on the trimmed statistics
-	 * (R(h), D1 and D2 each without their farthest paths until none is dominated by one path). */
+	 * (R(h), D1 and D2 each without their farthest paths until none is dominated by one path);
+	 * the untrimmed mean must be within the trimmed tolerance too. */
 	int trimmed;              /* paths set aside from R(h) */
 	int trimmed_grid;         /* the most set aside from D1 or D2 */
 	double trimmed_mean;      /* mean of R(h) without them */

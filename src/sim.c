@@ -359,20 +359,28 @@ static void drop_first(double *list, int *count)
 /* Welford's update run backwards: n' = n - 1, mean' = mean - (x - mean)/n',
  * M2' = M2 - (x - mean)(x - mean').  The value comes off its side's list;
  * when n is small it may also sit in the other list, which is then wrong,
- * so callers remove values only from a large sample. */
-static void remove_farthest(sim_stat *s)
+ * so callers remove values only from a large sample.  The subtraction loses
+ * about eps M2 / M2' of M2' (a value 1e10 standard deviations out leaves
+ * nothing of the rest's M2, which may come out negative or many times too
+ * large), so a removal that leaves under 1e-8 of M2 is refused: false, and
+ * s unchanged. */
+static bool remove_farthest(sim_stat *s)
 {
 	bool high = s->hi[0] - s->mean >= s->mean - s->lo[0];
 	double x = high ? s->hi[0] : s->lo[0];
 	double n = s->n - 1;
 	double mean = s->mean - (x - s->mean) / n;
-	s->m2 = fmax(0, s->m2 - (x - s->mean) * (x - mean));
+	double m2 = s->m2 - (x - s->mean) * (x - mean);
+	if (!(m2 >= 1e-8 * s->m2) || !isfinite(mean))
+		return false;
+	s->m2 = m2;
 	s->mean = mean;
 	s->n = n;
 	if (high)
 		drop_first(s->hi, &s->nhi);
 	else
 		drop_first(s->lo, &s->nlo);
+	return true;
 }
 
 sim_stat sim_stat_without_extreme(const sim_stat *s)
@@ -390,7 +398,8 @@ sim_stat sim_stat_tame(const sim_stat *s, double share, int *removed)
 	if (s->n < 4 * SIM_STAT_EXTREMES)
 		return r;
 	while (*removed < SIM_STAT_EXTREMES - 1 && sim_stat_top_share(&r) > share) {
-		remove_farthest(&r);
+		if (!remove_farthest(&r))
+			return r; /* still dominated: the caller sees its top share */
 		*removed += 1;
 	}
 	return r;

@@ -65,7 +65,7 @@ typedef struct sim_stat {
 	double hi[SIM_STAT_EXTREMES]; /* the largest values, descending: hi[0] the largest */
 	int nlo, nhi;                 /* how many of lo and hi are kept */
 } sim_stat;
-void sim_stat_add(sim_stat *s, double x);
+void sim_stat_add(sim_stat *s, double x); /* x finite (callers leave out NaN and Inf paths) */
 void sim_stat_merge(sim_stat *into, const sim_stat *other);
 double sim_stat_sd(const sim_stat *s); /* sample standard deviation */
 double sim_stat_se(const sim_stat *s); /* standard error of the mean: sd/sqrt(n) */
@@ -73,13 +73,16 @@ double sim_stat_se(const sim_stat *s); /* standard error of the mean: sd/sqrt(n)
  * about 2 log(n)/n for normal samples, near 1 when one value dominates (then
  * the standard error says little). */
 double sim_stat_top_share(const sim_stat *s);
-/* The statistics without the value farthest from the mean (lo[0] or hi[0]). */
+/* The statistics without the value farthest from the mean (lo[0] or hi[0]);
+ * unchanged when that value holds all but 1e-8 of the sum of squared
+ * deviations (the rest cannot be recovered from the sums in double). */
 sim_stat sim_stat_without_extreme(const sim_stat *s);
 /* The statistics without their farthest values, set aside one at a time (the
  * one farthest from the mean of those left) while one value holds more than
  * `share` of the sum of squared deviations; at most SIM_STAT_EXTREMES - 1 of
- * them, and none when n < 4 SIM_STAT_EXTREMES.  *removed says how many; the
- * result's top share is over `share` only when that limit stopped it. */
+ * them, and none when n < 4 SIM_STAT_EXTREMES or when the rest cannot be
+ * recovered (see sim_stat_without_extreme).  *removed says how many; the
+ * result's top share is over `share` when one of those limits stopped it. */
 sim_stat sim_stat_tame(const sim_stat *s, double share, int *removed);
 
 #endif

@@ -25,6 +25,10 @@ static const char *noise_name(const check_result *r, size_t a)
 	return expr_sym_name(r->noises[a].name);
 }
 
+#define TRIM_WORDS(name, text, json) text,
+static const char *const trim_words[CHECK_TRIM_COUNT] = {CHECK_TRIM_LIST(TRIM_WORDS)};
+#undef TRIM_WORDS
+
 /* One reason of an inconsistent or undecided verdict, as a phrase. */
 static void put_reason(const check_result *r, const check_reason *why, xbuf *out)
 {
@@ -83,7 +87,10 @@ static void put_reason(const check_result *r, const check_reason *why, xbuf *out
 			xbuf_printf(out, "the covariation with %s", noise_name(r, why->index - 2));
 		else
 			xbuf_put(out, why->index == 0 ? "the quadratic variation" : "the martingale residual");
-		xbuf_put(out, " (heavy tails: its standard error cannot be trusted; use more steps)");
+		xbuf_put(out, " (heavy tails: its standard error cannot be trusted");
+		if (z->trimmed_is != CHECK_TRIM_NONE)
+			xbuf_printf(out, "; trimmed of the paths that dominate it, %s", trim_words[z->trimmed_is]);
+		xbuf_put(out, "; more steps help when paths come near a boundary)");
 		break;
 	}
 	case CHECK_REASON_UNREPRESENTABLE:
@@ -142,10 +149,9 @@ static void text_zstat(xbuf *out, const check_zstat *z)
 		xbuf_printf(out, "  <-- heavy tails (%.0f%% in one path)", 100 * z->top_share);
 	if (z->heavy && z->ok)
 		xbuf_printf(out, "; trimmed (paths set aside: %d from the mean, %d from the bias estimate): %.6g, "
-		            "tolerance %.3g%s",
+		                 "tolerance %.3g, %s",
 		            z->trimmed, z->trimmed_grid, z->trimmed_mean, z->trimmed_tolerance,
-		            (const char *[]){"", ", within", ", still dominated by one path", ", outside",
-		                             ", within only by the bias allowance"}[z->trimmed_is]);
+		            trim_words[z->trimmed_is]);
 	xbuf_putc(out, '\n');
 }
 

@@ -121,6 +121,10 @@ static void put_fields(xbuf *out, size_t n, const char *const *keys, const doubl
 	}
 }
 
+#define TRIM_VALUE(name, text, json) json,
+static const char *const trim_values[CHECK_TRIM_COUNT] = {CHECK_TRIM_LIST(TRIM_VALUE)};
+#undef TRIM_VALUE
+
 static void json_zstat(xbuf *out, const char *key, const check_zstat *z, bool first)
 {
 	xbuf_printf(out, "%s\"%s\":{\"mean\":", first ? "" : ",", key);
@@ -137,8 +141,7 @@ static void json_zstat(xbuf *out, const char *key, const check_zstat *z, bool fi
 		put_num(out, z->trimmed_mean);
 		xbuf_put(out, ",\"tolerance\":");
 		put_num(out, z->trimmed_tolerance);
-		xbuf_printf(out, ",\"is\":\"%s\"}",
-		            (const char *[]){"none", "within", "dominated", "outside", "within_by_bias"}[z->trimmed_is]);
+		xbuf_printf(out, ",\"is\":\"%s\"}", trim_values[z->trimmed_is]);
 	}
 	xbuf_put(out, "}");
 }

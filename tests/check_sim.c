@@ -314,7 +314,8 @@ static void two_pass(const double *x, const bool *gone, size_t n, double *count,
  * LeVeque's pairwise update, from memory) against two passes over the
  * whole sample; the kept extremes against a sort; and trimming against
  * removing, one at a time, the value farthest from the mean of those left
- * and recomputing everything from scratch. */
+ * and recomputing everything from scratch; and no removal where the rest is
+ * lost to rounding. */
 START_TEST(test_stat_trim)
 {
 	enum { N = 5000 };
@@ -369,6 +370,18 @@ START_TEST(test_stat_trim)
 	ck_assert(sim_stat_top_share(&tamed) <= 0.01);
 	sim_stat one = sim_stat_without_extreme(&total);
 	ck_assert(one.n == N - 1 && one.hi[0] == 650);
+
+	/* A value 1e12 standard deviations out: removing it from the sums
+	 * would leave the rest's M2 to rounding (seen as many times too large,
+	 * or negative), so it is refused and the statistic stays dominated. */
+	sim_stat far = {0};
+	for (size_t i = 0; i < N; i++)
+		sim_stat_add(&far, i == 4000 ? 1e12 : x[i] * 1e-3);
+	sim_stat kept = sim_stat_tame(&far, 0.01, &removed);
+	ck_assert_int_eq(removed, 0);
+	ck_assert(kept.n == N && kept.m2 == far.m2);
+	ck_assert(sim_stat_top_share(&kept) > 0.99);
+	ck_assert(sim_stat_without_extreme(&far).n == N);
 	free(x);
 	free(gone);
 }
