@@ -111,8 +111,7 @@ static void judge_trimmed(const sim_paths_totals *total, size_t i, long steps, c
 	z->trimmed = k_ext;
 	z->trimmed_grid = k_d1 > k_d2 ? k_d1 : k_d2;
 	z->trimmed_mean = ext.mean;
-	z->trimmed_tolerance = tolerance_of(se, bias_se, bias, rounding);
-	double tolerance = z->trimmed_tolerance;
+	double tolerance = z->trimmed_tolerance = tolerance_of(se, bias_se, bias, rounding);
 	if (top_share_of(&ext, &d1, &d2) > share)
 		z->trimmed_is = CHECK_TRIM_DOMINATED;
 	else if (!isfinite(ext.mean) || !(fabs(ext.mean) <= tolerance && fabs(z->mean) <= tolerance))
