@@ -386,6 +386,35 @@ const expr *expr_fail(expr_ctx *ctx, expr_error_kind kind, const char *message)
 	return NULL;
 }
 
+_Static_assert(sizeof ((expr_held *)0)->message == sizeof ((struct expr_ctx *)0)->message,
+               "expr_held keeps the whole message");
+
+void expr_hold(expr_ctx *ctx, expr_held *held)
+{
+	held->limits = ctx->limits;
+	held->error = ctx->error;
+	memcpy(held->message, ctx->message, sizeof held->message);
+	held->nodes[0] = ctx->error_nodes[0];
+	held->nodes[1] = ctx->error_nodes[1];
+	/* the limits on size and the interrupt; those on exponents and bits
+	 * decide what a power becomes, so they stay */
+	ctx->limits.max_nodes = 0;
+	ctx->limits.max_bytes = 0;
+	ctx->limits.max_height = 0;
+	ctx->limits.max_terms = 0;
+	ctx->limits.interrupt = NULL;
+	expr_clear_error(ctx);
+}
+
+void expr_release(expr_ctx *ctx, const expr_held *held)
+{
+	ctx->limits = held->limits;
+	ctx->error = held->error;
+	memcpy(ctx->message, held->message, sizeof ctx->message);
+	ctx->error_nodes[0] = held->nodes[0];
+	ctx->error_nodes[1] = held->nodes[1];
+}
+
 bool expr_poll_interrupt(expr_ctx *ctx)
 {
 	if (ctx->error)

@@ -105,6 +105,21 @@ const expr *expr_fail_at(expr_ctx *ctx, expr_error_kind kind, const char *templa
 /* The nodes of an expr_fail_at error (false for a plain message). */
 bool expr_error_nodes(const expr_ctx *ctx, const expr **a, const expr **b);
 bool expr_poll_interrupt(expr_ctx *ctx); /* true (and error set) when interrupted */
+/* Work that must finish once begun (laying out a result already computed, or
+ * the nodes an error message names): expr_hold lifts the limits on size
+ * (nodes, bytes, height, terms) and the interrupt, and sets aside a pending
+ * error, so that the constructors it calls cannot fail half way;
+ * expr_release puts back the limits and the error that was pending (an error
+ * raised in between is dropped).  The caller bounds the work itself (the
+ * output budget bounds a printed result). */
+typedef struct expr_held {
+	expr_limits limits;
+	expr_error_kind error;
+	char message[256];
+	const expr *nodes[2];
+} expr_held;
+void expr_hold(expr_ctx *ctx, expr_held *held);
+void expr_release(expr_ctx *ctx, const expr_held *held);
 
 /* --- constructors (all return canonical nodes, or NULL on error) --- */
 const expr *expr_int(expr_ctx *ctx, long value);

@@ -678,15 +678,11 @@ static void emit(printer *p, xbuf *out, const dnode *d)
 	}
 }
 
-/* Printing is not interrupted: the grouping calls the constructors, which
- * would fail half way (the output budget bounds the work instead).  Returns
- * the interrupt flag to put back. */
-static volatile sig_atomic_t *hold_interrupt(expr_ctx *ctx)
-{
-	volatile sig_atomic_t *interrupt = expr_ctx_limits(ctx)->interrupt;
-	expr_ctx_limits(ctx)->interrupt = NULL;
-	return interrupt;
-}
+/* Printing is neither interrupted nor stopped by a limit, and a pending
+ * error (the time limit reached while the result was being settled, the
+ * nodes an error message names) does not make its constructors fail: the
+ * grouping calls them and would fail half way (expr_hold; the output budget
+ * bounds the work instead). */
 
 char *prn_expr(expr_ctx *ctx, const expr *e, prn_format format)
 {
@@ -708,12 +704,13 @@ char *prn_expr_c(expr_ctx *ctx, const expr *e, prn_format format, const prn_abbr
 		p.format = PRN_LATEX;
 		p.plain_states = true;
 	}
-	volatile sig_atomic_t *interrupt = hold_interrupt(ctx);
+	expr_held held;
+	expr_hold(ctx, &held);
 	dnode *d = prn_build_top(&p, e);
 	xbuf out = {0};
 	emit(&p, &out, d);
 	prn_printer_free(&p);
-	expr_ctx_limits(ctx)->interrupt = interrupt;
+	expr_release(ctx, &held);
 	return xbuf_take(&out);
 }
 
@@ -762,7 +759,8 @@ char *prn_differential(expr_ctx *ctx, const prn_diff *diff, prn_format format, c
 	bool latex = p.format == PRN_LATEX;
 	xbuf out = {0};
 	bool first = true;
-	volatile sig_atomic_t *interrupt = hold_interrupt(ctx);
+	expr_held held;
+	expr_hold(ctx, &held);
 	if (diff->dt && !expr_is_zero(diff->dt)) {
 		emit_term(&p, &out, diff->dt, latex ? "\\mathrm{d}t" : "dt", first);
 		first = false;
@@ -787,6 +785,6 @@ char *prn_differential(expr_ctx *ctx, const prn_diff *diff, prn_format format, c
 	if (first)
 		xbuf_put(&out, "0");
 	prn_printer_free(&p);
-	expr_ctx_limits(ctx)->interrupt = interrupt;
+	expr_release(ctx, &held);
 	return xbuf_take(&out);
 }

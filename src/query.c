@@ -200,7 +200,9 @@ bool result_emit(session *s, pending *p, const ast_node *st)
 		p->r.diff.dw = dw;
 	}
 	char *error = NULL;
-	bool ok = within_output_budget(s, &p->r, st);
+	/* the time limit or an interrupt while settling: the result is not
+	 * printed half settled */
+	bool ok = !engine_failed(s, &st->loc) && within_output_budget(s, &p->r, st);
 	if (ok)
 		ok = writer_write(current_writer(s), &p->r, &error);
 	if (!ok && error) {

@@ -166,6 +166,37 @@ START_TEST(test_text_common_sum_factor)
 }
 END_TEST
 
+/* A result is laid out whole whatever is pending: the time limit reached
+ * while it was being settled (a pending error), or no room left for nodes.
+ * The grouping of generic-function terms makes nodes; a NULL from a failing
+ * constructor crashed the printer (found by running the hostile corpus with a
+ * 0.5 ms time limit).  The error and the limits are as before afterwards. */
+START_TEST(test_text_whatever_is_pending)
+{
+	const expr *e = parse("partial(f(t, x), t) + a*partial(f(t, x), x) + b*x*partial(f(t, x), x)"
+			      " + 1/2*sigma^2*partial(f(t, x), x, x) - r*f(t, x)");
+	char *plain = prn_expr(ctx, e, PRN_TEXT);
+	expr_fail(ctx, EXPR_ERR_INTERRUPTED, "interrupted");
+	char *pending = prn_expr(ctx, e, PRN_TEXT);
+	ck_assert_str_eq(pending, plain);
+	ck_assert_int_eq(expr_error(ctx), EXPR_ERR_INTERRUPTED);
+	ck_assert_str_eq(expr_error_message(ctx), "interrupted");
+	expr_clear_error(ctx);
+	expr_limits *limits = expr_ctx_limits(ctx);
+	size_t max_nodes = limits->max_nodes;
+	size_t room = expr_node_count(ctx);
+	limits->max_nodes = room;
+	char *full = prn_expr(ctx, e, PRN_TEXT);
+	ck_assert_str_eq(full, plain);
+	ck_assert_int_eq(expr_error(ctx), EXPR_OK);
+	ck_assert_uint_eq(limits->max_nodes, room);
+	limits->max_nodes = max_nodes;
+	free(plain);
+	free(pending);
+	free(full);
+}
+END_TEST
+
 START_TEST(test_latex_names)
 {
 	struct {
@@ -382,6 +413,7 @@ Suite *print_suite(void)
 	tcase_add_test(tc, test_text);
 	tcase_add_test(tc, test_text_black_scholes);
 	tcase_add_test(tc, test_text_round_trip);
+	tcase_add_test(tc, test_text_whatever_is_pending);
 	tcase_add_test(tc, test_latex_names);
 	tcase_add_test(tc, test_latex);
 	tcase_add_test(tc, test_c_evaluates);

@@ -148,7 +148,9 @@ for i, text in enumerate(texts):
     scripts.append(byte_mutation(text))
     scripts.append(byte_mutation(text))
     scripts.append(crlf(byte_mutation(text)) if i % 2 else crlf(text))
-for k in range(max(0, 1100 - len(scripts))):
+# the special scripts come whatever the number of sources (twelve kinds, each
+# at least twelve times), and they fill the corpus up to 1,100 scripts
+for k in range(max(144, 1100 - len(scripts))):
     scripts.append(special(k))
 
 work = tempfile.mkdtemp()
