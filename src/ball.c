@@ -13,16 +13,18 @@
  * the same number.  If either excludes 0, the point is a counterexample.
  * Otherwise the smaller radius r is compared with a scale s:
  *   s = max(|L|, |R|)       when one side is certainly nonzero: the claim
- *                           compares two nonzero numbers, and r <= 2^-54 s says
- *                           they agree to 54 bits relative to their size;
+ *                           compares two nonzero numbers, and r <= 2^-b s says
+ *                           they agree to b bits relative to their size, where
+ *                           b = max(54, prec / 4) (zero_bits): 256 bits at the
+ *                           1024 bits every point of a claim starts from;
  *   s = max |t| over the top-level terms t of L, R and D otherwise (a claim
  *                           "X = 0": there is no other scale than the terms
  *                           whose cancellation X is).
  * The first scale cannot be fooled by cancellation: cosh(1000)^2 - sinh(1000)^2
  * is a ball about 1 whose radius is about 2^2884 2^-prec, which falls below
- * 2^-54 only at 4096 bits, and a difference hidden under that radius is seen
+ * 2^-b only at 4096 bits, and a difference hidden under that radius is seen
  * there.  The second is the classical relative test and shares its weakness:
- * a difference below 2^-54 of the terms passes.
+ * a difference below 2^-b of the terms passes.
  */
 #include <config.h>
 
@@ -690,6 +692,15 @@ static void zero_scale(const ball_claim *claim, mag_t scale)
 	mag_clear(m);
 }
 
+/* The bits b of the zero bound at prec bits: BALL_ZERO_BITS, or a quarter of
+ * the precision when that is more, so that at 1024 bits a zero is a ball
+ * within 2^-256 of the scale, not 2^-54 of it: a ball that contains 0 but lost
+ * most of its precision to cancellation asks for more precision. */
+static slong zero_bits(slong prec)
+{
+	return prec / 4 > BALL_ZERO_BITS ? prec / 4 : BALL_ZERO_BITS;
+}
+
 /* One precision: decided (true, *out filled), or not (false, *reason why). */
 static bool decide_at(ball_claim *claim, slong prec, arb_t d, ball_verdict *out, ball_reason *reason)
 {
@@ -719,7 +730,7 @@ static bool decide_at(ball_claim *claim, slong prec, arb_t d, ball_verdict *out,
 	mag_t bound;
 	mag_init(bound);
 	zero_scale(claim, bound);
-	mag_mul_2exp_si(bound, bound, -BALL_ZERO_BITS);
+	mag_mul_2exp_si(bound, bound, -zero_bits(prec));
 	bool zero = mag_cmp(arb_radref(d), bound) <= 0;
 	mag_clear(bound);
 	if (zero)
@@ -736,7 +747,7 @@ ball_decision ball_claim_decide(ball_claim *claim, const mpq_t *values, ball_ver
 ball_decision ball_claim_decide_from(ball_claim *claim, const mpq_t *values, slong least,
                                      ball_verdict *out)
 {
-	static const slong precisions[] = {64, 256, 1024, BALL_MAX_PRECISION};
+	static const slong precisions[] = {64, 256, 1024, 4096, 16384, BALL_MAX_PRECISION};
 	*out = (ball_verdict){.decision = BALL_UNDECIDED, .reason = BALL_REASON_NONE};
 	ball_reason reason = BALL_REASON_NONE;
 	arb_t d;

@@ -59,12 +59,13 @@ ball_status ball_eval(expr_ctx *ctx, const expr *e, size_t natoms, const expr *c
 
 /* --- is lhs - rhs zero at a point? --- */
 
-/* The precisions tried in turn are 64, 256, 1024 and BALL_MAX_PRECISION bits.  A
- * difference whose ball contains 0 with radius <= 2^-BALL_ZERO_BITS * scale is zero
- * within its bound, where the scale is max(|lhs|, |rhs|) when a side is certainly
+/* The precisions tried in turn are 64, 256, 1024, 4096, 16384 and
+ * BALL_MAX_PRECISION bits.  A difference whose ball contains 0 with radius
+ * <= 2^-b * scale at prec bits, b = max(BALL_ZERO_BITS, prec / 4), is zero within
+ * its bound, where the scale is max(|lhs|, |rhs|) when a side is certainly
  * nonzero, else the largest magnitude of a top-level term of lhs, rhs and the
  * difference (see ball.c). */
-#define BALL_MAX_PRECISION 4096
+#define BALL_MAX_PRECISION 32768
 #define BALL_ZERO_BITS     54
 
 typedef enum ball_decision {

@@ -19,16 +19,19 @@
 
 #include "ball.h"
 #include "eval.h"
+#include "rat.h"
 #include "sim.h"
 #include "xalloc.h"
 
-enum { DOMAIN_TRIES = 200 };
+enum { DOMAIN_TRIES = 200, DOMAIN_MARKS = 48 };
 
 typedef struct atom {
 	const expr *e;
 	model_entry *entry; /* its declaration, or NULL (t, generic partials) */
 	bool pinned;	    /* a range [c, c]: always c */
 	bool drawn;	    /* drawn in the current point */
+	bool marked;        /* at a mark in the current point: its value is exact */
+	mpq_t exact;        /* that value */
 } atom;
 
 struct domain {
@@ -39,10 +42,18 @@ struct domain {
 	double *values; /* the current point as doubles, for bounds */
 	const model_relation **relations; /* the model's relations on these atoms */
 	size_t nrelations;
-	ball_prog *relation_prog; /* their differences over the atoms */
-	arb_ptr balls;            /* the point, and the differences at it */
+	/* the constraints a point must keep, certified at the exact point: the
+	 * relations, then each atom's bounds and sign (root op 0) */
+	const expr **roots;
+	model_rel *ops;
+	size_t nconstraints;
+	ball_prog *constraint_prog; /* their roots over the atoms */
+	arb_ptr balls;              /* the point, and the roots at it */
 	arb_ptr differences;
 	ball_status *statuses;
+	mpq_t *marks; /* the marks (domain_add_mark), each with its negative */
+	size_t nmarks;
+	size_t next_candidate; /* the next marked point to try (see marked_draw) */
 	sim_rng rng;
 	unsigned long draws; /* points drawn so far: the first ones stay near 1 */
 };
@@ -67,6 +78,7 @@ static size_t add_atom(domain *d, const expr *e)
 	model_entry *entry = entry_of(d->m, e);
 	bool pinned = entry && entry->lo && entry->hi && expr_is_num(entry->lo) && entry->lo == entry->hi;
 	d->atoms[d->n] = (atom){.e = e, .entry = entry, .pinned = pinned};
+	mpq_init(d->atoms[d->n].exact);
 	return d->n++;
 }
 
@@ -126,23 +138,58 @@ static void add_relations(domain *d)
 	free(applies);
 }
 
-/* Compile the relations' differences over the final atoms. */
-static void compile_relations(domain *d)
+static void add_constraint(domain *d, const expr *root, model_rel op)
 {
-	if (d->nrelations == 0)
+	if (!root)
 		return;
-	const expr **roots = xcalloc(d->nrelations, sizeof *roots);
-	const expr **atoms = xcalloc(d->n + 1, sizeof *atoms);
+	d->roots = xreallocarray(d->roots, d->nconstraints + 1, sizeof *d->roots);
+	d->ops = xreallocarray(d->ops, d->nconstraints + 1, sizeof *d->ops);
+	d->roots[d->nconstraints] = root;
+	d->ops[d->nconstraints++] = op;
+}
+
+/* The constraints over the final atoms: the relations, x - lo > 0 (or >= 0),
+ * hi - x > 0, the sign (x > 0, x >= 0, ...) and t >= 0; compiled to one program. */
+static void compile_constraints(domain *d)
+{
+	bool formed = expr_error(d->ctx) == EXPR_OK; /* a pending error is not ours to clear */
 	for (size_t r = 0; r < d->nrelations; r++)
-		roots[r] = d->relations[r]->difference;
+		add_constraint(d, d->relations[r]->difference, d->relations[r]->op);
+	size_t relations = d->nconstraints;
+	for (size_t i = 0; i < d->n; i++) {
+		const atom *a = &d->atoms[i];
+		model_entry *e = a->entry;
+		if (a->pinned || !formed)
+			continue;
+		if (e && e->lo)
+			add_constraint(d, expr_sub(d->ctx, a->e, e->lo),
+			               e->lo_strict ? MODEL_REL_GT : MODEL_REL_GE);
+		if (e && e->hi)
+			add_constraint(d, expr_sub(d->ctx, e->hi, a->e),
+			               e->hi_strict ? MODEL_REL_GT : MODEL_REL_GE);
+		int sign = expr_kind_of(a->e) == EXPR_SYM ? expr_sym_sign(a->e) : EXPR_SIGN_UNKNOWN;
+		if (a->e == d->m->time && !(e && e->lo))
+			add_constraint(d, a->e, MODEL_REL_GE);
+		else if (!(sign & EXPR_SIGN_NEG))
+			add_constraint(d, a->e, sign & EXPR_SIGN_ZERO ? MODEL_REL_GE : MODEL_REL_GT);
+		else if (!(sign & EXPR_SIGN_POS))
+			add_constraint(d, a->e, sign & EXPR_SIGN_ZERO ? MODEL_REL_LE : MODEL_REL_LT);
+	}
+	if (expr_error(d->ctx) != EXPR_OK) {
+		/* a bound too large to form: the bounds are kept in doubles only */
+		expr_clear_error(d->ctx);
+		d->nconstraints = relations;
+	}
+	if (d->nconstraints == 0)
+		return;
+	const expr **atoms = xcalloc(d->n + 1, sizeof *atoms);
 	for (size_t i = 0; i < d->n; i++)
 		atoms[i] = d->atoms[i].e;
-	d->relation_prog = ball_compile(d->ctx, d->nrelations, roots, d->n, atoms, NULL);
-	free(roots);
+	d->constraint_prog = ball_compile(d->ctx, d->nconstraints, d->roots, d->n, atoms, NULL);
 	free(atoms);
 	d->balls = _arb_vec_init((slong)d->n + 1);
-	d->differences = _arb_vec_init((slong)d->nrelations);
-	d->statuses = xcalloc(d->nrelations, sizeof *d->statuses);
+	d->differences = _arb_vec_init((slong)d->nconstraints);
+	d->statuses = xcalloc(d->nconstraints, sizeof *d->statuses);
 }
 
 domain *domain_new(expr_ctx *ctx, model *m, size_t n, const expr *const *atoms, uint64_t seed)
@@ -158,7 +205,7 @@ domain *domain_new(expr_ctx *ctx, model *m, size_t n, const expr *const *atoms, 
 			add_bound_names(d, d->atoms[i].entry->hi);
 		}
 	add_relations(d);
-	compile_relations(d);
+	compile_constraints(d);
 	d->values = xcalloc(d->n + 1, sizeof *d->values);
 	sim_rng_seed(&d->rng, seed);
 	return d;
@@ -168,12 +215,19 @@ void domain_free(domain *d)
 {
 	if (!d)
 		return;
-	if (d->nrelations) {
-		ball_free(d->relation_prog);
+	if (d->nconstraints) {
+		ball_free(d->constraint_prog);
 		_arb_vec_clear(d->balls, (slong)d->n + 1);
-		_arb_vec_clear(d->differences, (slong)d->nrelations);
+		_arb_vec_clear(d->differences, (slong)d->nconstraints);
 		free(d->statuses);
 	}
+	free(d->roots);
+	free(d->ops);
+	for (size_t i = 0; i < d->nmarks; i++)
+		mpq_clear(d->marks[i]);
+	free(d->marks);
+	for (size_t i = 0; i < d->n; i++)
+		mpq_clear(d->atoms[i].exact);
 	free(d->relations);
 	free(d->atoms);
 	free(d->values);
@@ -312,6 +366,8 @@ static bool inside(domain *d)
 	for (size_t i = 0; i < d->n; i++) {
 		model_entry *e = d->atoms[i].entry;
 		double x = d->values[i];
+		if (d->atoms[i].marked)
+			continue; /* certified at the exact point (constraints_kept) */
 		if (!isfinite(x))
 			return false;
 		if (!e || d->atoms[i].pinned)
@@ -346,27 +402,28 @@ static bool relation_kept(model_rel op, const arb_t difference)
 	return false;
 }
 
-/* Does the exact point values keep every relation?  Certified in ball
- * arithmetic, with more precision when a ball touches 0; a point that no
- * precision certifies (or where a relation is undefined) is not kept. */
-static bool relations_kept(domain *d, mpq_t *values)
+/* Does the exact point values keep every constraint (relations, bounds,
+ * signs)?  Certified in ball arithmetic, with more precision when a ball
+ * touches 0; a point that no precision certifies (or where a relation is
+ * undefined) is not kept. */
+static bool constraints_kept(domain *d, mpq_t *values)
 {
-	if (d->nrelations == 0)
+	if (d->nconstraints == 0)
 		return true;
-	if (!d->relation_prog)
+	if (!d->constraint_prog)
 		return false; /* not compiled (cannot happen: every name is an atom) */
-	static const slong precisions[] = {64, 256};
-	bool *kept = xcalloc(d->nrelations, sizeof *kept);
-	size_t left = d->nrelations;
+	static const slong precisions[] = {64, 256, 4096};
+	bool *kept = xcalloc(d->nconstraints, sizeof *kept);
+	size_t left = d->nconstraints;
 	for (size_t p = 0; p < sizeof precisions / sizeof precisions[0] && left; p++) {
 		for (size_t i = 0; i < d->n; i++)
 			ball_set_mpq(d->balls + i, values[i], precisions[p]);
-		if (ball_run(d->relation_prog, d->balls, precisions[p], d->differences, d->statuses) !=
+		if (ball_run(d->constraint_prog, d->balls, precisions[p], d->differences, d->statuses) !=
 		    BALL_OK)
 			break;
-		for (size_t r = 0; r < d->nrelations; r++)
+		for (size_t r = 0; r < d->nconstraints; r++)
 			if (!kept[r] && d->statuses[r] == BALL_OK &&
-			    relation_kept(d->relations[r]->op, d->differences + r)) {
+			    relation_kept(d->ops[r], d->differences + r)) {
 				kept[r] = true;
 				left--;
 			}
@@ -375,24 +432,155 @@ static bool relations_kept(domain *d, mpq_t *values)
 	return left == 0;
 }
 
+void domain_add_mark(domain *d, mpq_srcptr q)
+{
+	for (int negated = 0; negated < 2; negated++) {
+		if (d->nmarks >= DOMAIN_MARKS)
+			return;
+		mpq_t value;
+		mpq_init(value);
+		if (negated)
+			mpq_neg(value, q);
+		else
+			mpq_set(value, q);
+		bool seen = false;
+		for (size_t i = 0; i < d->nmarks && !seen; i++)
+			seen = mpq_equal(d->marks[i], value);
+		if (seen) {
+			mpq_clear(value);
+			continue;
+		}
+		d->marks = xreallocarray(d->marks, d->nmarks + 1, sizeof *d->marks);
+		mpq_init(d->marks[d->nmarks]);
+		mpq_swap(d->marks[d->nmarks++], value);
+		mpq_clear(value);
+	}
+}
+
+/* The perturbations of a mark m: m itself, then m (1 + 10^-k), m (1 - 10^-k),
+ * m + 10^-k and m - 10^-k for each k of marked_steps: a point on each side of a
+ * sign change at m (abs(y - m)), however far out m is and however close to it
+ * the change is.  Their number (37) is prime, see marked_draw. */
+static const unsigned marked_steps[] = {1, 2, 3, 6, 9, 12, 15, 20, 30};
+enum { MARKED_PERTURBATIONS = 1 + 4 * (int)(sizeof marked_steps / sizeof marked_steps[0]) };
+
+static void perturb(mpq_t x, mpq_srcptr mark, unsigned p)
+{
+	mpq_set(x, mark);
+	if (p == 0)
+		return;
+	unsigned kind = (p - 1) % 4, k = marked_steps[(p - 1) / 4];
+	mpq_t step;
+	mpq_init(step);
+	mpz_ui_pow_ui(mpq_denref(step), 10, k);
+	mpz_set_ui(mpq_numref(step), 1); /* 10^-k, canonical */
+	if (kind < 2) {
+		mpq_mul(step, step, mark);
+	}
+	if (kind % 2 == 0)
+		mpq_add(x, x, step);
+	else
+		mpq_sub(x, x, step);
+	mpq_clear(step);
+}
+
+/* The value of a bound of atom i as a mark (its names drawn first): exact for
+ * a number, else the shortest decimal of its double; false when it has none. */
+static bool bound_mark(domain *d, size_t i, bool upper, mpq_t out)
+{
+	model_entry *e = d->atoms[i].entry;
+	const expr *bound = e ? (upper ? e->hi : e->lo) : NULL;
+	if (!bound)
+		return false;
+	if (expr_is_num(bound)) {
+		mpq_set(out, expr_num_value(bound));
+		return true;
+	}
+	double v = bound_value(d, bound);
+	if (!isfinite(v))
+		return false;
+	rat_set_double_short(out, v);
+	return true;
+}
+
+/* Fill values from the drawn doubles (the shortest decimals) and the exact
+ * values of marked and pinned atoms. */
+static void take_point(domain *d, mpq_t *values)
+{
+	for (size_t i = 0; i < d->n; i++) {
+		atom *a = &d->atoms[i];
+		if (a->pinned)
+			mpq_set(values[i], expr_num_value(a->entry->lo));
+		else if (a->marked)
+			mpq_set(values[i], a->exact);
+		else
+			rat_set_double_short(values[i], d->values[i]);
+	}
+}
+
+/* A point with one atom at or near a mark: candidate c gives perturbation
+ * c mod 37 (perturb) and slot c mod (slots * atoms), slot s < nmarks the mark s,
+ * then the atom's lower and upper bound.  When 37 and slots * atoms are coprime,
+ * the first candidates go round every atom and mark with changing
+ * perturbations (the Chinese remainder theorem), so each mark is soon tried
+ * from both sides, the same way on every seed.  The other atoms are drawn as
+ * usual.  False when no candidate is left (or none of a few is in the domain). */
+static bool marked_draw(domain *d, mpq_t *values)
+{
+	size_t slots = d->nmarks + 2;
+	if ((slots * d->n) % MARKED_PERTURBATIONS == 0)
+		slots++; /* an empty slot keeps the two counts coprime */
+	size_t total = MARKED_PERTURBATIONS * slots * d->n;
+	mpq_t mark;
+	mpq_init(mark);
+	bool found = false;
+	for (int tries = 0; tries < 64 && !found && d->next_candidate < total; tries++) {
+		size_t c = d->next_candidate++;
+		unsigned p = (unsigned)(c % MARKED_PERTURBATIONS);
+		size_t s = c % (slots * d->n), slot = s / d->n, i = s % d->n;
+		atom *a = &d->atoms[i];
+		if (a->pinned)
+			continue;
+		for (size_t j = 0; j < d->n; j++)
+			d->atoms[j].drawn = d->atoms[j].marked = false;
+		a->drawn = true; /* a bound that refers back to it reads 0 */
+		d->values[i] = 0;
+		if (slot < d->nmarks)
+			mpq_set(mark, d->marks[slot]);
+		else if (slot - d->nmarks >= 2 || !bound_mark(d, i, slot - d->nmarks == 1, mark))
+			continue;
+		perturb(a->exact, mark, p);
+		a->marked = true;
+		d->values[i] = mpq_get_d(a->exact);
+		for (size_t j = 0; j < d->n; j++)
+			draw_atom(d, j);
+		if (!inside(d))
+			continue;
+		take_point(d, values);
+		found = constraints_kept(d, values);
+	}
+	mpq_clear(mark);
+	if (!found)
+		for (size_t j = 0; j < d->n; j++)
+			d->atoms[j].marked = false;
+	return found;
+}
+
 bool domain_draw(domain *d, mpq_t *values)
 {
 	d->draws++;
+	/* every second point at or near a mark, while candidates are left */
+	if (d->draws % 2 == 0 && marked_draw(d, values))
+		return true;
 	for (int attempt = 0; attempt < DOMAIN_TRIES; attempt++) {
 		for (size_t i = 0; i < d->n; i++)
-			d->atoms[i].drawn = false;
+			d->atoms[i].drawn = d->atoms[i].marked = false;
 		for (size_t i = 0; i < d->n; i++)
 			draw_atom(d, i);
 		if (!inside(d))
 			continue;
-		for (size_t i = 0; i < d->n; i++) {
-			atom *a = &d->atoms[i];
-			if (a->pinned)
-				mpq_set(values[i], expr_num_value(a->entry->lo));
-			else
-				mpq_set_d(values[i], d->values[i]);
-		}
-		if (relations_kept(d, values))
+		take_point(d, values);
+		if (constraints_kept(d, values))
 			return true;
 	}
 	return false;

@@ -8,7 +8,8 @@
  * Names that bounds use are sampled too (first), so a > b is honoured even
  * when a claim mentions only a.  The model's relations between expressions
  * (2*kappa*theta > xi^2) that use an atom hold at every point, certified in
- * ball arithmetic; their names are sampled too.
+ * ball arithmetic; their names are sampled too.  Half of the points lie at
+ * or near marks: numbers of the claim and the atoms' bounds (domain_add_mark).
  */
 #ifndef ITOX_DOMAIN_H
 #define ITOX_DOMAIN_H
@@ -30,8 +31,17 @@ void domain_free(domain *d);
 size_t domain_size(const domain *d);
 const expr *domain_atom(const domain *d, size_t i);
 
-/* Draw a point into values[domain_size]; false when none satisfying every
- * declared bound and relation was found (an empty or too thin domain). */
+/* A mark: a value worth trying (a number of the claim).  Every second point
+ * puts one atom at or near a mark (q, q (1 +- 10^-k), q +- 10^-k, for k from 1
+ * to 30), or near a bound of that atom, within the domain; q and -q are marks
+ * (at most 48 in all).  A false claim such as abs(y - 10^9) = 10^9 - y is seen
+ * from both sides of 10^9 whatever the seed. */
+void domain_add_mark(domain *d, mpq_srcptr q);
+
+/* Draw a point into values[domain_size] (exact rationals: the shortest
+ * decimal of a drawn double, or a mark's exact neighbour); false when none
+ * satisfying every declared bound and relation was found (an empty or too
+ * thin domain).  Bounds, signs and relations are certified at the exact point. */
 bool domain_draw(domain *d, mpq_t *values);
 
 /* Does the domain have an interior (no atom pinned to one value)?  A nonzero

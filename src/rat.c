@@ -4,6 +4,7 @@
 #include <ctype.h>
 #include <limits.h>
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -207,6 +208,81 @@ char *rat_to_string(mpq_srcptr value)
 void rat_set_double(mpq_t value, double number)
 {
 	mpq_set_d(value, number);
+}
+
+/* The shortest decimal that reads back as the double x (at most 17 significant
+ * digits: IEEE 754-2008, sec. 5.12.2, from memory). */
+void rat_set_double_short(mpq_t value, double x)
+{
+	char text[40];
+	for (int digits = 1; digits <= 17; digits++) {
+		snprintf(text, sizeof text, "%.*e", digits - 1, x);
+		if (strtod(text, NULL) == x)
+			break;
+	}
+	const char *body = text[0] == '-' ? text + 1 : text;
+	if (!rat_parse_decimal(value, body)) {
+		mpq_set_d(value, x);
+		return;
+	}
+	if (text[0] == '-')
+		mpq_neg(value, value);
+}
+
+char *rat_to_decimal(mpq_srcptr value)
+{
+	/* n / (2^a 5^b) is the integer n 10^k / (2^a 5^b) times 10^-k, k = max(a, b) */
+	mpz_t rest, five, scaled;
+	mpz_inits(rest, five, scaled, NULL);
+	mpz_set(rest, mpq_denref(value));
+	mpz_set_ui(five, 5);
+	unsigned long twos = mpz_scan1(rest, 0);
+	mpz_tdiv_q_2exp(rest, rest, twos);
+	unsigned long fives = mpz_remove(rest, rest, five);
+	bool terminates = mpz_cmp_ui(rest, 1) == 0;
+	long shift = (long)(twos > fives ? twos : fives);
+	if (terminates) {
+		mpz_ui_pow_ui(scaled, 10, (unsigned long)shift);
+		mpz_mul(scaled, scaled, mpq_numref(value));
+		mpz_divexact(scaled, scaled, mpq_denref(value));
+		mpz_abs(scaled, scaled);
+	}
+	char *digits = terminates ? mpz_get_str(NULL, 10, scaled) : NULL;
+	mpz_clears(rest, five, scaled, NULL);
+	if (!digits)
+		return rat_to_string(value);
+	/* value = digits * 10^-shift, without trailing zeros */
+	size_t len = strlen(digits);
+	while (len > 1 && digits[len - 1] == '0') {
+		digits[--len] = '\0';
+		shift--;
+	}
+	long exponent = (long)len - 1 - shift; /* of the leading digit */
+	xbuf out = {0};
+	if (mpq_sgn(value) < 0)
+		xbuf_putc(&out, '-');
+	if (exponent < -6 || exponent >= 21) {
+		xbuf_putc(&out, digits[0]);
+		if (len > 1)
+			xbuf_printf(&out, ".%s", digits + 1);
+		xbuf_printf(&out, "e%c%ld", exponent < 0 ? '-' : '+', labs(exponent));
+	} else if (shift <= 0) {
+		xbuf_put(&out, digits);
+		for (long i = 0; i < -shift; i++)
+			xbuf_putc(&out, '0');
+	} else if ((size_t)shift < len) {
+		xbuf_printf(&out, "%.*s.%s", (int)(len - (size_t)shift), digits,
+		            digits + len - (size_t)shift);
+	} else {
+		xbuf_put(&out, "0.");
+		for (size_t i = len; i < (size_t)shift; i++)
+			xbuf_putc(&out, '0');
+		xbuf_put(&out, digits);
+	}
+	void (*release)(void *, size_t);
+	mp_get_memory_functions(NULL, NULL, &release);
+	release(digits, strlen(digits) + 1);
+	return xbuf_take(&out);
 }
 
 /* ------------------------------------------------------------------ small fast paths */

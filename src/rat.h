@@ -29,6 +29,14 @@ unsigned long rat_bits(mpq_srcptr value); /* bits of the larger of numerator and
 /* Text of value: "3", "-1/2" (a new string to free). */
 char *rat_to_string(mpq_srcptr value);
 
+/* Text of value as an exact decimal ("0.125", "1.5e+300") when its
+ * denominator divides a power of 10, else as rat_to_string ("1/3"). */
+char *rat_to_decimal(mpq_srcptr value);
+
+/* Set value to the shortest decimal that reads back as the finite double x
+ * (0.1, not the double's own 0.1000000000000000055...). */
+void rat_set_double_short(mpq_t value, double x);
+
 /* Set value to the exact rational of a finite double. */
 void rat_set_double(mpq_t value, double number);
 

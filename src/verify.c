@@ -13,6 +13,7 @@
 
 #include "ball.h"
 #include "domain.h"
+#include "rat.h"
 #include "ratform.h"
 #include "expr-internal.h"
 #include "xalloc.h"
@@ -40,6 +41,32 @@ static void collect_atoms(const expr *e, expr_map *seen, expr_vec *out)
 	default:
 		for (size_t i = 0; i < expr_nops(e); i++)
 			collect_atoms(expr_op(e, i), seen, out);
+		return;
+	}
+}
+
+/* The rational numbers of e (numbers and coefficients, not exponents) as
+ * marks of the domain: where a claim such as abs(y - 10^9) = 10^9 - y turns,
+ * random points may never go. */
+static void collect_marks(const expr *e, expr_map *seen, domain *dom)
+{
+	if (!e || expr_map_get(seen, e))
+		return;
+	expr_map_put(seen, e, e);
+	switch (expr_kind_of(e)) {
+	case EXPR_NUM:
+		domain_add_mark(dom, expr_num_value(e));
+		return;
+	case EXPR_SYM:
+		return;
+	case EXPR_MUL:
+		domain_add_mark(dom, expr_mul_coef(e));
+		for (size_t i = 0; i < expr_nops(e); i++)
+			collect_marks(expr_mul_base(e, i), seen, dom);
+		return;
+	default:
+		for (size_t i = 0; i < expr_nops(e); i++)
+			collect_marks(expr_op(e, i), seen, dom);
 		return;
 	}
 }
@@ -86,15 +113,18 @@ typedef struct part_run {
 	size_t nvalues;
 } part_run;
 
+/* Record the point (exact: the rational tried, as a terminating decimal or
+ * p/q) and the two sides there, in place of an earlier one. */
 static void record_point(verify_result *out, part_run *r, ball_verdict *v)
 {
+	verify_result_free(out);
 	size_t n = domain_size(r->dom);
 	out->natoms = n;
 	out->atoms = xcalloc(n + 1, sizeof *out->atoms);
 	out->values = xcalloc(n + 1, sizeof *out->values);
 	for (size_t i = 0; i < n; i++) {
 		out->atoms[i] = domain_atom(r->dom, i);
-		out->values[i] = mpq_get_d(r->values[i]);
+		out->values[i] = rat_to_decimal(r->values[i]);
 	}
 	if (v) {
 		out->left = v->lhs_text ? xstrdup(v->lhs_text) : NULL;
@@ -102,16 +132,21 @@ static void record_point(verify_result *out, part_run *r, ball_verdict *v)
 	}
 }
 
-/* Is the side e defined at the point (at 64 bits: only certainly undefined counts)? */
+/* Is the side e defined at the point (only certainly undefined counts; more
+ * precision while the ball straddles a boundary: at y = 1/3 - 10^-30,
+ * log(y - 1/3) is certainly undefined only from about 128 bits on)? */
 static bool defined_at(part_run *r, const expr *e)
 {
+	static const slong precisions[] = {64, 1024, BALL_MAX_PRECISION};
 	size_t n = domain_size(r->dom);
 	const expr **atoms = xcalloc(n + 1, sizeof *atoms);
 	for (size_t i = 0; i < n; i++)
 		atoms[i] = domain_atom(r->dom, i);
 	arb_t value;
 	arb_init(value);
-	ball_status status = ball_eval(r->ctx, e, n, atoms, (const mpq_t *)r->values, 64, value);
+	ball_status status = BALL_UNKNOWN;
+	for (size_t k = 0; k < sizeof precisions / sizeof *precisions && status == BALL_UNKNOWN; k++)
+		status = ball_eval(r->ctx, e, n, atoms, (const mpq_t *)r->values, precisions[k], value);
 	arb_clear(value);
 	free(atoms);
 	return status != BALL_UNDEFINED;
@@ -140,6 +175,54 @@ static bool rational_counterexample(part_run *r, verify_result *out, int part)
 	}
 	free(atoms);
 	return found;
+}
+
+/* The point decided on the sides with each symbol replaced by its exact
+ * value and put in canonical form, which folds what balls cannot: at y = 1/3,
+ * (y - 1/3)^2 is exactly 0 and so is its square root, where the ball of 1/3
+ * makes a ball about 0 whose square root no precision decides.  For a point
+ * that no precision decided (v on entry); *v is replaced when this decides it
+ * (or finds a side undefined; *neither: both are).  Only for atoms that are
+ * symbols. */
+static ball_decision decide_exactly(part_run *r, ball_verdict *v, bool *neither)
+{
+	size_t n = domain_size(r->dom);
+	if (expr_error(r->ctx) != EXPR_OK)
+		return BALL_UNDECIDED;
+	const expr **olds = xcalloc(n + 1, sizeof *olds), **news = xcalloc(n + 1, sizeof *news);
+	bool symbols = true;
+	for (size_t i = 0; i < n && symbols; i++) {
+		olds[i] = domain_atom(r->dom, i);
+		symbols = expr_kind_of(olds[i]) == EXPR_SYM;
+		news[i] = symbols ? expr_num(r->ctx, r->values[i]) : NULL;
+	}
+	ball_decision decision = BALL_UNDECIDED;
+	const expr *lhs = symbols ? expr_subst(r->ctx, r->lhs, n, olds, news) : NULL;
+	const expr *rhs = symbols ? expr_subst(r->ctx, r->rhs, n, olds, news) : NULL;
+	const expr *difference = symbols ? expr_subst(r->ctx, r->difference, n, olds, news) : NULL;
+	if (expr_error(r->ctx) != EXPR_OK) {
+		expr_clear_error(r->ctx); /* a value too large, log(0), ...: as the balls said */
+	} else if (lhs && rhs) {
+		ball_verdict w = {0};
+		decision = ball_compare_zero(r->ctx, difference, lhs, rhs, 0, NULL, NULL, &w);
+		if (w.reason == BALL_REASON_UNDEFINED) {
+			arb_t value;
+			arb_init(value);
+			*neither = ball_eval(r->ctx, lhs, 0, NULL, NULL, 64, value) == BALL_UNDEFINED &&
+			           ball_eval(r->ctx, rhs, 0, NULL, NULL, 64, value) == BALL_UNDEFINED;
+			arb_clear(value);
+		}
+		if (decision != BALL_UNDECIDED || w.reason == BALL_REASON_UNDEFINED) {
+			w.bits = w.bits > v->bits ? w.bits : v->bits;
+			ball_verdict_clear(v);
+			*v = w;
+		} else {
+			ball_verdict_clear(&w);
+		}
+	}
+	free(olds);
+	free(news);
+	return decision;
 }
 
 /* Decide one part numerically; returns its verdict and fills out on failure. */
@@ -173,10 +256,14 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 			break;
 		}
 		ball_verdict v = {0};
-		/* the first points at 1024 bits: a zero within 64-bit rounding must
-		 * not hide a difference of 1/10^40 at every point */
-		slong least = attempt < VERIFY_CONFIRM ? 1024 : 64;
-		ball_decision decision = ball_claim_decide_from(claim, (const mpq_t *)r->values, least, &v);
+		/* every point at 1024 bits or more: a zero within 64-bit rounding must
+		 * not hide a difference of 1/10^40 */
+		ball_decision decision =
+		        ball_claim_decide_from(claim, (const mpq_t *)r->values, VERIFY_LEAST_BITS, &v);
+		bool neither = false; /* both sides certainly undefined at the exact point */
+		if (decision == BALL_UNDECIDED &&
+		    (v.reason == BALL_REASON_CANCELLATION || v.reason == BALL_REASON_UNKNOWN))
+			decision = decide_exactly(r, &v, &neither);
 		if (v.bits > out->bits)
 			out->bits = v.bits;
 		if (decision == BALL_NONZERO) {
@@ -190,24 +277,18 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 		}
 		if (decision == BALL_ZERO_WITHIN_BOUND) {
 			tested++;
-		} else if (v.reason == BALL_REASON_UNDEFINED && !defined_at(r, r->lhs) &&
-		           !defined_at(r, r->rhs)) {
+		} else if (v.reason == BALL_REASON_UNDEFINED &&
+		           (neither || (!defined_at(r, r->lhs) && !defined_at(r, r->rhs)))) {
 			/* outside the domain of both sides: evidence neither way; another point */
-		} else if (v.reason == BALL_REASON_CANCELLATION || v.reason == BALL_REASON_UNKNOWN) {
-			/* no precision decides this point (exp of a huge argument, a
-			 * domain boundary): it is evidence neither way; another point */
-			out->skipped++;
-			if (out->skipped > points && verdict == VERIFY_HOLDS) {
-				verdict = VERIFY_UNDECIDED;
-				*reason = ball_reason_message(v.reason);
-				out->part = part;
-				out->difference = r->difference;
-				ball_verdict_clear(&v);
-				break;
-			}
 		} else {
-			/* one side undefined, or no decision at the largest precision */
+			/* one side undefined, or no decision at the largest precision
+			 * (cancellation beyond it, a side at a domain boundary): the
+			 * point is neither evidence for nor against, and a claim holds
+			 * only when every point is decided, so the claim is undecided
+			 * (the point named; later points may still refute it) */
 			tested++;
+			if (v.reason == BALL_REASON_CANCELLATION || v.reason == BALL_REASON_UNKNOWN)
+				out->skipped++;
 			if (verdict == VERIFY_HOLDS) {
 				verdict = VERIFY_UNDECIDED;
 				*reason = v.reason == BALL_REASON_UNDEFINED
@@ -216,6 +297,7 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 				                  : ball_reason_message(v.reason);
 				out->part = part;
 				out->difference = r->difference;
+				record_point(out, r, NULL);
 			}
 		}
 		ball_verdict_clear(&v);
@@ -267,6 +349,12 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		collect_atoms(r.rhs, &seen, &r.atoms);
 		expr_map_free(&seen);
 		r.dom = domain_new(ctx, m, r.atoms.n, r.atoms.items, seed * 1000003u + p);
+		expr_map mark_seen = {0};
+		domain_add_mark(r.dom, expr_num_value(expr_int(ctx, 0)));
+		collect_marks(r.lhs, &mark_seen, r.dom);
+		collect_marks(r.rhs, &mark_seen, r.dom);
+		collect_marks(r.difference, &mark_seen, r.dom);
+		expr_map_free(&mark_seen);
 		r.nvalues = domain_size(r.dom);
 		r.values = xcalloc(r.nvalues + 1, sizeof *r.values);
 		for (size_t i = 0; i < r.nvalues; i++)
@@ -308,6 +396,8 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 
 void verify_result_free(verify_result *result)
 {
+	for (size_t i = 0; result->values && i < result->natoms; i++)
+		free(result->values[i]);
 	free(result->atoms);
 	free(result->values);
 	free(result->left);

@@ -36,21 +36,22 @@ typedef struct verify_result {
 	verify_method method;	 /* exact: decided on the canonical difference */
 	const char *reason;	 /* why undecided (a static string), or NULL */
 	size_t points;		 /* points tested (numeric) */
-	size_t skipped;		 /* points no precision could decide (cancellation, a domain boundary) */
+	size_t skipped;          /* points no precision could decide (cancellation, a domain
+	                          * boundary): the claim is then undecided */
 	long bits;		 /* the largest precision a point needed (numeric) */
 	int part;		 /* the first part that differs or is undecided, or -1 */
 	const expr *difference;	 /* lhs - rhs of that part, in normal form */
-	/* fails: the point (atoms and their values) and the two sides there */
+	/* fails, or undecided at a point: the point (atoms and their exact values,
+	 * as decimals or p/q) and, when it fails, the two sides there */
 	size_t natoms;
 	const expr **atoms;
-	double *values;
+	char **values;
 	char *left, *right;	 /* decimal values, enough digits to differ */
 } verify_result;
 
-/* Points tried for a numeric decision; the first VERIFY_CONFIRM of them at
- * 1024 bits or more. */
+/* Points tried for a numeric decision, each at VERIFY_LEAST_BITS bits or more. */
 #define VERIFY_POINTS 200
-#define VERIFY_CONFIRM 8
+#define VERIFY_LEAST_BITS 1024
 
 void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigned long seed,
 		  verify_result *out);

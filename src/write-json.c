@@ -263,7 +263,7 @@ static void claim_fields(xbuf *buf, const stmt_result *r, expr_ctx *ctx)
 		field(buf, "difference", text);
 		free(text);
 	}
-	char *point = c->verdict == VERIFY_FAILS ? writer_claim_point(r, ctx) : NULL;
+	char *point = writer_claim_point(r, ctx);
 	if (point)
 		field(buf, "at", point);
 	free(point);

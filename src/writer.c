@@ -80,7 +80,7 @@ char *writer_claim_point(const stmt_result *r, expr_ctx *ctx)
 	xbuf buf = {0};
 	for (size_t i = 0; i < c->natoms; i++) {
 		char *name = prn_expr(ctx, c->atoms[i], PRN_TEXT);
-		xbuf_printf(&buf, "%s%s=%.6g", i ? ", " : "", name, c->values[i]);
+		xbuf_printf(&buf, "%s%s=%s", i ? ", " : "", name, c->values[i]);
 		free(name);
 	}
 	if (!c->natoms)
@@ -108,10 +108,7 @@ char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx)
 	if (c->holds && c->method == VERIFY_EXACT)
 		return xstrdup(" (exact)");
 	if (c->holds)
-		return c->skipped ? xasprintf(" (numeric: %zu points, %ld bits; %zu points no precision could "
-					      "decide were skipped)",
-					      c->points, c->bits, c->skipped)
-				  : xasprintf(" (numeric: %zu points, %ld bits)", c->points, c->bits);
+		return xasprintf(" (numeric: %zu points, %ld bits)", c->points, c->bits);
 	xbuf buf = {0};
 	char *named = writer_claim_part(r);
 	const char *part = named ? named : "the two sides differ";
@@ -121,7 +118,7 @@ char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx)
 	else
 		xbuf_printf(&buf, ": %s by %s", part, difference);
 	char *point = writer_claim_point(r, ctx);
-	if (point && c->verdict == VERIFY_FAILS)
+	if (point)
 		xbuf_printf(&buf, "; at %s", point);
 	free(point);
 	free(difference);

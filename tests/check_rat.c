@@ -357,6 +357,69 @@ START_TEST(test_fast_paths_match_gmp)
 }
 END_TEST
 
+/* rat_to_decimal prints the rational itself: a terminating decimal when the
+ * denominator divides a power of 10, p/q otherwise; reading the text back
+ * gives the same rational (the printed point of a claim is the point tried). */
+START_TEST(test_to_decimal_exact)
+{
+	static const struct {
+		const char *rational, *text;
+	} cases[] = {
+	        {"0", "0"},
+	        {"1000000000", "1000000000"},
+	        {"1001000000", "1001000000"},
+	        {"-7/2", "-3.5"},
+	        {"1/8", "0.125"},
+	        {"1/3", "1/3"},
+	        {"-2/3", "-2/3"},
+	        {"9/10000000000000", "9e-13"},
+	        {"1/1000000", "0.000001"},
+	        {"123456789/1000", "123456.789"},
+	        {"1000000000000000000000", "1e+21"},
+	        {"100000000000000000000", "100000000000000000000"},
+	        {"5000000000000000099994999999999999999/1000000000000000000000000000000000000",
+	         "5.000000000000000099994999999999999999"},
+	};
+	mpq_t value, back;
+	mpq_inits(value, back, NULL);
+	for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+		mpq_set_str(value, cases[i].rational, 10);
+		mpq_canonicalize(value);
+		char *text = rat_to_decimal(value);
+		ck_assert_str_eq(text, cases[i].text);
+		if (!strchr(text, '/')) {
+			ck_assert(rat_parse_decimal(back, text[0] == '-' ? text + 1 : text));
+			if (text[0] == '-')
+				mpq_neg(back, back);
+			ck_assert(mpq_equal(back, value));
+		}
+		free(text);
+	}
+	mpq_clears(value, back, NULL);
+}
+END_TEST
+
+/* rat_set_double_short: the shortest decimal that reads back as the double
+ * (0.1, not the binary 0.1000000000000000055...; IEEE 754-2008 sec. 5.12.2,
+ * from memory), and it still reads back as that double. */
+START_TEST(test_double_short)
+{
+	static const double numbers[] = {0.1, -2.5, 1e300, 5e-324, 1.1460262706446607, 123456789.0, -0.0};
+	static const char *const texts[] = {"0.1",       "-2.5", "1e+300", "5e-324", "1.1460262706446607",
+	                                    "123456789", "0"};
+	mpq_t value;
+	mpq_init(value);
+	for (size_t i = 0; i < sizeof numbers / sizeof numbers[0]; i++) {
+		rat_set_double_short(value, numbers[i]);
+		char *text = rat_to_decimal(value);
+		ck_assert_str_eq(text, texts[i]);
+		ck_assert(strtod(text, NULL) == numbers[i]);
+		free(text);
+	}
+	mpq_clear(value);
+}
+END_TEST
+
 Suite *rat_suite(void)
 {
 	Suite *suite = suite_create("rat");
@@ -371,6 +434,8 @@ Suite *rat_suite(void)
 	tcase_add_test(tc, test_conversions);
 	tcase_add_test(tc, test_to_double_rounding);
 	tcase_add_test(tc, test_fast_paths_match_gmp);
+	tcase_add_test(tc, test_to_decimal_exact);
+	tcase_add_test(tc, test_double_short);
 	suite_add_tcase(suite, tc);
 	return suite;
 }
