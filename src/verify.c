@@ -48,27 +48,66 @@ static void collect_atoms(const expr *e, expr_map *seen, expr_vec *out)
 /* The rational numbers of e (numbers and coefficients, not exponents) as
  * marks of the domain: where a claim such as abs(y - 10^9) = 10^9 - y turns,
  * random points may never go. */
-static void collect_marks(const expr *e, expr_map *seen, domain *dom)
+typedef struct mark_walk {
+	expr_map seen;
+	domain *dom;
+	bool any;
+	/* about log2 of the largest |number| and of the finest step a number
+	 * shows (1/d for n/d: 1 + 10^-2000 differs from 1 at 2^-6644) */
+	long least, most;
+} mark_walk;
+
+static void add_mark(mark_walk *w, mpq_srcptr q)
 {
-	if (!e || expr_map_get(seen, e))
+	domain_add_mark(w->dom, q);
+	if (mpq_sgn(q) == 0)
 		return;
-	expr_map_put(seen, e, e);
+	long step = -(long)mpz_sizeinbase(mpq_denref(q), 2);
+	long size = (long)mpz_sizeinbase(mpq_numref(q), 2) + step;
+	w->least = w->any && w->least < step ? w->least : step;
+	w->most = w->any && w->most > size ? w->most : size;
+	w->any = true;
+}
+
+static void collect_marks(const expr *e, mark_walk *w)
+{
+	if (!e || expr_map_get(&w->seen, e))
+		return;
+	expr_map_put(&w->seen, e, e);
 	switch (expr_kind_of(e)) {
 	case EXPR_NUM:
-		domain_add_mark(dom, expr_num_value(e));
+		add_mark(w, expr_num_value(e));
 		return;
 	case EXPR_SYM:
 		return;
 	case EXPR_MUL:
-		domain_add_mark(dom, expr_mul_coef(e));
+		add_mark(w, expr_mul_coef(e));
 		for (size_t i = 0; i < expr_nops(e); i++)
-			collect_marks(expr_mul_base(e, i), seen, dom);
+			collect_marks(expr_mul_base(e, i), w);
 		return;
 	default:
 		for (size_t i = 0; i < expr_nops(e); i++)
-			collect_marks(expr_op(e, i), seen, dom);
+			collect_marks(expr_op(e, i), w);
 		return;
 	}
+}
+
+/* The least precision of a point: a zero's bound (2^-(prec/4) of the scale,
+ * ball.h) must lie below the finest step of a number of the claim next to
+ * its largest number, with 64 bits to spare, so that sin(x)^2 + cos(x)^2 =
+ * 1 + 10^-2000 fails (its difference, 10^-2000, is within the bound of 1024
+ * bits, 2^-256, not of 32768).  0 when no precision is enough (1 + 10^-5000):
+ * a zero is then no evidence. */
+static slong least_precision(const mark_walk *w)
+{
+	long spread = w->any ? w->most - w->least : 0;
+	long needed = 4 * (spread + 2 + 64);
+	if (needed > BALL_MAX_PRECISION)
+		return 0;
+	slong least = VERIFY_LEAST_BITS;
+	while (least < needed)
+		least *= 4; /* 1024, 4096, 16384: the precisions ball.c tries */
+	return least < BALL_MAX_PRECISION ? least : BALL_MAX_PRECISION;
 }
 
 /* Is e a rational function of its atoms: symbols and generic partials, with
@@ -226,7 +265,7 @@ static ball_decision decide_exactly(part_run *r, ball_verdict *v, bool *neither)
 }
 
 /* Decide one part numerically; returns its verdict and fills out on failure. */
-static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, size_t points,
+static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, size_t points, slong least,
                                      const char **reason)
 {
 	size_t n = domain_size(r->dom);
@@ -258,8 +297,8 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 		ball_verdict v = {0};
 		/* every point at 1024 bits or more: a zero within 64-bit rounding must
 		 * not hide a difference of 1/10^40 */
-		ball_decision decision =
-		        ball_claim_decide_from(claim, (const mpq_t *)r->values, VERIFY_LEAST_BITS, &v);
+		ball_decision decision = ball_claim_decide_from(claim, (const mpq_t *)r->values,
+		                                                least ? least : BALL_MAX_PRECISION, &v);
 		bool neither = false; /* both sides certainly undefined at the exact point */
 		if (decision == BALL_UNDECIDED &&
 		    (v.reason == BALL_REASON_CANCELLATION || v.reason == BALL_REASON_UNKNOWN))
@@ -275,8 +314,18 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 			tested++;
 			break;
 		}
-		if (decision == BALL_ZERO_WITHIN_BOUND) {
+		if (decision == BALL_ZERO_WITHIN_BOUND && least) {
 			tested++;
+		} else if (decision == BALL_ZERO_WITHIN_BOUND) {
+			tested++;
+			if (verdict == VERIFY_HOLDS) {
+				verdict = VERIFY_UNDECIDED;
+				*reason = "a number of the claim is smaller, next to its largest one, than "
+				          "the largest precision can tell from zero";
+				out->part = part;
+				out->difference = r->difference;
+				record_point(out, r, NULL);
+			}
 		} else if (v.reason == BALL_REASON_UNDEFINED &&
 		           (neither || (!defined_at(r, r->lhs) && !defined_at(r, r->rhs)))) {
 			/* outside the domain of both sides: evidence neither way; another point */
@@ -349,12 +398,12 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		collect_atoms(r.rhs, &seen, &r.atoms);
 		expr_map_free(&seen);
 		r.dom = domain_new(ctx, m, r.atoms.n, r.atoms.items, seed * 1000003u + p);
-		expr_map mark_seen = {0};
+		mark_walk marks = {.dom = r.dom};
 		domain_add_mark(r.dom, expr_num_value(expr_int(ctx, 0)));
-		collect_marks(r.lhs, &mark_seen, r.dom);
-		collect_marks(r.rhs, &mark_seen, r.dom);
-		collect_marks(r.difference, &mark_seen, r.dom);
-		expr_map_free(&mark_seen);
+		collect_marks(r.lhs, &marks);
+		collect_marks(r.rhs, &marks);
+		collect_marks(r.difference, &marks);
+		expr_map_free(&marks.seen);
 		r.nvalues = domain_size(r.dom);
 		r.values = xcalloc(r.nvalues + 1, sizeof *r.values);
 		for (size_t i = 0; i < r.nvalues; i++)
@@ -370,7 +419,9 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		} else {
 			out->method = VERIFY_NUMERIC;
 			const char *reason = NULL;
-			verify_verdict v = decide_numeric(&r, out, (int)p, in->points ? in->points : VERIFY_POINTS, &reason);
+			verify_verdict v =
+			        decide_numeric(&r, out, (int)p, in->points ? in->points : VERIFY_POINTS,
+			                       least_precision(&marks), &reason);
 			if (v == VERIFY_FAILS) {
 				out->verdict = VERIFY_FAILS;
 			} else if (v == VERIFY_UNDECIDED && undecided_part < 0) {
