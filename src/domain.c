@@ -53,6 +53,11 @@ struct domain {
 	ball_status *statuses;
 	mpq_t *marks; /* the marks (domain_add_mark), each with its negative */
 	size_t nmarks;
+	struct root_mark {
+		size_t atom;
+		const expr *at;
+	} * roots_at; /* marks of one atom that depend on the others (domain_add_root) */
+	size_t nroots_at;
 	size_t next_candidate; /* the next marked point to try (see marked_draw) */
 	sim_rng rng;
 	unsigned long draws; /* points drawn so far: the first ones stay near 1 */
@@ -226,6 +231,7 @@ void domain_free(domain *d)
 	for (size_t i = 0; i < d->nmarks; i++)
 		mpq_clear(d->marks[i]);
 	free(d->marks);
+	free(d->roots_at);
 	for (size_t i = 0; i < d->n; i++)
 		mpq_clear(d->atoms[i].exact);
 	free(d->relations);
@@ -457,6 +463,38 @@ void domain_add_mark(domain *d, mpq_srcptr q)
 	}
 }
 
+void domain_add_root(domain *d, const expr *name, const expr *at)
+{
+	if (d->nroots_at >= DOMAIN_MARKS)
+		return;
+	for (size_t i = 0; i < d->n; i++)
+		if (d->atoms[i].e == name) {
+			d->roots_at = xreallocarray(d->roots_at, d->nroots_at + 1, sizeof *d->roots_at);
+			d->roots_at[d->nroots_at++] = (struct root_mark){.atom = i, .at = at};
+			return;
+		}
+}
+
+/* The value of root mark k at the point values (the other atoms drawn), as
+ * the shortest decimal of its double; false when it cannot be evaluated. */
+static bool root_mark(domain *d, size_t k, mpq_t *values, mpq_t out)
+{
+	const expr **atoms = xcalloc(d->n + 1, sizeof *atoms);
+	for (size_t i = 0; i < d->n; i++)
+		atoms[i] = d->atoms[i].e;
+	arb_t value;
+	arb_init(value);
+	bool ok = ball_eval(d->ctx, d->roots_at[k].at, d->n, atoms, (const mpq_t *)values, 128, value) ==
+	          BALL_OK;
+	double x = ok ? arf_get_d(arb_midref(value), ARF_RND_NEAR) : NAN;
+	arb_clear(value);
+	free(atoms);
+	if (!isfinite(x))
+		return false;
+	rat_set_double_short(out, x);
+	return true;
+}
+
 /* The perturbations of a mark m: m itself, then m (1 + 10^-k), m (1 - 10^-k),
  * m + 10^-k and m - 10^-k for each k of marked_steps: a point on each side of a
  * sign change at m (abs(y - m)), however far out m is and however close to it
@@ -520,14 +558,15 @@ static void take_point(domain *d, mpq_t *values)
 
 /* A point with one atom at or near a mark: candidate c gives perturbation
  * c mod 37 (perturb) and slot c mod (slots * atoms), slot s < nmarks the mark s,
- * then the atom's lower and upper bound.  When 37 and slots * atoms are coprime,
+ * then the atom's lower and upper bound, then the root marks (of their own
+ * atom only, at the point the other atoms were drawn to).  When 37 and slots * atoms are coprime,
  * the first candidates go round every atom and mark with changing
  * perturbations (the Chinese remainder theorem), so each mark is soon tried
  * from both sides, the same way on every seed.  The other atoms are drawn as
  * usual.  False when no candidate is left (or none of a few is in the domain). */
 static bool marked_draw(domain *d, mpq_t *values)
 {
-	size_t slots = d->nmarks + 2;
+	size_t slots = d->nmarks + 2 + d->nroots_at;
 	if ((slots * d->n) % MARKED_PERTURBATIONS == 0)
 		slots++; /* an empty slot keeps the two counts coprime */
 	size_t total = MARKED_PERTURBATIONS * slots * d->n;
@@ -545,10 +584,21 @@ static bool marked_draw(domain *d, mpq_t *values)
 			d->atoms[j].drawn = d->atoms[j].marked = false;
 		a->drawn = true; /* a bound that refers back to it reads 0 */
 		d->values[i] = 0;
-		if (slot < d->nmarks)
+		size_t root = slot - d->nmarks - 2; /* a root mark when < nroots_at */
+		if (slot < d->nmarks) {
 			mpq_set(mark, d->marks[slot]);
-		else if (slot - d->nmarks >= 2 || !bound_mark(d, i, slot - d->nmarks == 1, mark))
+		} else if (slot < d->nmarks + 2) {
+			if (!bound_mark(d, i, slot - d->nmarks == 1, mark))
+				continue;
+		} else if (root >= d->nroots_at || d->roots_at[root].atom != i) {
 			continue;
+		} else {
+			for (size_t j = 0; j < d->n; j++)
+				draw_atom(d, j);
+			take_point(d, values);
+			if (!root_mark(d, root, values, mark))
+				continue;
+		}
 		perturb(a->exact, mark, p);
 		a->marked = true;
 		d->values[i] = mpq_get_d(a->exact);

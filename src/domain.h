@@ -38,6 +38,11 @@ const expr *domain_atom(const domain *d, size_t i);
  * from both sides of 10^9 whatever the seed. */
 void domain_add_mark(domain *d, mpq_srcptr q);
 
+/* A mark of the atom name alone that depends on the other atoms: the
+ * expression at (free of name), evaluated where they were drawn (the root of
+ * an argument A*name + B of abs, log or a root: at = -B/A). */
+void domain_add_root(domain *d, const expr *name, const expr *at);
+
 /* Draw a point into values[domain_size] (exact rationals: the shortest
  * decimal of a drawn double, or a mark's exact neighbour); false when none
  * satisfying every declared bound and relation was found (an empty or too

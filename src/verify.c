@@ -12,6 +12,7 @@
 #include <arb.h>
 
 #include "ball.h"
+#include "diff.h"
 #include "domain.h"
 #include "rat.h"
 #include "ratform.h"
@@ -88,6 +89,72 @@ static void collect_marks(const expr *e, mark_walk *w)
 	default:
 		for (size_t i = 0; i < expr_nops(e); i++)
 			collect_marks(expr_op(e, i), w);
+		return;
+	}
+}
+
+static bool mentions(expr_ctx *ctx, const expr *e, const expr *name)
+{
+	expr_vec names = {0};
+	expr_free_symbols(ctx, e, &names);
+	bool found = false;
+	for (size_t i = 0; i < names.n && !found; i++)
+		found = names.items[i] == name;
+	expr_vec_free(&names);
+	return found;
+}
+
+/* Where g, an argument of abs, log or a root, is A x + B in a symbol x with
+ * A and B free of x, its sign turns at x = -B/A: a mark of x (a number, or an
+ * expression of the other names evaluated at each point).  abs(y/3 - 10^9)
+ * turns at 3*10^9, which no number of the claim is near. */
+static void add_roots(expr_ctx *ctx, const expr *g, domain *dom)
+{
+	expr_vec names = {0};
+	expr_free_symbols(ctx, g, &names);
+	for (size_t i = 0; i < names.n; i++) {
+		const expr *x = names.items[i];
+		const expr *slope = diff(ctx, g, x);
+		if (!slope || expr_is_zero(slope) || mentions(ctx, slope, x))
+			continue;
+		const expr *rest = expr_sub(ctx, g, expr_mul(ctx, slope, x));
+		if (!rest || mentions(ctx, rest, x))
+			continue;
+		const expr *root = expr_neg(ctx, expr_div(ctx, rest, slope));
+		if (!root)
+			continue;
+		if (expr_is_num(root))
+			domain_add_mark(dom, expr_num_value(root));
+		else
+			domain_add_root(dom, x, root);
+	}
+	expr_vec_free(&names);
+}
+
+static void collect_roots(expr_ctx *ctx, const expr *e, expr_map *seen, domain *dom)
+{
+	if (!e || expr_map_get(seen, e))
+		return;
+	expr_map_put(seen, e, e);
+	switch (expr_kind_of(e)) {
+	case EXPR_NUM:
+	case EXPR_SYM:
+		return;
+	case EXPR_FUN:
+		if (expr_fun_id(e) == EXPR_F_ABS || expr_fun_id(e) == EXPR_F_LOG)
+			add_roots(ctx, expr_op(e, 0), dom);
+		collect_roots(ctx, expr_op(e, 0), seen, dom);
+		return;
+	case EXPR_MUL:
+		for (size_t i = 0; i < expr_nops(e); i++) {
+			if (!expr_is_integer(expr_mul_exponent(e, i)))
+				add_roots(ctx, expr_mul_base(e, i), dom);
+			collect_roots(ctx, expr_mul_base(e, i), seen, dom);
+		}
+		return;
+	default:
+		for (size_t i = 0; i < expr_nops(e); i++)
+			collect_roots(ctx, expr_op(e, i), seen, dom);
 		return;
 	}
 }
@@ -404,6 +471,13 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		collect_marks(r.rhs, &marks);
 		collect_marks(r.difference, &marks);
 		expr_map_free(&marks.seen);
+		if (expr_error(ctx) == EXPR_OK) {
+			expr_map root_seen = {0};
+			collect_roots(ctx, r.lhs, &root_seen, r.dom);
+			collect_roots(ctx, r.rhs, &root_seen, r.dom);
+			expr_map_free(&root_seen);
+			expr_clear_error(ctx); /* a root that could not be formed: no mark */
+		}
 		r.nvalues = domain_size(r.dom);
 		r.values = xcalloc(r.nvalues + 1, sizeof *r.values);
 		for (size_t i = 0; i < r.nvalues; i++)

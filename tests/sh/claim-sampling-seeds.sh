@@ -4,7 +4,8 @@
 # the true ones hold, and each counterexample is one as printed: the point of
 # its "at" text, read as an exact rational, makes the claim false.  Where
 # abs(u) = -u and abs(u) = u hold is common practice, no source: abs(y - m) =
-# m - y is false exactly when y > m, sqrt(u^2) = |u|.
+# m - y is false exactly when y > m, sqrt(u^2) = |u|, abs(u/3) = -u/3 only for
+# u <= 0.
 set -u
 ITOX=${ITOX:-./itox}
 src=${ITOX_SRCDIR:-.}
@@ -38,6 +39,8 @@ false_at = {
 	23: lambda p: p["b"] - 5 < F(1, 10 ** 15),
 	24: lambda p: p["a"] > D9,
 	26: lambda p: p["z"] < E12,
+	37: lambda p: p["y"] > 3 * D9,
+	38: lambda p: p["y"] - p["x"] > 3 * D9,
 }
 holds = {30, 31, 32}
 work, seeds = sys.argv[1], int(sys.argv[2])
