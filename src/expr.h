@@ -115,7 +115,7 @@ bool expr_poll_interrupt(expr_ctx *ctx); /* true (and error set) when interrupte
 typedef struct expr_held {
 	expr_limits limits;
 	expr_error_kind error;
-	char message[256];
+	char message[512];
 	const expr *nodes[2];
 } expr_held;
 void expr_hold(expr_ctx *ctx, expr_held *held);
