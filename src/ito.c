@@ -656,6 +656,11 @@ static bool rough_point(model *m, const expr *f, expr_map *seen, rough *out)
 				                               : ROUGH_CORNER;
 				out->where = f;
 				out->at = u;
+				if (fn == EXPR_F_LOG && point_of(u) != u) {
+					/* log(abs(v)) is defined but for v = 0, a pole */
+					out->kind = ROUGH_POLE;
+					out->at = point_of(u);
+				}
 				return true;
 			}
 		}

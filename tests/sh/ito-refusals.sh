@@ -63,6 +63,7 @@ run 2 "-e:4:1: error: $HEAD X^(5/2) is not defined where X < 0; assume X > 0 if 
 # poles: 1/u needs u != 0 everywhere the state goes
 run 2 "-e:4:1: error: $HEAD 1/X has a pole where X = 0 (the formula does not hold across it); assume a sign that keeps X away from 0 if the model does" -e 'd 1/X'
 run 2 "-e:4:1: error: $HEAD 1/X^(1/3) has a pole where X = 0 (the formula does not hold across it); assume a sign that keeps X away from 0 if the model does" -e 'd X^(-1/3)'
+run 2 "-e:4:1: error: $HEAD log(abs(X)) has a pole where X = 0 (the formula does not hold across it); assume a sign that keeps X away from 0 if the model does" -e 'd log(X^2)'
 run 2 "-e:4:1: error: $HEAD 1/cos(X) has a pole where cos(X) = 0 (the formula does not hold across it); assume a sign that keeps cos(X) away from 0 if the model does" -e 'd 1/cos(X)'
 # corners: odd roots under 2, abs(u)^p for p < 2 (X*abs(X) is C^1 only: its
 # second derivative is 2*sign(X))
