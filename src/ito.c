@@ -731,7 +731,8 @@ static const char *rough_message(const rough *r)
 		return "Itô's formula needs a function twice differentiable where the processes can go, "
 		       "and %1$s, with a symbolic exponent, is not defined where %2$s < 0 nor, for some "
 		       "exponents, twice differentiable where %2$s = 0 (a local-time term would be "
-		       "needed); assume %2$s > 0 if the model does";
+		       "needed); assume %2$s > 0 if the model does, or write an integer exponent as a "
+		       "number";
 	case ROUGH_BASE:
 		return "Itô's formula needs a function twice differentiable where the processes can go, "
 		       "and %1$s is not defined for every exponent where %2$s <= 0; assume %2$s > 0 if "

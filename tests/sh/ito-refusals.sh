@@ -39,8 +39,8 @@ run() {
 
 # --- refused: not twice differentiable, not defined, or a pole, where X can go
 # a symbolic exponent: X^a for a = 1/2 is undefined for X < 0 and not C^2 at 0
-run 2 "-e:4:1: error: $HEAD X^a, with a symbolic exponent, is not defined where X < 0 nor, for some exponents, twice differentiable where X = 0 (a local-time term would be needed); assume X > 0 if the model does" -e 'd X^a'
-run 2 "-e:4:1: error: $HEAD W^a, with a symbolic exponent, is not defined where W < 0 nor, for some exponents, twice differentiable where W = 0 (a local-time term would be needed); assume W > 0 if the model does" -e 'd W^a'
+run 2 "-e:4:1: error: $HEAD X^a, with a symbolic exponent, is not defined where X < 0 nor, for some exponents, twice differentiable where X = 0 (a local-time term would be needed); assume X > 0 if the model does, or write an integer exponent as a number" -e 'd X^a'
+run 2 "-e:4:1: error: $HEAD W^a, with a symbolic exponent, is not defined where W < 0 nor, for some exponents, twice differentiable where W = 0 (a local-time term would be needed); assume W > 0 if the model does, or write an integer exponent as a number" -e 'd W^a'
 run 2 "-e:4:1: error: $HEAD a^X is not defined for every exponent where a <= 0; assume a > 0 if the model does" -e 'd a^X'
 # exp(a*log(X)) is X^a only for X > 0: log refuses it first
 run 2 "-e:4:1: error: $HEAD log(X) is not defined where X <= 0 (a pole at X = 0); assume X > 0 if the model does" -e 'd exp(a*log(X))'
