@@ -72,6 +72,14 @@ bool run_measure(session *s, const ast_node *st)
 			break;
 		}
 		const char *zname = newname->text + 1;
+		if (expr_is_function_spelling(zname) || strcmp(zname, "t") == 0) {
+			report(s, SESSION_INPUT, &newname->loc,
+			       "'%s' is %s; name the new noise differently (such as '%s1')", zname,
+			       zname[0] == 't' && !zname[1] ? "reserved (time)" : "a built-in function",
+			       zname);
+			ok = false;
+			break;
+		}
 		model_entry *clash = model_lookup(m, zname);
 		if (clash && !(clash->kind == MODEL_NOISE && clash->sym == w)) {
 			report(s, SESSION_INPUT, &newname->loc,

@@ -24,9 +24,9 @@ bool check_new_name(session *s, const ast_loc *loc, const char *name, bool allow
 		report(s, SESSION_INPUT, loc, "'%s' is reserved (time and its differential)", name);
 		return false;
 	}
-	expr_builtin builtin;
-	if (expr_builtin_lookup(name, &builtin)) {
-		/* a user's phi would silently become the normal density in results */
+	if (expr_is_function_spelling(name)) {
+		/* a user's phi would silently become the normal density in results,
+		 * and a user's sqrt would never be called */
 		report(s, SESSION_INPUT, loc, "'%s' is a built-in function; choose another name (such as '%s1')",
 		       name, name);
 		return false;
@@ -602,8 +602,7 @@ bool declare_function(session *s, const ast_loc *loc, const char *name, size_t n
 				       names[i]);
 				return false;
 			}
-		expr_builtin builtin;
-		if (expr_builtin_lookup(names[i], &builtin)) {
+		if (expr_is_function_spelling(names[i])) {
 			report(s, SESSION_INPUT, &args[i]->loc,
 			       "'%s' is a built-in function; choose another argument name (such as '%s1')",
 			       names[i], names[i]);

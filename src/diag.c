@@ -204,9 +204,8 @@ const char *suggest(session *s, const char *name)
 	size_t distance = (size_t)-1;
 	for (size_t i = 0; i < s->model.nentries; i++)
 		consider(s->model.entries[i].name, name, &best, &distance);
-	for (int f = 0; f < EXPR_F_COUNT; f++)
-		consider(expr_builtin_name((expr_builtin)f), name, &best, &distance);
-	consider("sqrt", name, &best, &distance);
+	for (size_t f = 0; expr_function_spelling(f); f++)
+		consider(expr_function_spelling(f), name, &best, &distance);
 	consider("t", name, &best, &distance);
 	size_t length = strlen(name);
 	size_t limit = length <= 2 ? 0 : length <= 4 ? 1 : 2;
@@ -215,6 +214,11 @@ const char *suggest(session *s, const char *name)
 
 void unknown_name(session *s, const ast_loc *loc, const char *name)
 {
+	if (expr_is_function_spelling(name)) {
+		report(s, SESSION_INPUT, loc, "'%s' is a built-in function, not a variable (write %s(x))",
+		       name, name);
+		return;
+	}
 	const char *hint = suggest(s, name);
 	if (hint)
 		report(s, SESSION_INPUT, loc, "unknown name '%s'; did you mean '%s'?", name, hint);

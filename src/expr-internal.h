@@ -53,7 +53,7 @@ struct expr_ctx {
 	int next_tag;
 	expr_limits limits;
 	expr_error_kind error;
-	char message[256];
+	char message[512];
 	const expr *error_nodes[2]; /* expr_fail_at: the nodes its message names */
 	const expr *zero, *one, *minus_one;
 	/* Scratch rationals for the constructors, taken and given back in LIFO

@@ -335,3 +335,22 @@ bool expr_builtin_lookup(const char *name, expr_builtin *fn)
 		}
 	return false;
 }
+
+/* spellings read as a built-in that make no FUN node of their own */
+static const char *const extra_spellings[] = {"sqrt"};
+
+const char *expr_function_spelling(size_t i)
+{
+	if (i < EXPR_F_COUNT)
+		return builtin_table[i].name;
+	i -= EXPR_F_COUNT;
+	return i < sizeof extra_spellings / sizeof extra_spellings[0] ? extra_spellings[i] : NULL;
+}
+
+bool expr_is_function_spelling(const char *name)
+{
+	for (size_t i = 0; expr_function_spelling(i); i++)
+		if (strcmp(expr_function_spelling(i), name) == 0)
+			return true;
+	return false;
+}

@@ -115,7 +115,7 @@ bool expr_poll_interrupt(expr_ctx *ctx); /* true (and error set) when interrupte
 typedef struct expr_held {
 	expr_limits limits;
 	expr_error_kind error;
-	char message[256];
+	char message[512];
 	const expr *nodes[2];
 } expr_held;
 void expr_hold(expr_ctx *ctx, expr_held *held);
@@ -186,6 +186,11 @@ const char *expr_builtin_name(expr_builtin fn);
 const char *expr_builtin_c_name(expr_builtin fn);
 const char *expr_builtin_latex(expr_builtin fn);
 bool expr_builtin_lookup(const char *name, expr_builtin *fn);
+/* The names the language reads as built-in functions: the table's, then
+ * the spellings that are no node of their own (sqrt: u^(1/2)); index i from
+ * 0, NULL past the last.  None of them may be declared. */
+const char *expr_function_spelling(size_t i);
+bool expr_is_function_spelling(const char *name);
 
 /* Split a term into rational coefficient and coefficient-free rest (NUM: rest 1). */
 const expr *expr_split_coef(expr_ctx *ctx, const expr *term, mpq_t coef);

@@ -27,6 +27,10 @@
 		 "  example:  dS = mu*S*dt + sigma*S*dW\n")                                           \
 	X("let", "let NAME = EXPR\n"                                                                  \
 		 "  A named derived process.  example:  let Y = log(S)\n")                            \
+	X("functions", "exp log sqrt sin cos tan sinh cosh tanh erf Phi phi abs\n"                     \
+		       "  Built-in functions (Phi: standard normal distribution function, phi: its\n"  \
+		       "  density; sqrt(x) is x^(1/2)).  Their names are reserved: no declaration\n"  \
+		       "  may use them.  example:  Phi(0)\n")                                          \
 	X("d", "d EXPR\n"                                                                             \
 	       "  The Ito differential: d(EXPR) = (drift)*dt + (b1)*dW + ...\n"                       \
 	       "  d(EXPR) before a parenthesis is the operator, so d(S)*d(S) is a product.\n"         \
@@ -142,6 +146,7 @@ const char *const help_topics[] = {
 static const char overview[] =
 	"itox: symbolic Ito calculus.  Statements (help TOPIC for each):\n"
 	"  declarations  param (in) assume noise corr func sde let measure state (where)\n"
+	"                built-in function names are reserved (help functions)\n"
 	"  queries       EXPR partial d drift diffusion generator qv pde (discount)\n"
 	"                drift(EXPR), diffusion(EXPR, NOISE), generator(EXPR), qv(A, B)\n"
 	"                are functions inside expressions: drift(S)/S\n"

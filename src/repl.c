@@ -88,9 +88,8 @@ static void build_candidates(void)
 	candidates.n = 0;
 	for (size_t i = 0; ast_keywords[i]; i++)
 		add_name(ast_keywords[i], &candidates);
-	for (int f = 0; f < EXPR_F_COUNT; f++)
-		add_name(expr_builtin_name((expr_builtin)f), &candidates);
-	add_name("sqrt", &candidates);
+	for (size_t f = 0; expr_function_spelling(f); f++)
+		add_name(expr_function_spelling(f), &candidates);
 	add_name("text", &candidates);
 	add_name("latex", &candidates);
 	add_name("json", &candidates);

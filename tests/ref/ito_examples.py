@@ -292,7 +292,7 @@ KP = "Kloeden-Platen, Numerical Solution of SDEs"
 def group_brownian(tally):
 	n = Names()
 	sigma = n.pos("sigma")
-	k = n.real("n")
+	n.real("n")  # the prelude's param n, used by no example since W^n became W^7
 	W = n.real("W")
 	t = n.sym["t"]
 	m = Model(n, ["W"])
@@ -301,9 +301,12 @@ def group_brownian(tally):
 	ex = [
 		Example(OKSENDAL + ", ch. 4, Example 4.1.2: d(W^2) = dt + 2W dW (from memory)",
 		        "d W^2", lambda: m.ito(W**2), (1, {"W": 2 * W}), "differential"),
-		Example(OKSENDAL + ", ch. 4, Ito formula for W^n (from memory)",
-		        "d W^n", lambda: m.ito(W**k),
-		        (k * (k - 1) / 2 * W**(k - 2), {"W": k * W**(k - 1)}), "differential"),
+		# the formula for W^n holds for integer n; a symbolic exponent is refused (the
+		# language declares no integer parameters, and W^n for n = 1/2 is undefined
+		# for W < 0), so n is taken as 7 here (tests/sh/ito-refusals.sh: d W^n)
+		Example(OKSENDAL + ", ch. 4, Ito formula for W^n, n = 7 (from memory)",
+		        "d W^7", lambda: m.ito(W**7),
+		        (R(7 * 6, 2) * W**5, {"W": 7 * W**6}), "differential"),
 		Example(OKSENDAL + ", ch. 4, Exercise on W^3 (from memory)",
 		        "d W^3", lambda: m.ito(W**3), (3 * W, {"W": 3 * W**2}), "differential"),
 		Example(OKSENDAL + ", ch. 4: exp(sigma W - sigma^2 t/2) is a martingale (from memory)",
@@ -723,11 +726,52 @@ def group_sabr(tally):
 	run_group(tally, "SABR", n, pre, ex)
 
 
+def group_domains(tally):
+	"""Functions Itô's formula applies to only on part of the line, taken where the
+	model's assumptions keep the state (the refusals elsewhere: tests/sh/ito-refusals.sh).
+	abs(x)^n for n >= 2 is twice continuously differentiable (its second derivative
+	n(n-1)abs(x)^(n-2) is continuous), so Itô's formula holds for it on the whole line
+	(Karatzas and Shreve, Theorem 3.3.6, from memory: f in C^2 suffices)."""
+	n = Names()
+	a = n.add("a", (0.1, 0.5), positive=True)
+	b = n.real("b")
+	X = n.real("X")
+	Y = n.add("Y", (-0.9, 0.9))
+	Z = n.add("Z", (0.6, 1.5), positive=True)
+	V = n.pos("V")
+	m = Model(n, ["W"]).sde(X, 0, {"W": 1}).sde(Y, b, {"W": 1}).sde(Z, 0, {"W": Z}).sde(
+		V, 0, {"W": V})
+	pre = ["param a > 0", "param b", "noise W", "dX = dW", "dY = b*dt + dW", "dZ = Z*dW",
+	       "dV = V*dW", "assume Y in [-1, 1]", "assume Z > a", "assume V > 0"]
+	Abs = sympy.Abs
+	ex = [
+		Example("common practice, no source: abs(X)^3 is C^2, d of a Brownian X",
+		        "d abs(X)^3", lambda: m.ito(Abs(X)**3),
+		        (3 * Abs(X), {"W": 3 * X * Abs(X)}), "differential"),
+		Example("common practice, no source: abs(X)^5 of a Brownian X",
+		        "d abs(X)^5", lambda: m.ito(Abs(X)**5), None, "differential"),
+		Example("common practice, no source: tan(Y) with Y kept in [-1, 1] (inside the "
+		        "poles at -pi/2, pi/2)",
+		        "d tan(Y)", lambda: m.ito(sympy.tan(Y)), None, "differential"),
+		Example("common practice, no source: 1/(Y - 2) with Y in [-1, 1] (no pole)",
+		        "d 1/(Y - 2)", lambda: m.ito(1 / (Y - 2)), None, "differential"),
+		Example("common practice, no source: sqrt(2 + Y) with Y in [-1, 1]",
+		        "d sqrt(2 + Y)", lambda: m.ito(sqrt(2 + Y)), None, "differential"),
+		Example("common practice, no source: log(Z - a) with Z > a",
+		        "d log(Z - a)", lambda: m.ito(log(Z - a)), None, "differential"),
+		Example("common practice, no source: V^b with V > 0 and a symbolic exponent",
+		        "d V^b", lambda: m.ito(V**b),
+		        (b * (b - 1) / 2 * V**b, {"W": b * V**b}), "differential"),
+	]
+	run_group(tally, "domains of Itô's formula", n, pre, ex)
+
+
 def main():
 	tally = Tally("ito_examples")
 	for group in (group_brownian, group_gbm, group_black_scholes, group_ou, group_vasicek,
 	              group_cir, group_heston, group_heston_spec_order, group_lsv,
-	              group_two_assets, group_stratonovich, group_change_of_state, group_sabr):
+	              group_two_assets, group_stratonovich, group_change_of_state, group_sabr,
+	              group_domains):
 		group(tally)
 	tally.finish()
 
