@@ -17,8 +17,10 @@
 #include "expr-internal.h"
 #include "xalloc.h"
 
-/* The atoms of e: symbols and generic partial applications (not their
- * arguments: a partial at its arguments is one unknown value). */
+/* The atoms of e: its symbols, also those in the arguments of generic
+ * applications, which are evaluated as functions of their arguments
+ * (ball_generic), so that a counterexample is a point of the model's
+ * variables and applications at equal arguments agree. */
 static void collect_atoms(const expr *e, expr_map *seen, expr_vec *out)
 {
 	if (expr_map_get(seen, e))
@@ -28,7 +30,6 @@ static void collect_atoms(const expr *e, expr_map *seen, expr_vec *out)
 	case EXPR_NUM:
 		return;
 	case EXPR_SYM:
-	case EXPR_FAPP:
 		expr_vec_push(out, e);
 		return;
 	case EXPR_MUL:
@@ -44,10 +45,26 @@ static void collect_atoms(const expr *e, expr_map *seen, expr_vec *out)
 	}
 }
 
-/* Is e a rational function of its atoms: symbols and generic partials, with
- * integer powers only (no function application, which identities such as
- * sin^2 + cos^2 = 1 could tie, and no root, which relations tie)?  In the
- * rational normal form such an e is zero only if it is 0. */
+/* Does a generic application have only symbols and numbers as arguments?  Two
+ * such applications of one function with the same counts are the same node
+ * exactly when their arguments are the same, and their values are free of
+ * each other on a domain with interior; at other arguments, equal values may
+ * be written differently: h(sin(x)^2 + cos(x)^2) = h(1). */
+static bool plain_arguments(const expr *e)
+{
+	for (size_t i = 0; i < expr_nops(e); i++) {
+		expr_kind kind = expr_kind_of(expr_op(e, i));
+		if (kind != EXPR_SYM && kind != EXPR_NUM)
+			return false;
+	}
+	return true;
+}
+
+/* Is e a rational function of its atoms: symbols and generic partials at
+ * symbols and numbers (plain_arguments), with integer powers only (no function
+ * application, which identities such as sin^2 + cos^2 = 1 could tie, and no
+ * root, which relations tie)?  In the rational normal form such an e is zero
+ * only if it is 0. */
 static bool is_rational(const expr *e, expr_map *seen)
 {
 	if (expr_map_get(seen, e))
@@ -56,8 +73,9 @@ static bool is_rational(const expr *e, expr_map *seen)
 	switch (expr_kind_of(e)) {
 	case EXPR_NUM:
 	case EXPR_SYM:
-	case EXPR_FAPP:
 		return true;
+	case EXPR_FAPP:
+		return plain_arguments(e);
 	case EXPR_FUN:
 		return false;
 	case EXPR_MUL:
@@ -80,6 +98,7 @@ typedef struct part_run {
 	expr_ctx *ctx;
 	model *m;
 	const expr *lhs, *rhs, *difference;
+	ball_generic generic; /* generic applications as fixed functions */
 	expr_vec atoms;
 	domain *dom;
 	mpq_t *values;
@@ -111,7 +130,8 @@ static bool defined_at(part_run *r, const expr *e)
 		atoms[i] = domain_atom(r->dom, i);
 	arb_t value;
 	arb_init(value);
-	ball_status status = ball_eval(r->ctx, e, n, atoms, (const mpq_t *)r->values, 64, value);
+	ball_status status =
+	        ball_eval_generic(r->ctx, e, n, atoms, (const mpq_t *)r->values, &r->generic, 64, value);
 	arb_clear(value);
 	free(atoms);
 	return status != BALL_UNDEFINED;
@@ -128,7 +148,7 @@ static bool rational_counterexample(part_run *r, verify_result *out, int part)
 	bool found = false;
 	for (int attempt = 0; attempt < 50 && !found && domain_draw(r->dom, r->values); attempt++) {
 		ball_verdict v = {0};
-		if (ball_compare_zero(r->ctx, r->difference, r->lhs, r->rhs, n, atoms,
+		if (ball_compare_zero(r->ctx, r->difference, r->lhs, r->rhs, n, atoms, &r->generic,
 		                      (const mpq_t *)r->values, &v) == BALL_NONZERO) {
 			out->part = part;
 			out->difference = r->difference;
@@ -151,7 +171,8 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 	for (size_t i = 0; i < n; i++)
 		atoms[i] = domain_atom(r->dom, i);
 	const expr *bad = NULL;
-	ball_claim *claim = ball_claim_new(r->ctx, r->difference, r->lhs, r->rhs, n, atoms, &bad);
+	ball_claim *claim =
+	        ball_claim_new(r->ctx, r->difference, r->lhs, r->rhs, n, atoms, &r->generic, &bad);
 	free(atoms);
 	if (!claim) {
 		*reason = "a side cannot be evaluated in ball arithmetic";
@@ -261,7 +282,8 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		              .m = m,
 		              .lhs = in->lhs[p],
 		              .rhs = in->rhs[p],
-		              .difference = difference[p]};
+		              .difference = difference[p],
+		              .generic = {.seed = seed}};
 		expr_map seen = {0};
 		collect_atoms(r.lhs, &seen, &r.atoms);
 		collect_atoms(r.rhs, &seen, &r.atoms);
@@ -282,7 +304,8 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		} else {
 			out->method = VERIFY_NUMERIC;
 			const char *reason = NULL;
-			verify_verdict v = decide_numeric(&r, out, (int)p, in->points ? in->points : VERIFY_POINTS, &reason);
+			verify_verdict v = decide_numeric(&r, out, (int)p,
+			                                  in->points ? in->points : VERIFY_POINTS, &reason);
 			if (v == VERIFY_FAILS) {
 				out->verdict = VERIFY_FAILS;
 			} else if (v == VERIFY_UNDECIDED && undecided_part < 0) {
