@@ -33,6 +33,7 @@
 #include <stdbool.h>
 #include <stdint.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "expr-internal.h"
 #include "xalloc.h"
@@ -121,7 +122,11 @@ typedef enum op { OP_NUM, OP_ATOM, OP_ADD, OP_MUL, OP_FUN, OP_ASINH, OP_GENERIC 
  * smooth h, and its partials at a point are free of each other, so each
  * derivative count has a function of its own; a claim false for some smooth h
  * is false for almost every choice of such random coefficients, and true
- * claims hold for all of them. */
+ * claims hold for all of them.  H is bounded and the same at every point of a
+ * claim; the caller may give each function two atoms, an offset and a scale
+ * drawn with the point (ball_generic_affine): the application is then
+ * offset + scale*H, of any size and sign, so that a claim such as
+ * abs(h(1) - 100) = 100 - h(1), false for some h, fails. */
 #define GENERIC_TERMS 4
 #define GENERIC_SCALE 6
 
@@ -264,6 +269,8 @@ typedef struct instr {
 	expr_builtin fn;     /* OP_FUN */
 	size_t arg;          /* OP_FUN, OP_ASINH */
 	generic_fn *generic; /* OP_GENERIC: the function; terms: the OP_ASINH of its arguments */
+	bool affine;         /* OP_GENERIC: offset + scale*H, both atoms: */
+	size_t offset, scale;
 } instr;
 
 struct ball_prog {
@@ -364,6 +371,15 @@ static bool compile_generic(compiler *c, const expr *e, instr *in)
 		map_put(&c->asinhs, arg, in->terms[k]);
 	}
 	in->n = e->nops;
+	const ball_generic *generic = c->generic;
+	for (size_t i = 0; i < generic->naffine && !in->affine; i++) {
+		const ball_generic_affine *a = &generic->affine[i];
+		if (a->func != e->u.fapp.func || memcmp(a->counts, e->u.fapp.counts, e->nops) != 0)
+			continue;
+		if (!compile_node(c, a->offset, &in->offset) || !compile_node(c, a->scale, &in->scale))
+			return false;
+		in->affine = true;
+	}
 	in->generic = xcalloc(1, sizeof *in->generic);
 	generic_init(in->generic, e->u.fapp.func->u.sym.name, e->nops, e->u.fapp.counts, c->generic->seed);
 	if (e->nops > c->prog->nviews) {
@@ -700,8 +716,15 @@ static ball_status run_instr(ball_prog *prog, const instr *in, arb_srcptr values
 			status = worse(status, prog->status[in->terms[k]]);
 			prog->views[k] = prog->regs + in->terms[k];
 		}
-		if (status == BALL_OK)
-			generic_apply(in->generic, out, prog->views, prec);
+		if (in->affine)
+			status = worse(status, worse(prog->status[in->offset], prog->status[in->scale]));
+		if (status != BALL_OK)
+			return status;
+		generic_apply(in->generic, out, prog->views, prec);
+		if (in->affine) {
+			arb_mul(out, out, prog->regs + in->scale, prec);
+			arb_add(out, out, prog->regs + in->offset, prec);
+		}
 		return status;
 	}
 	}

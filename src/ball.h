@@ -54,8 +54,15 @@ void ball_free(ball_prog *prog);
  * derivative counts c that is not among the atoms is H(a1, ..., an) for one
  * fixed, analytic, bounded function H per (name of h, n, c, seed) (ball.c), so
  * applications at equal arguments have equal values whatever their form. */
+typedef struct ball_generic_affine {
+	const expr *func;            /* a generic function symbol */
+	const unsigned char *counts; /* and derivative counts (one per argument) */
+	const expr *offset, *scale;  /* atoms: its applications are offset + scale*H */
+} ball_generic_affine;
 typedef struct ball_generic {
 	uint64_t seed;
+	size_t naffine; /* optional: functions whose value and size vary with the point */
+	const ball_generic_affine *affine;
 } ball_generic;
 /* ball_compile with generic applications evaluated (generic NULL: as ball_compile). */
 ball_prog *ball_compile_generic(expr_ctx *ctx, size_t nroots, const expr *const *roots, size_t natoms,

@@ -45,6 +45,49 @@ static void collect_atoms(const expr *e, expr_map *seen, expr_vec *out)
 	}
 }
 
+/* The generic functions of e, one application for each distinct function
+ * symbol and derivative counts. */
+static void collect_functions(const expr *e, expr_map *seen, expr_vec *out)
+{
+	if (expr_map_get(seen, e))
+		return;
+	expr_map_put(seen, e, e);
+	if (expr_kind_of(e) == EXPR_FAPP) {
+		bool known = false;
+		for (size_t i = 0; i < out->n && !known; i++)
+			known = expr_fapp_func(out->items[i]) == expr_fapp_func(e) &&
+			        memcmp(expr_fapp_counts(out->items[i]), expr_fapp_counts(e), expr_nops(e)) ==
+			                0;
+		if (!known)
+			expr_vec_push(out, e);
+	}
+	if (expr_kind_of(e) == EXPR_MUL) {
+		for (size_t i = 0; i < expr_nops(e); i++) {
+			collect_functions(expr_mul_base(e, i), seen, out);
+			collect_functions(expr_mul_exponent(e, i), seen, out);
+		}
+		return;
+	}
+	if (expr_kind_of(e) != EXPR_NUM && expr_kind_of(e) != EXPR_SYM)
+		for (size_t i = 0; i < expr_nops(e); i++)
+			collect_functions(expr_op(e, i), seen, out);
+}
+
+/* A symbol no statement can name (its name is not an identifier): the offset
+ * or the scale of a generic function at each point. */
+static const expr *private_symbol(expr_ctx *ctx, const expr *fapp, const char *what)
+{
+	xbuf name = {0};
+	xbuf_printf(&name, "%s(", expr_sym_name(expr_fapp_func(fapp)));
+	for (size_t i = 0; i < expr_nops(fapp); i++)
+		xbuf_printf(&name, "%s%u", i ? "," : "", (unsigned)expr_fapp_counts(fapp)[i]);
+	xbuf_printf(&name, ") %s", what);
+	char *text = xbuf_take(&name);
+	const expr *sym = expr_sym(ctx, text);
+	free(text);
+	return sym;
+}
+
 /* Does a generic application have only symbols and numbers as arguments?  Two
  * such applications of one function with the same counts are the same node
  * exactly when their arguments are the same, and their values are free of
@@ -98,7 +141,8 @@ typedef struct part_run {
 	expr_ctx *ctx;
 	model *m;
 	const expr *lhs, *rhs, *difference;
-	ball_generic generic; /* generic applications as fixed functions */
+	ball_generic generic;        /* generic applications as fixed functions */
+	ball_generic_affine *affine; /* their offsets and scales, generic.naffine */
 	expr_vec atoms;
 	domain *dom;
 	mpq_t *values;
@@ -108,17 +152,58 @@ typedef struct part_run {
 static void record_point(verify_result *out, part_run *r, ball_verdict *v)
 {
 	size_t n = domain_size(r->dom);
-	out->natoms = n;
+	out->natoms = 0;
+	out->functions = r->generic.naffine > 0;
 	out->atoms = xcalloc(n + 1, sizeof *out->atoms);
 	out->values = xcalloc(n + 1, sizeof *out->values);
 	for (size_t i = 0; i < n; i++) {
-		out->atoms[i] = domain_atom(r->dom, i);
-		out->values[i] = mpq_get_d(r->values[i]);
+		const expr *atom = domain_atom(r->dom, i);
+		bool hidden = false; /* the offsets and scales are not the model's */
+		for (size_t k = 0; k < r->generic.naffine && !hidden; k++)
+			hidden = atom == r->affine[k].offset || atom == r->affine[k].scale;
+		if (hidden)
+			continue;
+		out->atoms[out->natoms] = atom;
+		out->values[out->natoms++] = mpq_get_d(r->values[i]);
 	}
 	if (v) {
 		out->left = v->lhs_text ? xstrdup(v->lhs_text) : NULL;
 		out->right = v->rhs_text ? xstrdup(v->rhs_text) : NULL;
 	}
+}
+
+/* Each generic function of the part (each function symbol and derivative
+ * counts) is offset + scale*H at a point, with H its fixed function
+ * (ball_generic) and offset and scale drawn with the point like any other
+ * atom: a claim is about every smooth function, of any size and value, and
+ * h(1) is then as free as it should be (abs(h(1)) = h(1) fails), while
+ * applications at equal arguments still agree at every point. */
+static void add_function_atoms(part_run *r)
+{
+	expr_vec functions = {0};
+	expr_map seen = {0};
+	collect_functions(r->lhs, &seen, &functions);
+	collect_functions(r->rhs, &seen, &functions);
+	expr_map_free(&seen);
+	r->affine = xcalloc(functions.n + 1, sizeof *r->affine);
+	size_t n = 0;
+	for (size_t i = 0; i < functions.n; i++) {
+		const expr *offset = private_symbol(r->ctx, functions.items[i], "offset");
+		const expr *scale = private_symbol(r->ctx, functions.items[i], "scale");
+		if (!offset || !scale) {
+			expr_clear_error(r->ctx); /* no room: H alone, still a smooth function */
+			continue;
+		}
+		r->affine[n++] = (ball_generic_affine){.func = expr_fapp_func(functions.items[i]),
+		                                       .counts = expr_fapp_counts(functions.items[i]),
+		                                       .offset = offset,
+		                                       .scale = scale};
+		expr_vec_push(&r->atoms, offset);
+		expr_vec_push(&r->atoms, scale);
+	}
+	r->generic.naffine = n;
+	r->generic.affine = r->affine;
+	expr_vec_free(&functions);
 }
 
 /* Is the side e defined at the point (at 64 bits: only certainly undefined counts)? */
@@ -288,6 +373,7 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		collect_atoms(r.lhs, &seen, &r.atoms);
 		collect_atoms(r.rhs, &seen, &r.atoms);
 		expr_map_free(&seen);
+		add_function_atoms(&r);
 		r.dom = domain_new(ctx, m, r.atoms.n, r.atoms.items, seed * 1000003u + p);
 		r.nvalues = domain_size(r.dom);
 		r.values = xcalloc(r.nvalues + 1, sizeof *r.values);
@@ -318,6 +404,7 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		free(r.values);
 		domain_free(r.dom);
 		expr_vec_free(&r.atoms);
+		free(r.affine);
 	}
 	if (out->verdict != VERIFY_FAILS && undecided_part >= 0) {
 		out->verdict = VERIFY_UNDECIDED;

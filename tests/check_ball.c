@@ -453,6 +453,38 @@ START_TEST(test_generic_functions)
 	                                   &generic, 64, a),
 	                 BALL_OK);
 	ck_assert(arb_equal_si(a, 5));
+	/* with an offset and a scale (atoms o, s): h(x) = o + s*H(x) at o = 100, s = -2,
+	 * and h_u, which has none, is H_u alone */
+	const expr *o = expr_sym(ctx, "o"), *s = expr_sym(ctx, "s");
+	const ball_generic_affine affine = {
+	        .func = expr_sym(ctx, "h"), .counts = zero, .offset = o, .scale = s};
+	const ball_generic scaled = {.seed = 7, .naffine = 1, .affine = &affine};
+	const expr *three[] = {x, o, s};
+	mpq_t point[3];
+	for (int i = 0; i < 3; i++)
+		mpq_init(point[i]);
+	mpq_set_si(point[0], 3, 7);
+	mpq_set_si(point[1], 100, 1);
+	mpq_set_si(point[2], -2, 1);
+	ck_assert_int_eq(
+	        ball_eval_generic(ctx, generic_h(NULL, x), 3, three, (const mpq_t *)point, &scaled, 128, a),
+	        BALL_OK);
+	generic_at(b, "h", zero, 7, 3, 7, 128);
+	arb_mul_si(b, b, -2, 128);
+	arb_add_si(b, b, 100, 128);
+	ck_assert(arb_overlaps(a, b));
+	ck_assert(mag_cmp_2exp_si(arb_radref(a), -100) < 0);
+	ck_assert_int_eq(
+	        ball_eval_generic(ctx, generic_h(one, x), 3, three, (const mpq_t *)point, &scaled, 128, a),
+	        BALL_OK);
+	generic_at(b, "h", one, 7, 3, 7, 128);
+	ck_assert(arb_overlaps(a, b));
+	/* without values for the offset and the scale, a scaled function is refused */
+	ck_assert_int_eq(
+	        ball_eval_generic(ctx, generic_h(NULL, x), 1, three, (const mpq_t *)point, &scaled, 64, a),
+	        BALL_FAILED);
+	for (int i = 0; i < 3; i++)
+		mpq_clear(point[i]);
 	mpq_clear(values[0]);
 	mpq_clear(values[1]);
 	arb_clear(a);
