@@ -35,6 +35,7 @@
 #include <stdbool.h>
 #include <stdint.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "expr-internal.h"
 #include "xalloc.h"
@@ -102,7 +103,155 @@ static void map_free(index_map *map)
 
 /* ------------------------------------------------------------------ programs */
 
-typedef enum op { OP_NUM, OP_ATOM, OP_ADD, OP_MUL, OP_FUN } op;
+typedef enum op { OP_NUM, OP_ATOM, OP_ADD, OP_MUL, OP_FUN, OP_ASINH, OP_GENERIC } op;
+
+/* ------------------------------------------------------------------ generic functions
+ *
+ * A generic function application h(a1, ..., an) with derivative counts c that
+ * is not an atom stands for the value at (a1, ..., an) of one fixed smooth
+ * function H, chosen by a hash of the function's name, n, c and the seed:
+ *
+ *   H(u) = c0 + exp(m cos(f + sum_k e_k s_k)) * sum_j A_j sin(b_j + sum_k a_jk s_k),
+ *   s_k = asinh(u_k),  j = 1..GENERIC_TERMS,
+ *
+ * with every coefficient an integer / 2^GENERIC_SCALE: frequencies |a_jk| in
+ * [1/2, 2], |e_k| and |A_j| in [1/4, 1], m in [1/4, 1/2], phases in [0, 4],
+ * |c0| <= 1.  H is analytic and defined for every real u, and |H| <= 1 + 4 e^(1/2);
+ * asinh keeps it of moderate variation over many scales of u.  Being a
+ * function of the values of the arguments, H gives equal values at equal
+ * arguments (h(sin(x)^2 + cos(x)^2) = h(1)), whatever their written form, and
+ * at every precision, since every operation is Arb's.  A claim is about every
+ * smooth h, and its partials at a point are free of each other, so each
+ * derivative count has a function of its own; a claim false for some smooth h
+ * is false for almost every choice of such random coefficients, and true
+ * claims hold for all of them.  H is bounded and the same at every point of a
+ * claim; the caller may give each function two atoms, an offset and a scale
+ * drawn with the point (ball_generic_affine): the application is then
+ * offset + scale*H, of any size and sign, so that a claim such as
+ * abs(h(1) - 100) = 100 - h(1), false for some h, fails. */
+#define GENERIC_TERMS 4
+#define GENERIC_SCALE 6
+
+typedef struct generic_fn {
+	size_t nargs;
+	slong offset, depth, mod_phase; /* c0, m, f */
+	slong amp[GENERIC_TERMS];       /* A_j */
+	slong phase[GENERIC_TERMS];     /* b_j */
+	slong *mod_freq;                /* e_k: nargs */
+	slong *freq;                    /* a_jk: GENERIC_TERMS rows of nargs */
+} generic_fn;
+
+/* splitmix64 (Steele, Lea, Flood, "Fast splittable pseudorandom number
+ * generators", OOPSLA 2014, from memory): the coefficients' stream. */
+static uint64_t splitmix_next(uint64_t *state)
+{
+	uint64_t z = (*state += 0x9e3779b97f4a7c15ULL);
+	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
+	z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
+	return z ^ (z >> 31);
+}
+
+/* A uniform integer in [lo, hi] (the bias of the modulus is below 2^-56). */
+static slong draw_in(uint64_t *state, slong lo, slong hi)
+{
+	return lo + (slong)(splitmix_next(state) % (uint64_t)(hi - lo + 1));
+}
+
+/* A uniform integer in [lo, hi] with a random sign (0 < lo <= hi). */
+static slong draw_signed(uint64_t *state, slong lo, slong hi)
+{
+	slong v = draw_in(state, lo, hi);
+	return splitmix_next(state) & 1 ? -v : v;
+}
+
+static void generic_init(generic_fn *g, const char *name, size_t nargs, const unsigned char *counts,
+                         uint64_t seed)
+{
+	/* FNV-1a over the name, the counts and the number of arguments, then mixed with the seed */
+	uint64_t h = 0xcbf29ce484222325ULL;
+	for (const char *p = name; *p; p++)
+		h = (h ^ (unsigned char)*p) * 0x100000001b3ULL;
+	h = (h ^ 0xff) * 0x100000001b3ULL; /* the end of the name */
+	for (size_t k = 0; k < nargs; k++)
+		h = (h ^ (counts ? counts[k] : 0)) * 0x100000001b3ULL;
+	h = (h ^ nargs) * 0x100000001b3ULL;
+	uint64_t state = h ^ splitmix_next(&(uint64_t){seed});
+	const slong one = (slong)1 << GENERIC_SCALE;
+	g->nargs = nargs;
+	g->mod_freq = xcalloc(nargs ? nargs : 1, sizeof *g->mod_freq);
+	g->freq = xcalloc(GENERIC_TERMS * (nargs ? nargs : 1), sizeof *g->freq);
+	g->offset = draw_in(&state, -one, one);
+	g->depth = draw_in(&state, one / 4, one / 2);
+	g->mod_phase = draw_in(&state, 0, 4 * one);
+	for (size_t k = 0; k < nargs; k++)
+		g->mod_freq[k] = draw_signed(&state, one / 4, one);
+	for (size_t j = 0; j < GENERIC_TERMS; j++) {
+		g->amp[j] = draw_signed(&state, one / 4, one);
+		g->phase[j] = draw_in(&state, 0, 4 * one);
+		for (size_t k = 0; k < nargs; k++)
+			g->freq[j * nargs + k] = draw_signed(&state, one / 2, 2 * one);
+	}
+}
+
+static void generic_clear(generic_fn *g)
+{
+	free(g->mod_freq);
+	free(g->freq);
+}
+
+/* out := (phase + sum_k freq[k] s[k]) / 2^GENERIC_SCALE; s[k] are the asinh of the arguments. */
+static void generic_affine(arb_t out, slong phase, const slong *freq, size_t nargs,
+                           const arb_struct *const *s, slong prec)
+{
+	arb_set_si(out, phase);
+	for (size_t k = 0; k < nargs; k++)
+		arb_addmul_si(out, s[k], freq[k], prec);
+	arb_mul_2exp_si(out, out, -GENERIC_SCALE);
+}
+
+/* out := H(u) given s[k] = asinh(u_k); out distinct from the s[k]. */
+static void generic_apply(const generic_fn *g, arb_t out, const arb_struct *const *s, slong prec)
+{
+	arb_t angle, wave, sum;
+	arb_init(angle);
+	arb_init(wave);
+	arb_init(sum);
+	for (size_t j = 0; j < GENERIC_TERMS; j++) {
+		generic_affine(angle, g->phase[j], g->freq + j * g->nargs, g->nargs, s, prec);
+		arb_sin(wave, angle, prec);
+		arb_addmul_si(sum, wave, g->amp[j], prec);
+	}
+	arb_mul_2exp_si(sum, sum, -GENERIC_SCALE);
+	generic_affine(angle, g->mod_phase, g->mod_freq, g->nargs, s, prec);
+	arb_cos(wave, angle, prec);
+	arb_mul_si(wave, wave, g->depth, prec);
+	arb_mul_2exp_si(wave, wave, -GENERIC_SCALE);
+	arb_exp(wave, wave, prec);
+	arb_mul(out, sum, wave, prec);
+	arb_set_si(angle, g->offset);
+	arb_mul_2exp_si(angle, angle, -GENERIC_SCALE);
+	arb_add(out, out, angle, prec);
+	arb_clear(angle);
+	arb_clear(wave);
+	arb_clear(sum);
+}
+
+void ball_generic_value(arb_t out, const char *name, size_t nargs, const unsigned char *counts, uint64_t seed,
+                        arb_srcptr args, slong prec)
+{
+	generic_fn g;
+	generic_init(&g, name, nargs, counts, seed);
+	arb_ptr s = _arb_vec_init((slong)(nargs ? nargs : 1));
+	const arb_struct **views = xcalloc(nargs ? nargs : 1, sizeof *views);
+	for (size_t k = 0; k < nargs; k++) {
+		arb_asinh(s + k, args + k, prec);
+		views[k] = s + k;
+	}
+	generic_apply(&g, out, views, prec);
+	free(views);
+	_arb_vec_clear(s, (slong)(nargs ? nargs : 1));
+	generic_clear(&g);
+}
 
 /* One factor base^exponent of a product. */
 typedef struct factor {
@@ -114,13 +263,16 @@ typedef struct factor {
 
 typedef struct instr {
 	op code;
-	fmpq_t number;   /* OP_NUM: the value; OP_MUL: the coefficient */
-	size_t atom;     /* OP_ATOM: index into the values */
-	size_t *terms;   /* OP_ADD */
-	factor *factors; /* OP_MUL */
-	size_t n;        /* terms or factors */
-	expr_builtin fn; /* OP_FUN */
-	size_t arg;      /* OP_FUN */
+	fmpq_t number;       /* OP_NUM: the value; OP_MUL: the coefficient */
+	size_t atom;         /* OP_ATOM: index into the values */
+	size_t *terms;       /* OP_ADD */
+	factor *factors;     /* OP_MUL */
+	size_t n;            /* terms or factors */
+	expr_builtin fn;     /* OP_FUN */
+	size_t arg;          /* OP_FUN, OP_ASINH */
+	generic_fn *generic; /* OP_GENERIC: the function; terms: the OP_ASINH of its arguments */
+	bool affine;         /* OP_GENERIC: offset + scale*H, both atoms: */
+	size_t offset, scale;
 } instr;
 
 struct ball_prog {
@@ -129,15 +281,19 @@ struct ball_prog {
 	size_t ncode, capcode;
 	size_t *roots;
 	size_t nroots;
-	arb_ptr regs;         /* one value per instruction */
-	ball_status *status;  /* and its status */
-	arb_t power, scratch; /* temporaries of one instruction */
+	arb_ptr regs;             /* one value per instruction */
+	ball_status *status;      /* and its status */
+	arb_t power, scratch;     /* temporaries of one instruction */
+	const arb_struct **views; /* OP_GENERIC: its arguments' asinh */
+	size_t nviews;
 };
 
 typedef struct compiler {
 	ball_prog *prog;
-	index_map atoms; /* atom node -> index of its value */
-	index_map nodes; /* node -> instruction */
+	index_map atoms;             /* atom node -> index of its value */
+	index_map nodes;             /* node -> instruction */
+	index_map asinhs;            /* argument node -> the instruction of its asinh */
+	const ball_generic *generic; /* NULL: generic applications must be atoms */
 	const expr *bad;
 } compiler;
 
@@ -200,6 +356,41 @@ static bool compile_operands(compiler *c, const expr *e, instr *in)
 	}
 }
 
+/* A generic application that is not an atom: asinh of each argument (shared by
+ * the applications at the same argument), then H. */
+static bool compile_generic(compiler *c, const expr *e, instr *in)
+{
+	in->code = OP_GENERIC;
+	in->terms = xcalloc(e->nops ? e->nops : 1, sizeof *in->terms);
+	for (size_t k = 0; k < e->nops; k++) {
+		const expr *arg = e->u.fapp.args[k];
+		if (map_get(&c->asinhs, arg, &in->terms[k]))
+			continue;
+		instr asinh = {.code = OP_ASINH};
+		if (!compile_node(c, arg, &asinh.arg))
+			return false;
+		in->terms[k] = emit(c->prog, asinh);
+		map_put(&c->asinhs, arg, in->terms[k]);
+	}
+	in->n = e->nops;
+	const ball_generic *generic = c->generic;
+	for (size_t i = 0; i < generic->naffine && !in->affine; i++) {
+		const ball_generic_affine *a = &generic->affine[i];
+		if (a->func != e->u.fapp.func || memcmp(a->counts, e->u.fapp.counts, e->nops) != 0)
+			continue;
+		if (!compile_node(c, a->offset, &in->offset) || !compile_node(c, a->scale, &in->scale))
+			return false;
+		in->affine = true;
+	}
+	in->generic = xcalloc(1, sizeof *in->generic);
+	generic_init(in->generic, e->u.fapp.func->u.sym.name, e->nops, e->u.fapp.counts, c->generic->seed);
+	if (e->nops > c->prog->nviews) {
+		c->prog->nviews = e->nops;
+		c->prog->views = xreallocarray(c->prog->views, e->nops, sizeof *c->prog->views);
+	}
+	return true;
+}
+
 static void instr_clear(instr *in)
 {
 	if (in->code == OP_NUM || in->code == OP_MUL)
@@ -210,6 +401,9 @@ static void instr_clear(instr *in)
 	}
 	free(in->factors);
 	free(in->terms);
+	if (in->generic)
+		generic_clear(in->generic);
+	free(in->generic);
 }
 
 static bool compile_node(compiler *c, const expr *e, size_t *index)
@@ -219,6 +413,11 @@ static bool compile_node(compiler *c, const expr *e, size_t *index)
 	instr in = {0};
 	if (map_get(&c->atoms, e, &in.atom)) {
 		in.code = OP_ATOM;
+	} else if (e->kind == EXPR_FAPP && c->generic) {
+		if (!compile_generic(c, e, &in)) {
+			instr_clear(&in);
+			return false;
+		}
 	} else if (e->kind == EXPR_SYM || e->kind == EXPR_FAPP) {
 		c->bad = e;
 		return false;
@@ -240,11 +439,17 @@ static bool compile_node(compiler *c, const expr *e, size_t *index)
 ball_prog *ball_compile(expr_ctx *ctx, size_t nroots, const expr *const *roots, size_t natoms,
                         const expr *const *atoms, const expr **bad)
 {
+	return ball_compile_generic(ctx, nroots, roots, natoms, atoms, NULL, bad);
+}
+
+ball_prog *ball_compile_generic(expr_ctx *ctx, size_t nroots, const expr *const *roots, size_t natoms,
+                                const expr *const *atoms, const ball_generic *generic, const expr **bad)
+{
 	ball_prog *prog = xcalloc(1, sizeof *prog);
 	prog->ctx = ctx;
 	prog->nroots = nroots;
 	prog->roots = xcalloc(nroots ? nroots : 1, sizeof *prog->roots);
-	compiler c = {.prog = prog};
+	compiler c = {.prog = prog, .generic = generic};
 	for (size_t i = natoms; i-- > 0;)
 		map_put(&c.atoms, atoms[i], i); /* the first of equal atoms wins */
 	bool ok = true;
@@ -252,6 +457,7 @@ ball_prog *ball_compile(expr_ctx *ctx, size_t nroots, const expr *const *roots, 
 		ok = roots[r] && compile_node(&c, roots[r], &prog->roots[r]);
 	map_free(&c.atoms);
 	map_free(&c.nodes);
+	map_free(&c.asinhs);
 	arb_init(prog->power);
 	arb_init(prog->scratch);
 	if (!ok) {
@@ -278,6 +484,7 @@ void ball_free(ball_prog *prog)
 	free(prog->status);
 	free(prog->code);
 	free(prog->roots);
+	free(prog->views);
 	free(prog);
 }
 
@@ -500,6 +707,28 @@ static ball_status run_instr(ball_prog *prog, const instr *in, arb_srcptr values
 		if (prog->status[in->arg] != BALL_OK)
 			return prog->status[in->arg];
 		return apply_builtin(in->fn, out, prog->regs + in->arg, prog->scratch, prec);
+	case OP_ASINH:
+		if (prog->status[in->arg] != BALL_OK)
+			return prog->status[in->arg];
+		arb_asinh(out, prog->regs + in->arg, prec);
+		return BALL_OK;
+	case OP_GENERIC: {
+		ball_status status = BALL_OK;
+		for (size_t k = 0; k < in->n; k++) {
+			status = worse(status, prog->status[in->terms[k]]);
+			prog->views[k] = prog->regs + in->terms[k];
+		}
+		if (in->affine)
+			status = worse(status, worse(prog->status[in->offset], prog->status[in->scale]));
+		if (status != BALL_OK)
+			return status;
+		generic_apply(in->generic, out, prog->views, prec);
+		if (in->affine) {
+			arb_mul(out, out, prog->regs + in->scale, prec);
+			arb_add(out, out, prog->regs + in->offset, prec);
+		}
+		return status;
+	}
 	}
 	return BALL_UNKNOWN;
 }
@@ -534,7 +763,13 @@ void ball_set_mpq(arb_t x, const mpq_t q, slong prec)
 ball_status ball_eval(expr_ctx *ctx, const expr *e, size_t natoms, const expr *const *atoms,
                       const mpq_t *values, slong prec, arb_t out)
 {
-	ball_prog *prog = ball_compile(ctx, 1, &e, natoms, atoms, NULL);
+	return ball_eval_generic(ctx, e, natoms, atoms, values, NULL, prec, out);
+}
+
+ball_status ball_eval_generic(expr_ctx *ctx, const expr *e, size_t natoms, const expr *const *atoms,
+                              const mpq_t *values, const ball_generic *generic, slong prec, arb_t out)
+{
+	ball_prog *prog = ball_compile_generic(ctx, 1, &e, natoms, atoms, generic, NULL);
 	if (!prog)
 		return BALL_FAILED;
 	arb_ptr balls = _arb_vec_init((slong)(natoms ? natoms : 1));
@@ -591,7 +826,8 @@ static void push_terms(expr_vec *roots, const expr *e)
 }
 
 ball_claim *ball_claim_new(expr_ctx *ctx, const expr *difference, const expr *lhs, const expr *rhs,
-                           size_t natoms, const expr *const *atoms, const expr **bad)
+                           size_t natoms, const expr *const *atoms, const ball_generic *generic,
+                           const expr **bad)
 {
 	expr_vec roots = {0};
 	expr_vec_push(&roots, lhs);
@@ -600,7 +836,7 @@ ball_claim *ball_claim_new(expr_ctx *ctx, const expr *difference, const expr *lh
 	push_terms(&roots, lhs);
 	push_terms(&roots, rhs);
 	push_terms(&roots, difference);
-	ball_prog *prog = ball_compile(ctx, roots.n, roots.items, natoms, atoms, bad);
+	ball_prog *prog = ball_compile_generic(ctx, roots.n, roots.items, natoms, atoms, generic, bad);
 	if (!prog) {
 		expr_vec_free(&roots);
 		return NULL;
@@ -744,8 +980,7 @@ ball_decision ball_claim_decide(ball_claim *claim, const mpq_t *values, ball_ver
 	return ball_claim_decide_from(claim, values, 64, out);
 }
 
-ball_decision ball_claim_decide_from(ball_claim *claim, const mpq_t *values, slong least,
-                                     ball_verdict *out)
+ball_decision ball_claim_decide_from(ball_claim *claim, const mpq_t *values, slong least, ball_verdict *out)
 {
 	static const slong precisions[] = {64, 256, 1024, 4096, 16384, BALL_MAX_PRECISION};
 	*out = (ball_verdict){.decision = BALL_UNDECIDED, .reason = BALL_REASON_NONE};
@@ -773,10 +1008,10 @@ ball_decision ball_claim_decide_from(ball_claim *claim, const mpq_t *values, slo
 }
 
 ball_decision ball_compare_zero(expr_ctx *ctx, const expr *difference, const expr *lhs, const expr *rhs,
-                                size_t natoms, const expr *const *atoms, const mpq_t *values,
-                                ball_verdict *out)
+                                size_t natoms, const expr *const *atoms, const ball_generic *generic,
+                                const mpq_t *values, ball_verdict *out)
 {
-	ball_claim *claim = ball_claim_new(ctx, difference, lhs, rhs, natoms, atoms, NULL);
+	ball_claim *claim = ball_claim_new(ctx, difference, lhs, rhs, natoms, atoms, generic, NULL);
 	if (!claim) {
 		*out = (ball_verdict){.decision = BALL_UNDECIDED, .reason = BALL_REASON_UNBOUND};
 		return BALL_UNDECIDED;

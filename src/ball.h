@@ -2,7 +2,9 @@
  *
  * A value is a ball [m +/- r] that certainly contains the exact value of the
  * expression at the point.  Symbols and generic partials (EXPR_SYM, EXPR_FAPP)
- * are atoms: independent variables whose values the caller gives.
+ * are atoms: independent variables whose values the caller gives; or, for a
+ * program compiled with a ball_generic, a generic application that is not
+ * an atom is the value at its arguments of a fixed smooth function (below).
  *
  * Domains (the one convention of itox, stated in expr.h; the simplifier and the
  * double evaluator of eval.h apply it too):
@@ -26,6 +28,7 @@
 #include <arb.h>
 #include <gmp.h>
 #include <stddef.h>
+#include <stdint.h>
 
 #include "expr.h"
 
@@ -46,6 +49,28 @@ typedef struct ball_prog ball_prog;
 ball_prog *ball_compile(expr_ctx *ctx, size_t nroots, const expr *const *roots, size_t natoms,
                         const expr *const *atoms, const expr **bad);
 void ball_free(ball_prog *prog);
+
+/* Generic functions evaluated: each generic application h(a1, ..., an) with
+ * derivative counts c that is not among the atoms is H(a1, ..., an) for one
+ * fixed, analytic, bounded function H per (name of h, n, c, seed) (ball.c), so
+ * applications at equal arguments have equal values whatever their form. */
+typedef struct ball_generic_affine {
+	const expr *func;            /* a generic function symbol */
+	const unsigned char *counts; /* and derivative counts (one per argument) */
+	const expr *offset, *scale;  /* atoms: its applications are offset + scale*H */
+} ball_generic_affine;
+typedef struct ball_generic {
+	uint64_t seed;
+	size_t naffine; /* optional: functions whose value and size vary with the point */
+	const ball_generic_affine *affine;
+} ball_generic;
+/* ball_compile with generic applications evaluated (generic NULL: as ball_compile). */
+ball_prog *ball_compile_generic(expr_ctx *ctx, size_t nroots, const expr *const *roots, size_t natoms,
+                                const expr *const *atoms, const ball_generic *generic, const expr **bad);
+/* out := H(args) for the function of name with nargs arguments and derivative counts
+ * (NULL: none) under seed, at prec bits. */
+void ball_generic_value(arb_t out, const char *name, size_t nargs, const unsigned char *counts, uint64_t seed,
+                        arb_srcptr args, slong prec);
 /* Evaluate every root at prec bits with atom i = values[i] (balls); out[r] and
  * status[r] per root.  BALL_FAILED (statuses unset) when interrupted. */
 ball_status ball_run(ball_prog *prog, arb_srcptr values, slong prec, arb_ptr out, ball_status *status);
@@ -56,6 +81,9 @@ void ball_set_mpq(arb_t x, const mpq_t q, slong prec);
 /* e at the exact rational point atom i = values[i], at prec bits (compiles each time). */
 ball_status ball_eval(expr_ctx *ctx, const expr *e, size_t natoms, const expr *const *atoms,
                       const mpq_t *values, slong prec, arb_t out);
+/* ball_eval with generic applications evaluated (see ball_generic). */
+ball_status ball_eval_generic(expr_ctx *ctx, const expr *e, size_t natoms, const expr *const *atoms,
+                              const mpq_t *values, const ball_generic *generic, slong prec, arb_t out);
 
 /* --- is lhs - rhs zero at a point? --- */
 
@@ -99,23 +127,24 @@ typedef struct ball_verdict {
 void ball_verdict_clear(ball_verdict *verdict); /* frees the texts */
 
 /* A claim lhs = rhs compiled once for many points; difference is its canonical
- * lhs - rhs (a second enclosure of the same number) or NULL.  NULL (and *bad) when
- * a side is NULL or an atom of it has no value. */
+ * lhs - rhs (a second enclosure of the same number) or NULL; generic: as in
+ * ball_compile_generic.  NULL (and *bad) when a side is NULL or an atom of it
+ * has no value. */
 typedef struct ball_claim ball_claim;
 ball_claim *ball_claim_new(expr_ctx *ctx, const expr *difference, const expr *lhs, const expr *rhs,
-                           size_t natoms, const expr *const *atoms, const expr **bad);
+                           size_t natoms, const expr *const *atoms, const ball_generic *generic,
+                           const expr **bad);
 void ball_claim_free(ball_claim *claim);
 /* Decide at the point atom i = values[i], raising the precision until decided. */
 ball_decision ball_claim_decide(ball_claim *claim, const mpq_t *values, ball_verdict *out);
 
 /* ball_claim_decide starting at the first precision of at least least bits: a
  * difference smaller than 64-bit rounding (1/10^40) is seen at 1024 bits. */
-ball_decision ball_claim_decide_from(ball_claim *claim, const mpq_t *values, slong least,
-                                     ball_verdict *out);
+ball_decision ball_claim_decide_from(ball_claim *claim, const mpq_t *values, slong least, ball_verdict *out);
 
 /* ball_claim_new + ball_claim_decide + ball_claim_free for one point. */
 ball_decision ball_compare_zero(expr_ctx *ctx, const expr *difference, const expr *lhs, const expr *rhs,
-                                size_t natoms, const expr *const *atoms, const mpq_t *values,
-                                ball_verdict *out);
+                                size_t natoms, const expr *const *atoms, const ball_generic *generic,
+                                const mpq_t *values, ball_verdict *out);
 
 #endif

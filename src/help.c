@@ -93,7 +93,9 @@
 		   "  Verify an identity of expressions or differentials: exact comparison of\n"      \
 		   "  canonical forms, then certified ball arithmetic at points of the declared\n"    \
 		   "  domain.  Verdicts: holds, fails (with a counterexample) or undecided (with\n"   \
-		   "  the reason).  A failed or undecided claim makes the exit status 1.\n"          \
+		   "  the reason).  A failed or undecided claim makes the exit status 1.  In the\n"  \
+		   "  numeric test, an unknown function (func) and each of its partials is a\n"      \
+		   "  random smooth function of its arguments' values, fixed for the seed.\n"        \
 		   "  example:  claim d log(S) = (mu - sigma^2/2)*dt + sigma*dW\n")                   \
 	X("check", "check [d] EXPR [= DIFFERENTIAL] at NAME=VALUE, ... [over T=1, steps=..., paths=...]\n" \
 		   "      [where FUNC(ARGS) = EXPR, ...] [verbose]\n"                                   \

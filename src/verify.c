@@ -19,8 +19,10 @@
 #include "expr-internal.h"
 #include "xalloc.h"
 
-/* The atoms of e: symbols and generic partial applications (not their
- * arguments: a partial at its arguments is one unknown value). */
+/* The atoms of e: its symbols, also those in the arguments of generic
+ * applications, which are evaluated as functions of their arguments
+ * (ball_generic), so that a counterexample is a point of the model's
+ * variables and applications at equal arguments agree. */
 static void collect_atoms(const expr *e, expr_map *seen, expr_vec *out)
 {
 	if (expr_map_get(seen, e))
@@ -30,7 +32,6 @@ static void collect_atoms(const expr *e, expr_map *seen, expr_vec *out)
 	case EXPR_NUM:
 		return;
 	case EXPR_SYM:
-	case EXPR_FAPP:
 		expr_vec_push(out, e);
 		return;
 	case EXPR_MUL:
@@ -177,10 +178,69 @@ static slong least_precision(const mark_walk *w)
 	return least < BALL_MAX_PRECISION ? least : BALL_MAX_PRECISION;
 }
 
-/* Is e a rational function of its atoms: symbols and generic partials, with
- * integer powers only (no function application, which identities such as
- * sin^2 + cos^2 = 1 could tie, and no root, which relations tie)?  In the
- * rational normal form such an e is zero only if it is 0. */
+/* The generic functions of e, one application for each distinct function
+ * symbol and derivative counts. */
+static void collect_functions(const expr *e, expr_map *seen, expr_vec *out)
+{
+	if (expr_map_get(seen, e))
+		return;
+	expr_map_put(seen, e, e);
+	if (expr_kind_of(e) == EXPR_FAPP) {
+		bool known = false;
+		for (size_t i = 0; i < out->n && !known; i++)
+			known = expr_fapp_func(out->items[i]) == expr_fapp_func(e) &&
+			        memcmp(expr_fapp_counts(out->items[i]), expr_fapp_counts(e), expr_nops(e)) ==
+			                0;
+		if (!known)
+			expr_vec_push(out, e);
+	}
+	if (expr_kind_of(e) == EXPR_MUL) {
+		for (size_t i = 0; i < expr_nops(e); i++) {
+			collect_functions(expr_mul_base(e, i), seen, out);
+			collect_functions(expr_mul_exponent(e, i), seen, out);
+		}
+		return;
+	}
+	if (expr_kind_of(e) != EXPR_NUM && expr_kind_of(e) != EXPR_SYM)
+		for (size_t i = 0; i < expr_nops(e); i++)
+			collect_functions(expr_op(e, i), seen, out);
+}
+
+/* A symbol no statement can name (its name is not an identifier): the offset
+ * or the scale of a generic function at each point. */
+static const expr *private_symbol(expr_ctx *ctx, const expr *fapp, const char *what)
+{
+	xbuf name = {0};
+	xbuf_printf(&name, "%s(", expr_sym_name(expr_fapp_func(fapp)));
+	for (size_t i = 0; i < expr_nops(fapp); i++)
+		xbuf_printf(&name, "%s%u", i ? "," : "", (unsigned)expr_fapp_counts(fapp)[i]);
+	xbuf_printf(&name, ") %s", what);
+	char *text = xbuf_take(&name);
+	const expr *sym = expr_sym(ctx, text);
+	free(text);
+	return sym;
+}
+
+/* Does a generic application have only symbols and numbers as arguments?  Two
+ * such applications of one function with the same counts are the same node
+ * exactly when their arguments are the same, and their values are free of
+ * each other on a domain with interior; at other arguments, equal values may
+ * be written differently: h(sin(x)^2 + cos(x)^2) = h(1). */
+static bool plain_arguments(const expr *e)
+{
+	for (size_t i = 0; i < expr_nops(e); i++) {
+		expr_kind kind = expr_kind_of(expr_op(e, i));
+		if (kind != EXPR_SYM && kind != EXPR_NUM)
+			return false;
+	}
+	return true;
+}
+
+/* Is e a rational function of its atoms: symbols and generic partials at
+ * symbols and numbers (plain_arguments), with integer powers only (no function
+ * application, which identities such as sin^2 + cos^2 = 1 could tie, and no
+ * root, which relations tie)?  In the rational normal form such an e is zero
+ * only if it is 0. */
 static bool is_rational(const expr *e, expr_map *seen)
 {
 	if (expr_map_get(seen, e))
@@ -189,8 +249,9 @@ static bool is_rational(const expr *e, expr_map *seen)
 	switch (expr_kind_of(e)) {
 	case EXPR_NUM:
 	case EXPR_SYM:
-	case EXPR_FAPP:
 		return true;
+	case EXPR_FAPP:
+		return plain_arguments(e);
 	case EXPR_FUN:
 		return false;
 	case EXPR_MUL:
@@ -213,6 +274,8 @@ typedef struct part_run {
 	expr_ctx *ctx;
 	model *m;
 	const expr *lhs, *rhs, *difference;
+	ball_generic generic;        /* generic applications as fixed functions */
+	ball_generic_affine *affine; /* their offsets and scales, generic.naffine */
 	expr_vec atoms;
 	domain *dom;
 	mpq_t *values;
@@ -225,17 +288,58 @@ static void record_point(verify_result *out, part_run *r, ball_verdict *v)
 {
 	verify_result_free(out);
 	size_t n = domain_size(r->dom);
-	out->natoms = n;
+	out->natoms = 0;
+	out->functions = r->generic.naffine > 0;
 	out->atoms = xcalloc(n + 1, sizeof *out->atoms);
 	out->values = xcalloc(n + 1, sizeof *out->values);
 	for (size_t i = 0; i < n; i++) {
-		out->atoms[i] = domain_atom(r->dom, i);
-		out->values[i] = rat_to_decimal(r->values[i]);
+		const expr *atom = domain_atom(r->dom, i);
+		bool hidden = false; /* the offsets and scales are not the model's */
+		for (size_t k = 0; k < r->generic.naffine && !hidden; k++)
+			hidden = atom == r->affine[k].offset || atom == r->affine[k].scale;
+		if (hidden)
+			continue;
+		out->atoms[out->natoms] = atom;
+		out->values[out->natoms++] = rat_to_decimal(r->values[i]);
 	}
 	if (v) {
 		out->left = v->lhs_text ? xstrdup(v->lhs_text) : NULL;
 		out->right = v->rhs_text ? xstrdup(v->rhs_text) : NULL;
 	}
+}
+
+/* Each generic function of the part (each function symbol and derivative
+ * counts) is offset + scale*H at a point, with H its fixed function
+ * (ball_generic) and offset and scale drawn with the point like any other
+ * atom: a claim is about every smooth function, of any size and value, and
+ * h(1) is then as free as it should be (abs(h(1)) = h(1) fails), while
+ * applications at equal arguments still agree at every point. */
+static void add_function_atoms(part_run *r)
+{
+	expr_vec functions = {0};
+	expr_map seen = {0};
+	collect_functions(r->lhs, &seen, &functions);
+	collect_functions(r->rhs, &seen, &functions);
+	expr_map_free(&seen);
+	r->affine = xcalloc(functions.n + 1, sizeof *r->affine);
+	size_t n = 0;
+	for (size_t i = 0; i < functions.n; i++) {
+		const expr *offset = private_symbol(r->ctx, functions.items[i], "offset");
+		const expr *scale = private_symbol(r->ctx, functions.items[i], "scale");
+		if (!offset || !scale) {
+			expr_clear_error(r->ctx); /* no room: H alone, still a smooth function */
+			continue;
+		}
+		r->affine[n++] = (ball_generic_affine){.func = expr_fapp_func(functions.items[i]),
+		                                       .counts = expr_fapp_counts(functions.items[i]),
+		                                       .offset = offset,
+		                                       .scale = scale};
+		expr_vec_push(&r->atoms, offset);
+		expr_vec_push(&r->atoms, scale);
+	}
+	r->generic.naffine = n;
+	r->generic.affine = r->affine;
+	expr_vec_free(&functions);
 }
 
 /* Is the side e defined at the point (only certainly undefined counts; more
@@ -252,7 +356,8 @@ static bool defined_at(part_run *r, const expr *e)
 	arb_init(value);
 	ball_status status = BALL_UNKNOWN;
 	for (size_t k = 0; k < sizeof precisions / sizeof *precisions && status == BALL_UNKNOWN; k++)
-		status = ball_eval(r->ctx, e, n, atoms, (const mpq_t *)r->values, precisions[k], value);
+		status = ball_eval_generic(r->ctx, e, n, atoms, (const mpq_t *)r->values, &r->generic,
+		                           precisions[k], value);
 	arb_clear(value);
 	free(atoms);
 	return status != BALL_UNDEFINED;
@@ -269,7 +374,7 @@ static bool rational_counterexample(part_run *r, verify_result *out, int part)
 	bool found = false;
 	for (int attempt = 0; attempt < 50 && !found && domain_draw(r->dom, r->values); attempt++) {
 		ball_verdict v = {0};
-		if (ball_compare_zero(r->ctx, r->difference, r->lhs, r->rhs, n, atoms,
+		if (ball_compare_zero(r->ctx, r->difference, r->lhs, r->rhs, n, atoms, &r->generic,
 		                      (const mpq_t *)r->values, &v) == BALL_NONZERO) {
 			out->part = part;
 			out->difference = r->difference;
@@ -293,7 +398,9 @@ static bool rational_counterexample(part_run *r, verify_result *out, int part)
 static ball_decision decide_exactly(part_run *r, ball_verdict *v, bool *neither)
 {
 	size_t n = domain_size(r->dom);
-	if (expr_error(r->ctx) != EXPR_OK)
+	/* unknown functions take their offsets and scales from the point's atoms,
+	 * which the substitution removes: the balls alone decide there */
+	if (expr_error(r->ctx) != EXPR_OK || r->generic.naffine > 0)
 		return BALL_UNDECIDED;
 	const expr **olds = xcalloc(n + 1, sizeof *olds), **news = xcalloc(n + 1, sizeof *news);
 	bool symbols = true;
@@ -310,7 +417,7 @@ static ball_decision decide_exactly(part_run *r, ball_verdict *v, bool *neither)
 		expr_clear_error(r->ctx); /* a value too large, log(0), ...: as the balls said */
 	} else if (lhs && rhs) {
 		ball_verdict w = {0};
-		decision = ball_compare_zero(r->ctx, difference, lhs, rhs, 0, NULL, NULL, &w);
+		decision = ball_compare_zero(r->ctx, difference, lhs, rhs, 0, NULL, NULL, NULL, &w);
 		if (w.reason == BALL_REASON_UNDEFINED) {
 			arb_t value;
 			arb_init(value);
@@ -340,7 +447,8 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 	for (size_t i = 0; i < n; i++)
 		atoms[i] = domain_atom(r->dom, i);
 	const expr *bad = NULL;
-	ball_claim *claim = ball_claim_new(r->ctx, r->difference, r->lhs, r->rhs, n, atoms, &bad);
+	ball_claim *claim =
+	        ball_claim_new(r->ctx, r->difference, r->lhs, r->rhs, n, atoms, &r->generic, &bad);
 	free(atoms);
 	if (!claim) {
 		*reason = "a side cannot be evaluated in ball arithmetic";
@@ -459,11 +567,13 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		              .m = m,
 		              .lhs = in->lhs[p],
 		              .rhs = in->rhs[p],
-		              .difference = difference[p]};
+		              .difference = difference[p],
+		              .generic = {.seed = seed}};
 		expr_map seen = {0};
 		collect_atoms(r.lhs, &seen, &r.atoms);
 		collect_atoms(r.rhs, &seen, &r.atoms);
 		expr_map_free(&seen);
+		add_function_atoms(&r);
 		r.dom = domain_new(ctx, m, r.atoms.n, r.atoms.items, seed * 1000003u + p);
 		mark_walk marks = {.dom = r.dom};
 		domain_add_mark(r.dom, expr_num_value(expr_int(ctx, 0)));
@@ -508,6 +618,7 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		free(r.values);
 		domain_free(r.dom);
 		expr_vec_free(&r.atoms);
+		free(r.affine);
 	}
 	if (out->verdict != VERIFY_FAILS && undecided_part >= 0) {
 		out->verdict = VERIFY_UNDECIDED;

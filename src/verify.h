@@ -2,10 +2,12 @@
  *
  * The claim is decided on the canonical difference of its two sides.  A zero
  * difference holds exactly.  A nonzero difference that is a rational function
- * of symbols and generic partials alone (no function application, which
- * identities such as sin^2 + cos^2 = 1 could tie) fails on any domain with
- * interior, however small it is.  Otherwise both sides are evaluated in ball
- * arithmetic (ball.h) at points drawn from the declared domain (domain.h):
+ * of symbols and generic partials at symbols and numbers alone (no function
+ * application, which identities such as sin^2 + cos^2 = 1 could tie) fails on
+ * any domain with interior, however small it is.  Otherwise both sides are
+ * evaluated in ball arithmetic (ball.h) at points drawn from the declared
+ * domain (domain.h), each unknown function a smooth function of its
+ * arguments' values drawn with the point (ball_generic):
  * fails needs a certified counterexample where both sides are defined, holds
  * needs every point's difference zero within its bound, anything else is
  * undecided, which never passes (Schwartz, JACM 1980; Zippel 1979 for the
@@ -46,6 +48,7 @@ typedef struct verify_result {
 	size_t natoms;
 	const expr **atoms;
 	char **values;
+	bool functions;		 /* the sides have unknown functions, drawn with the point */
 	char *left, *right;	 /* decimal values, enough digits to differ */
 } verify_result;
 

@@ -84,7 +84,8 @@ char *writer_claim_point(const stmt_result *r, expr_ctx *ctx)
 		free(name);
 	}
 	if (!c->natoms)
-		xbuf_put(&buf, "every point (no symbols)");
+		xbuf_put(&buf, c->functions ? "a draw of the unknown functions (no symbols)"
+					    : "every point (no symbols)");
 	if (c->left && c->right)
 		xbuf_printf(&buf, ": left side %s, right side %s", c->left, c->right);
 	return xbuf_take(&buf);

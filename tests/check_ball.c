@@ -136,15 +136,16 @@ START_TEST(test_straddling)
 	mpq_init(point[0]);
 	mpq_set_ui(point[0], 1, 3);
 	const expr *lhs = FN(LOG, near_zero);
-	ball_compare_zero(ctx, lhs, lhs, N(0), 1, atoms, (const mpq_t *)point, &verdict);
+	ball_compare_zero(ctx, lhs, lhs, N(0), 1, atoms, NULL, (const mpq_t *)point, &verdict);
 	ck_assert_int_eq(verdict.decision, BALL_UNDECIDED);
 	ck_assert_int_eq(verdict.reason, BALL_REASON_UNKNOWN);
 	ck_assert_int_eq(verdict.bits, BALL_MAX_PRECISION);
-	ball_compare_zero(ctx, NULL, FN(LOG, SUB(x, N(1))), N(0), 1, atoms, (const mpq_t *)point, &verdict);
+	ball_compare_zero(ctx, NULL, FN(LOG, SUB(x, N(1))), N(0), 1, atoms, NULL, (const mpq_t *)point,
+	                  &verdict);
 	ck_assert_int_eq(verdict.reason, BALL_REASON_UNDEFINED);
 	ck_assert_int_eq(verdict.bits, 64); /* undefined is certain: no escalation */
 	ck_assert_str_eq(ball_reason_message(verdict.reason), "a side is undefined at the point");
-	ball_compare_zero(ctx, NULL, y, N(0), 1, atoms, (const mpq_t *)point, &verdict);
+	ball_compare_zero(ctx, NULL, y, N(0), 1, atoms, NULL, (const mpq_t *)point, &verdict);
 	ck_assert_int_eq(verdict.reason, BALL_REASON_UNBOUND);
 	mpq_clear(point[0]);
 	arb_clear(v);
@@ -195,7 +196,7 @@ static ball_decision decide(const expr *lhs, const expr *rhs, bool with_differen
 	mpq_canonicalize(point[0]);
 	const expr *difference = with_difference ? SUB(lhs, rhs) : NULL;
 	ball_decision decision =
-	        ball_compare_zero(ctx, difference, lhs, rhs, 1, atoms, (const mpq_t *)point, verdict);
+	        ball_compare_zero(ctx, difference, lhs, rhs, 1, atoms, NULL, (const mpq_t *)point, verdict);
 	mpq_clear(point[0]);
 	return decision;
 }
@@ -335,6 +336,159 @@ START_TEST(test_atoms)
 	arb_clear(v);
 	mpq_clear(values[0]);
 	mpq_clear(values[1]);
+}
+END_TEST
+
+/* Generic applications evaluated as fixed smooth functions (ball_generic, issue
+ * 13, item 5): one function per (name, derivative counts, seed), a function of
+ * the argument values only, deterministic, finite and tight over a wide range
+ * of arguments.  Applications that are atoms stay atoms. */
+static const expr *generic_h(const unsigned char *counts, const expr *arg)
+{
+	const expr *h = expr_sym(ctx, "h");
+	ck_assert(expr_func_declare(ctx, h, 1, (const char *[]){"u"}));
+	return expr_fapp(ctx, h, counts, (const expr *[]){arg});
+}
+
+/* H at the rational num/den for the function (name, counts, seed), at prec bits. */
+static void generic_at(arb_t out, const char *name, const unsigned char *counts, uint64_t seed, long num,
+                       long den, slong prec)
+{
+	arb_t arg;
+	arb_init(arg);
+	arb_set_si(arg, num);
+	arb_div_si(arg, arg, den, prec);
+	ball_generic_value(out, name, 1, counts, seed, arg, prec);
+	arb_clear(arg);
+}
+
+START_TEST(test_generic_functions)
+{
+	static const unsigned char zero[] = {0}, one[] = {1}, two[] = {2};
+	arb_t a, b;
+	arb_init(a);
+	arb_init(b);
+	/* deterministic: the same ball twice, and balls that overlap across precisions */
+	generic_at(a, "h", zero, 7, 7, 10, 64);
+	generic_at(b, "h", zero, 7, 7, 10, 64);
+	ck_assert(arb_equal(a, b));
+	generic_at(b, "h", zero, 7, 7, 10, 1024);
+	ck_assert(arb_overlaps(a, b));
+	ck_assert(mag_cmp_2exp_si(arb_radref(b), -1000) < 0);
+	/* other functions, counts and seeds give other values (disjoint balls) */
+	generic_at(b, "k", zero, 7, 7, 10, 64);
+	ck_assert(!arb_overlaps(a, b));
+	generic_at(b, "h", one, 7, 7, 10, 64);
+	ck_assert(!arb_overlaps(a, b));
+	generic_at(a, "h", two, 7, 7, 10, 64);
+	ck_assert(!arb_overlaps(a, b));
+	generic_at(b, "h", zero, 8, 7, 10, 64);
+	generic_at(a, "h", zero, 7, 7, 10, 64);
+	ck_assert(!arb_overlaps(a, b));
+	/* finite, moderate (|H| <= 1 + 4 e^(1/2) < 8) and tight from 10^-300 to 10^300
+	 * and their negatives, and at 0 */
+	arb_t arg;
+	arb_init(arg);
+	for (int e = -300; e <= 300; e += 20)
+		for (int sign = -1; sign <= 1; sign++) {
+			fmpz_t power;
+			fmpz_init_set_si(power, e);
+			arb_set_si(arg, 10);
+			arb_pow_fmpz(arg, arg, power, 256);
+			arb_mul_si(arg, arg, sign, 256);
+			fmpz_clear(power);
+			for (size_t k = 0; k < 3; k++) {
+				const unsigned char *counts = k == 0 ? zero : k == 1 ? one : two;
+				ball_generic_value(a, "h", 1, counts, 3, arg, 64);
+				ck_assert(arb_is_finite(a));
+				arf_t bound;
+				arf_init(bound);
+				arb_get_abs_ubound_arf(bound, a, 30);
+				ck_assert(arf_cmp_si(bound, 8) < 0);
+				arf_clear(bound);
+				ck_assert(mag_cmp_2exp_si(arb_radref(a), -40) < 0);
+			}
+		}
+	arb_clear(arg);
+	/* a compiled program gives the same function, at equal arguments equal values:
+	 * h(sin(x)^2 + cos(x)^2) and h(1) are zero within the bound */
+	ball_generic generic = {.seed = 7};
+	const expr *atoms[] = {x, y};
+	mpq_t values[2];
+	mpq_init(values[0]);
+	mpq_init(values[1]);
+	mpq_set_si(values[0], 3, 7);
+	const expr *unit = ADD(POW(FN(SIN, x), N(2)), POW(FN(COS, x), N(2)));
+	ck_assert_int_eq(ball_eval_generic(ctx, generic_h(NULL, unit), 2, atoms, (const mpq_t *)values,
+	                                   &generic, 256, a),
+	                 BALL_OK);
+	generic_at(b, "h", zero, 7, 1, 1, 256);
+	ck_assert(arb_overlaps(a, b));
+	ck_assert(mag_cmp_2exp_si(arb_radref(a), -200) < 0);
+	ball_verdict verdict;
+	ck_assert_int_eq(ball_compare_zero(ctx, NULL, generic_h(NULL, unit), generic_h(NULL, N(1)), 2, atoms,
+	                                   &generic, (const mpq_t *)values, &verdict),
+	                 BALL_ZERO_WITHIN_BOUND);
+	/* h(x + 1) = h(x) and h_u(x) = h(x) are refuted at x = 3/7 */
+	ck_assert_int_eq(ball_compare_zero(ctx, NULL, generic_h(NULL, ADD(x, N(1))), generic_h(NULL, x), 2,
+	                                   atoms, &generic, (const mpq_t *)values, &verdict),
+	                 BALL_NONZERO);
+	ball_verdict_clear(&verdict);
+	ck_assert_int_eq(ball_compare_zero(ctx, NULL, generic_h(one, x), generic_h(NULL, x), 2, atoms,
+	                                   &generic, (const mpq_t *)values, &verdict),
+	                 BALL_NONZERO);
+	ball_verdict_clear(&verdict);
+	/* an argument outside its domain makes the application undefined */
+	ck_assert_int_eq(ball_eval_generic(ctx, generic_h(NULL, FN(LOG, SUB(N(-1), POW(x, N(2))))), 2, atoms,
+	                                   (const mpq_t *)values, &generic, 64, a),
+	                 BALL_UNDEFINED);
+	/* an application among the atoms is an atom (h(x) = 5); a symbol in an
+	 * argument without a value is refused (y) */
+	const expr *with_value[] = {x, generic_h(NULL, x)};
+	mpq_set_si(values[1], 5, 1);
+	ck_assert_int_eq(ball_eval_generic(ctx, generic_h(NULL, y), 2, with_value, (const mpq_t *)values,
+	                                   &generic, 64, a),
+	                 BALL_FAILED);
+	ck_assert_int_eq(ball_eval_generic(ctx, generic_h(NULL, x), 2, with_value, (const mpq_t *)values,
+	                                   &generic, 64, a),
+	                 BALL_OK);
+	ck_assert(arb_equal_si(a, 5));
+	/* with an offset and a scale (atoms o, s): h(x) = o + s*H(x) at o = 100, s = -2,
+	 * and h_u, which has none, is H_u alone */
+	const expr *o = expr_sym(ctx, "o"), *s = expr_sym(ctx, "s");
+	const ball_generic_affine affine = {
+	        .func = expr_sym(ctx, "h"), .counts = zero, .offset = o, .scale = s};
+	const ball_generic scaled = {.seed = 7, .naffine = 1, .affine = &affine};
+	const expr *three[] = {x, o, s};
+	mpq_t point[3];
+	for (int i = 0; i < 3; i++)
+		mpq_init(point[i]);
+	mpq_set_si(point[0], 3, 7);
+	mpq_set_si(point[1], 100, 1);
+	mpq_set_si(point[2], -2, 1);
+	ck_assert_int_eq(
+	        ball_eval_generic(ctx, generic_h(NULL, x), 3, three, (const mpq_t *)point, &scaled, 128, a),
+	        BALL_OK);
+	generic_at(b, "h", zero, 7, 3, 7, 128);
+	arb_mul_si(b, b, -2, 128);
+	arb_add_si(b, b, 100, 128);
+	ck_assert(arb_overlaps(a, b));
+	ck_assert(mag_cmp_2exp_si(arb_radref(a), -100) < 0);
+	ck_assert_int_eq(
+	        ball_eval_generic(ctx, generic_h(one, x), 3, three, (const mpq_t *)point, &scaled, 128, a),
+	        BALL_OK);
+	generic_at(b, "h", one, 7, 3, 7, 128);
+	ck_assert(arb_overlaps(a, b));
+	/* without values for the offset and the scale, a scaled function is refused */
+	ck_assert_int_eq(
+	        ball_eval_generic(ctx, generic_h(NULL, x), 1, three, (const mpq_t *)point, &scaled, 64, a),
+	        BALL_FAILED);
+	for (int i = 0; i < 3; i++)
+		mpq_clear(point[i]);
+	mpq_clear(values[0]);
+	mpq_clear(values[1]);
+	arb_clear(a);
+	arb_clear(b);
 }
 END_TEST
 
@@ -511,6 +665,7 @@ Suite *ball_suite(void)
 	tcase_add_test(tc, test_small_difference);
 	tcase_add_test(tc, test_cancellation_of_large_terms);
 	tcase_add_test(tc, test_atoms);
+	tcase_add_test(tc, test_generic_functions);
 	tcase_add_test(tc, test_shared_nodes);
 	tcase_add_test(tc, test_interrupt);
 	tcase_add_test(tc, test_random_against_doubles);
