@@ -108,10 +108,11 @@ char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx)
 	if (c->holds && c->method == VERIFY_EXACT)
 		return xstrdup(" (exact)");
 	if (c->holds)
-		return c->skipped ? xasprintf(" (numeric: %zu points, %ld bits; %zu points no precision could "
-					      "decide were skipped)",
-					      c->points, c->bits, c->skipped)
-				  : xasprintf(" (numeric: %zu points, %ld bits)", c->points, c->bits);
+		return c->skipped
+		               ? xasprintf(" (numeric: %zu points, %ld bits; %zu points no precision could "
+		                           "decide were skipped)",
+		                           c->points, c->bits, c->skipped)
+		               : xasprintf(" (numeric: %zu points, %ld bits)", c->points, c->bits);
 	xbuf buf = {0};
 	char *named = writer_claim_part(r);
 	const char *part = named ? named : "the two sides differ";
@@ -195,7 +196,10 @@ char *writer_no_solution(const stmt_result *r, expr_ctx *ctx)
 {
 	if (r->kind != RESULT_MOMENTS || r->solutions)
 		return NULL;
-	if (!r->no_solution || expr_kind_of(r->no_solution) == EXPR_SYM)
+	/* the time symbol: the coefficients move with t; any other expression
+	 * (kappa too) is a rate difference not known to be nonzero */
+	if (!r->no_solution ||
+	    (expr_kind_of(r->no_solution) == EXPR_SYM && strcmp(expr_sym_name(r->no_solution), "t") == 0))
 		return xstrdup("no closed form: the coefficients depend on t");
 	char *needed = prn_expr(ctx, r->no_solution, PRN_TEXT);
 	char *text = xasprintf("no closed form: it needs %s != 0, which the assumptions do not give", needed);
