@@ -253,12 +253,14 @@ moments_status moments_compute(model *m, const model_measure *q, const expr *X, 
 	out->order = K;
 	ito_diff d;
 	ito_dynamics(m, q, X, &d);
-	const expr *square = ito_covariation(m, &d, &d);
-	const expr *a[2], *c[3];
-	moments_status status = d.dt && square ? MOMENTS_OK : MOMENTS_ENGINE;
+	/* the first moment needs only an affine drift: k(k-1)/2 = 0 for k = 1,
+	 * so the diffusion enters from m2 on */
+	const expr *square = K >= 2 ? ito_covariation(m, &d, &d) : NULL;
+	const expr *a[2], *c[3] = {expr_int(ctx, 0), expr_int(ctx, 0), expr_int(ctx, 0)};
+	moments_status status = d.dt && (square || K < 2) ? MOMENTS_OK : MOMENTS_ENGINE;
 	if (status == MOMENTS_OK)
 		status = poly_in(m, d.dt, X, 1, MOMENTS_DRIFT_DEGREE, a, &out->culprit);
-	if (status == MOMENTS_OK)
+	if (status == MOMENTS_OK && K >= 2)
 		status = poly_in(m, square, X, 2, MOMENTS_SQUARE_DEGREE, c, &out->culprit);
 	ito_diff_free(&d);
 	if (status != MOMENTS_OK)

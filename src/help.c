@@ -69,7 +69,7 @@
 		     "  in X: the linear ODEs of m_k(t) = E[X_t^k | X_0 = X], k = 1..K (m1' = ...),\n" \
 		     "  and, when the coefficients do not depend on t, their solution in X and t\n"  \
 		     "  (m1 = ...).  Any other state is an error saying why the system does not\n"  \
-		     "  close.  example:  moments S, 2\n")                                            \
+		     "  close (K = 1 needs only the drift).  example:  moments S, 2\n")                \
 	X("sde", "sde X  |  sde X stratonovich\n"                                                   \
 		 "  The SDE of the state X in Ito form, or in Stratonovich form.\n"                  \
 		 "  example:  sde X stratonovich\n")                                                 \

@@ -181,4 +181,22 @@ for label, prelude, drift, square, mean, variance in MOMENTS:
 		tally.record(label + ": mean (published)", same(sols[0], mean, domain))
 		tally.record(label + ": variance (published)", same(sols[1] - sols[0]**2, variance, domain))
 
+# The first moment needs only an affine drift: with a bounded, non-polynomial
+# diffusion the mean is still the Ornstein-Uhlenbeck one (Karatzas and Shreve,
+# 5.6; from memory), and the second moment is refused.
+prelude = ["param kappa, theta, s > 0", "noise W", "dX = kappa*(theta - X)*dt + s*cos(X)*dW"]
+obj = run_itox(prelude, ["moments X, 1"])[0]
+if obj.get("kind") != "moments":
+	tally.fail("first moment, cos diffusion", "itox: %s" % obj.get("message"))
+else:
+	m1 = sympy.Symbol("m1", real=True)
+	parser = Parser(dict(syms, m1=m1))
+	tally.record("first moment, cos diffusion: m1'",
+	             same(parser.parse(obj["equations"]["1"]), kappa * (theta - m1), domain))
+	tally.record("first moment, cos diffusion: mean (published)",
+	             same(parser.parse(obj["solution"]["1"]), theta + (X - theta) * exp(-kappa * t), domain))
+obj = run_itox(prelude, ["moments X, 2"])[0]
+tally.record("second moment, cos diffusion: refused",
+             None if obj.get("kind") == "error" else "itox answered %s" % obj)
+
 tally.finish()
