@@ -203,9 +203,19 @@ static bool latex_write(writer *w, const stmt_result *r, char **error)
 {
 	(void)error;
 	xbuf buf = {0};
+	char *under = r->measure ? prn_latex_name(r->measure, false) : NULL;
 	if (!w->standalone) {
-		if (!math(w, r, &buf))
+		/* the measure in the equation itself: a result under Q may show no
+		 * noise of Q's at all (a drift, a pde, moments) */
+		if (math(w, r, &buf)) {
+			if (under)
+				xbuf_printf(&buf, " \\qquad \\text{(under $%s$)}", under);
+		} else {
 			comment(w, r, &buf);
+			if (under)
+				xbuf_printf(&buf, " (under %s)", r->measure);
+		}
+		free(under);
 		if (buf.length)
 			writer_line(w, buf.data);
 		xbuf_free(&buf);
@@ -221,12 +231,18 @@ static bool latex_write(writer *w, const stmt_result *r, char **error)
 	if (math(w, r, &buf)) {
 		xbuf_put(&st->body, ": \\texttt{");
 		put_escaped(&st->body, r->statement ? r->statement : "");
-		xbuf_printf(&st->body, "}\n\\begin{align*}\n%s\n\\end{align*}\n\n", buf.data);
+		xbuf_put(&st->body, "}");
+		if (under)
+			xbuf_printf(&st->body, " under $%s$", under);
+		xbuf_printf(&st->body, "\n\\begin{align*}\n%s\n\\end{align*}\n\n", buf.data);
 	} else {
 		xbuf_put(&st->body, ": ");
+		if (under)
+			xbuf_printf(&st->body, "under $%s$, ", under);
 		sentence(w, r, &st->body);
 		xbuf_putc(&st->body, '\n');
 	}
+	free(under);
 	xbuf_free(&buf);
 	return true;
 }
@@ -249,6 +265,56 @@ static void assumption(writer *w, const model_entry *e, xbuf *buf)
 	free(name);
 	free(lo);
 	free(hi);
+}
+
+/* Each measure the model declares, by the increments of its noises, dW_k =
+ * dW_k(Q) + shift_k dt: "Under the measure $Q$: $\mathrm{d}W_t =
+ * \mathrm{d}Z_t - \lambda\,\mathrm{d}t$"; a noise that keeps its name is
+ * B^Q here, and results under Q write it B. */
+static void measures(writer *w, xbuf *doc)
+{
+	const model *m = w->model;
+	for (size_t i = 0; i < m->nmeasures; i++) {
+		const model_measure *q = &m->measures[i];
+		char *name = prn_latex_name(q->name, false);
+		xbuf_printf(doc, "Under the measure $%s$: ", name);
+		bool any = false;
+		const char *kept = NULL; /* a noise that keeps its name */
+		for (size_t k = 0; k < q->nnoises; k++) {
+			bool renamed = q->names[k] != m->noises[k];
+			if (!renamed && expr_is_zero(q->shift[k]))
+				continue;
+			char *noise = prn_latex_name(expr_sym_name(m->noises[k]), true);
+			char *increment = renamed ? prn_latex_name(expr_sym_name(q->names[k]), true)
+			                          : xasprintf("%s^{%s}", noise, name);
+			xbuf_printf(doc, "%s$\\mathrm{d}%s = \\mathrm{d}%s", any ? ", " : "", noise,
+			            increment);
+			if (!expr_is_zero(q->shift[k])) {
+				stmt_result r = {.kind = RESULT_DIFFERENTIAL, .diff = {.dt = q->shift[k]}};
+				char *body = writer_diff(&r, w->ctx, PRN_LATEX);
+				xbuf_printf(doc, body[0] == '-' ? " %s" : " + %s", body);
+				free(body);
+			}
+			xbuf_putc(doc, '$');
+			if (!renamed && !kept)
+				kept = expr_sym_name(m->noises[k]);
+			free(noise);
+			free(increment);
+			any = true;
+		}
+		if (!any)
+			xbuf_put(doc, "every noise is as under the model's own measure");
+		if (kept) {
+			char *plain = prn_latex_name(kept, false);
+			xbuf_printf(doc,
+			            "; a result under $%s$ writes $%s^{%s}$ as $%s$ (and so for each noise "
+			            "that keeps its name)",
+			            name, plain, name, plain);
+			free(plain);
+		}
+		xbuf_put(doc, ".\n\n");
+		free(name);
+	}
 }
 
 static void model_section(writer *w, xbuf *doc)
@@ -277,6 +343,7 @@ static void model_section(writer *w, xbuf *doc)
 			xbuf_put(doc, "Increments written $\\circ\\,\\mathrm{d}W$ are in the Stratonovich "
 			              "sense.\n\n");
 	}
+	measures(w, doc);
 	bool any = false;
 	for (size_t i = 0; i < m->nnoises; i++)
 		for (size_t j = i + 1; j < m->nnoises; j++) {
@@ -305,7 +372,7 @@ static void model_section(writer *w, xbuf *doc)
 		any = true;
 	}
 	static const char *const rel_latex[] = {
-		[MODEL_REL_GT] = ">", [MODEL_REL_GE] = "\\ge", [MODEL_REL_LT] = "<", [MODEL_REL_LE] = "\\le"};
+	        [MODEL_REL_GT] = ">", [MODEL_REL_GE] = "\\ge", [MODEL_REL_LT] = "<", [MODEL_REL_LE] = "\\le"};
 	for (size_t i = 0; i < m->nrelations; i++) {
 		const model_relation *r = &m->relations[i];
 		char *lhs = prn_expr(w->ctx, r->lhs, PRN_LATEX_PLAIN);

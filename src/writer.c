@@ -55,6 +55,19 @@ char *writer_diff(const stmt_result *r, expr_ctx *ctx, prn_format format)
 	return prn_differential(ctx, &r->diff, format, r->abbrev);
 }
 
+bool writer_shows_measure(const writer *w, const stmt_result *r)
+{
+	if (!r->measure || !w->model)
+		return false;
+	if (r->kind != RESULT_DIFFERENTIAL && r->kind != RESULT_DIFFUSION && r->kind != RESULT_SDE)
+		return false;
+	for (size_t k = 0; k < r->diff.n && k < w->model->nnoises; k++)
+		if (r->diff.dw && r->diff.dw[k] && !expr_is_zero(r->diff.dw[k]) && r->diff.noises &&
+		    r->diff.noises[k] != w->model->noises[k])
+			return true;
+	return false;
+}
+
 char *result_place(const stmt_result *r)
 {
 	return xasprintf("%s:%d", r->origin ? r->origin : "<input>", r->line);
