@@ -19,7 +19,8 @@ bool writer_write(writer *w, const stmt_result *r, char **error)
 {
 	*error = NULL;
 	bool ok = w->cls->write(w, r, error);
-	w->started = true;
+	if (ok)
+		w->started = true; /* a refused result wrote nothing */
 	return ok;
 }
 
