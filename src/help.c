@@ -25,8 +25,10 @@
 	X("sde", "dX = DRIFT*dt + DIFFUSION*dW + ...\n"                                               \
 		 "  An Ito SDE; it declares the state X.\n"                                           \
 		 "  example:  dS = mu*S*dt + sigma*S*dW\n")                                           \
-	X("let", "let NAME = EXPR\n"                                                                  \
-		 "  A named derived process.  example:  let Y = log(S)\n")                            \
+	X("let", "let NAME = EXPR  |  let NAME = EXPR under Q\n"                                     \
+		 "  A named derived process.  Queries inside EXPR (drift(P), ...) are taken\n"       \
+		 "  when it is defined, under Q if given: the name holds that value.\n"             \
+		 "  example:  let Y = log(S)\n")                                                       \
 	X("d", "d EXPR\n"                                                                             \
 	       "  The Ito differential: d(EXPR) = (drift)*dt + (b1)*dW + ...\n"                       \
 	       "  d(EXPR) before a parenthesis is the operator, so d(S)*d(S) is a product.\n"         \
