@@ -274,6 +274,11 @@ decl:
 	| "func" NAME "(" names ")"
 				{ $$ = ast_finish($4, AST_S_FUNC, $2, NULL, &@$); }
 	| "let" NAME "=" expr	{ $$ = ast_named(L, AST_S_LET, $2, $4, NULL, &@$); }
+	/* the queries inside the definition taken under a measure: the let runs
+	 * as a statement under it */
+	| "let" NAME "=" expr "under" NAME
+				{ $$ = ast_named(L, AST_S_UNDER, $6,
+						 ast_named(L, AST_S_LET, $2, $4, NULL, &@$), NULL, &@$); }
 	| "measure" NAME ":" assigns
 				{ $$ = ast_finish($4, AST_S_MEASURE, $2, NULL, &@$); }
 	| "state" NAME "=" expr "where" assign

@@ -37,8 +37,11 @@ bool run_measure(session *s, const ast_node *st)
 		const expr *w = differential_of(s, as->text);
 		long k = w ? model_noise_index(m, w) : -1;
 		if (k < 0) {
-			report(s, SESSION_INPUT, &as->loc, "'%s' is not the differential of a declared noise",
-			       as->text);
+			char *list = noise_list(s, NULL, "d");
+			report(s, SESSION_INPUT, &as->loc,
+			       "'%s' is not the differential of a declared noise (the noises: %s)", as->text,
+			       *list ? list : "none declared");
+			free(list);
 			ok = false;
 			break;
 		}

@@ -212,11 +212,99 @@ const char *suggest(session *s, const char *name)
 	return distance <= limit ? best : NULL;
 }
 
+char *noise_list(const session *s, const model_measure *q, const char *prefix)
+{
+	const expr *const *names = q ? q->names : s->model.noises;
+	xbuf list = {0};
+	for (size_t k = 0; k < s->model.nnoises; k++)
+		xbuf_printf(&list, "%s%s%s", k ? ", " : "", prefix, expr_sym_name(names[k]));
+	return list.data ? list.data : xstrdup("");
+}
+
+/* The noise name closest to name (with the prefix "d" or ""), among the
+ * current measure's noises and the model's: a new string, NULL when none
+ * is close. */
+static char *closest_noise(session *s, const char *name, const char *prefix)
+{
+	char *best = NULL;
+	size_t distance = (size_t)-1;
+	for (int pass = 0; pass < 2; pass++) {
+		const expr *const *names = pass == 0 || !s->measure ? s->model.noises : s->measure->names;
+		for (size_t k = 0; k < s->model.nnoises; k++) {
+			char *candidate = xasprintf("%s%s", prefix, expr_sym_name(names[k]));
+			const char *chosen = NULL;
+			consider(candidate, name, &chosen, &distance);
+			if (chosen) {
+				free(best);
+				best = candidate;
+			} else {
+				free(candidate);
+			}
+		}
+	}
+	size_t length = strlen(name);
+	size_t limit = length <= 2 ? 0 : length <= 4 ? 1 : 2;
+	if (best && distance <= limit)
+		return best;
+	free(best);
+	return NULL;
+}
+
+/* A name that is a noise (or its differential) of a measure other than the
+ * current one: known only under that measure.  True after a message. */
+static bool other_measure_noise(session *s, const ast_loc *loc, const char *name)
+{
+	const model *m = &s->model;
+	const char *bare = name[0] == 'd' && name[1] ? name + 1 : NULL;
+	for (size_t i = 0; i < m->nmeasures; i++) {
+		const model_measure *q = &m->measures[i];
+		if (q == s->measure)
+			continue;
+		for (size_t k = 0; k < q->nnoises; k++) {
+			const char *noise = expr_sym_name(q->names[k]);
+			bool differential = bare && strcmp(bare, noise) == 0;
+			if (q->names[k] == m->noises[k] || (strcmp(name, noise) != 0 && !differential))
+				continue;
+			/* the same noise's name here */
+			const char *here = expr_sym_name(s->measure ? s->measure->names[k] : m->noises[k]);
+			report(s, SESSION_INPUT, loc,
+			       "unknown name '%s': %s is the noise that replaces %s under the measure %s, "
+			       "known "
+			       "only there; add 'under %s' to the statement, or write %s%s here",
+			       name, noise, expr_sym_name(m->noises[k]), q->name, q->name,
+			       differential ? "d" : "", here);
+			return true;
+		}
+	}
+	return false;
+}
+
 void unknown_name(session *s, const ast_loc *loc, const char *name)
 {
 	if (expr_is_function_spelling(name)) {
 		report(s, SESSION_INPUT, loc, "'%s' is a built-in function, not a variable (write %s(x))",
 		       name, name);
+		return;
+	}
+	if (other_measure_noise(s, loc, name))
+		return;
+	if (name[0] == 'd' && name[1] && s->model.nnoises) {
+		/* a differential that is not one: name the noises' differentials here */
+		char *close = closest_noise(s, name, "d");
+		char *list = noise_list(s, s->measure, "d");
+		if (close)
+			report(s, SESSION_INPUT, loc,
+			       "unknown name '%s'; did you mean '%s'? (the noises here: %s%s%s)", name, close,
+			       list, s->measure ? " under " : "", s->measure ? s->measure->name : "");
+		else if (!suggest(s, name))
+			report(s, SESSION_INPUT, loc,
+			       "unknown name '%s' (the noises' differentials here: %s%s%s)", name, list,
+			       s->measure ? " under " : "", s->measure ? s->measure->name : "");
+		else
+			report(s, SESSION_INPUT, loc, "unknown name '%s'; did you mean '%s'?", name,
+			       suggest(s, name));
+		free(close);
+		free(list);
 		return;
 	}
 	const char *hint = suggest(s, name);

@@ -18,7 +18,9 @@
  * each m_j a sum of c t^p e^(mu t), and
  *   int_0^t s^p e^(a s) ds = e^(a t) sum_j (-1)^j p!/(p-j)! t^(p-j)/a^(j+1) - (-1)^p p!/a^(p+1)
  * for a != 0 (t^(p+1)/(p+1) for a = 0).  An a that is neither 0 in its
- * canonical form nor of a known nonzero sign leaves the system unsolved.
+ * canonical form nor known to be nonzero from every fact the model has (the
+ * signs and ranges of its names, and its assumed relations: see
+ * certainly_nonzero) leaves the system unsolved.
  */
 #include "forward.h"
 
@@ -118,11 +120,46 @@ static const expr *wave_expr(expr_ctx *ctx, const waves *w, const expr *t)
 	return sum;
 }
 
+/* Can a = 0 be ruled out?  By its sign (declared signs and ranges), or by
+ * contradiction with an assumed relation D op 0: when a = c1*x + c0 for a
+ * symbol x with c1 of known nonzero sign, a = 0 forces x = -c0/c1, and if
+ * D with that x certainly breaks op, a = 0 is impossible.  (2*kappa*theta >
+ * xi^2 with kappa = 0 would give -xi^2 > 0: so kappa != 0.) */
+static bool certainly_nonzero(model *m, const expr *a)
+{
+	expr_ctx *ctx = m->ctx;
+	if (!(expr_sign(ctx, a) & EXPR_SIGN_ZERO))
+		return true;
+	expr_vec names = {0};
+	expr_free_symbols(ctx, a, &names);
+	bool nonzero = false;
+	for (size_t i = 0; i < names.n && !nonzero && !expr_error(ctx); i++) {
+		const expr *x = names.items[i];
+		polycoef p;
+		if (!polycoef_split(ctx, a, 1, &x, &p))
+			continue;
+		unsigned long one = 1, zero = 0;
+		const expr *c1 = polycoef_degree(&p) == 1 ? polycoef_get(ctx, &p, &one) : NULL;
+		const expr *c0 = c1 ? polycoef_get(ctx, &p, &zero) : NULL;
+		polycoef_free(&p);
+		if (!c1 || !c0 || (expr_sign(ctx, c1) & EXPR_SIGN_ZERO))
+			continue;
+		const expr *root = expr_neg(ctx, expr_div(ctx, c0, c1));
+		for (size_t r = 0; r < m->nrelations && root && !nonzero; r++) {
+			const expr *at = expr_subst(ctx, m->relations[r].difference, 1, &x, &root);
+			nonzero = at && model_rel_impossible(m->relations[r].op, expr_sign(ctx, at));
+		}
+	}
+	expr_vec_free(&names);
+	return nonzero && !expr_error(ctx);
+}
+
 /* out += factor * int_0^t e^(lambda (t-s)) g(s) ds for g = sum c s^p e^(mu s);
  * false with *unknown = a when a = mu - lambda is not known to be nonzero. */
-static bool add_convolution(expr_ctx *ctx, waves *out, const expr *factor, const waves *g, const expr *lambda,
+static bool add_convolution(model *m, waves *out, const expr *factor, const waves *g, const expr *lambda,
                             const expr **unknown)
 {
+	expr_ctx *ctx = m->ctx;
 	if (expr_error(ctx))
 		return false; /* a limit: moments_compute reports it */
 	if (expr_is_zero(factor))
@@ -137,7 +174,7 @@ static bool add_convolution(expr_ctx *ctx, waves *out, const expr *factor, const
 			wave_add(ctx, out, expr_div(ctx, c, expr_int(ctx, (long)w->p + 1)), w->p + 1, lambda);
 			continue;
 		}
-		if (expr_sign(ctx, a) & EXPR_SIGN_ZERO) {
+		if (!certainly_nonzero(m, a)) {
 			*unknown = a;
 			return false;
 		}
@@ -185,18 +222,19 @@ static moments_status poly_in(model *m, const expr *e, const expr *X, unsigned l
 	return status;
 }
 
-static void solve(expr_ctx *ctx, moments *mo, const expr *X, const expr *t, const expr *const *lambda,
+static void solve(model *md, moments *mo, const expr *X, const expr *t, const expr *const *lambda,
                   const expr *const *beta, const expr *const *gamma)
 {
+	expr_ctx *ctx = md->ctx;
 	size_t K = mo->order;
 	waves *m = xcalloc(K + 1, sizeof *m);
 	wave_add(ctx, &m[0], expr_int(ctx, 1), 0, expr_int(ctx, 0));
 	bool ok = true;
 	for (size_t k = 1; k <= K && ok; k++) {
 		wave_add(ctx, &m[k], expr_pow(ctx, X, expr_int(ctx, (long)k)), 0, lambda[k]);
-		ok = add_convolution(ctx, &m[k], beta[k], &m[k - 1], lambda[k], &mo->no_solution);
+		ok = add_convolution(md, &m[k], beta[k], &m[k - 1], lambda[k], &mo->no_solution);
 		if (ok && k >= 2)
-			ok = add_convolution(ctx, &m[k], gamma[k], &m[k - 2], lambda[k], &mo->no_solution);
+			ok = add_convolution(md, &m[k], gamma[k], &m[k - 2], lambda[k], &mo->no_solution);
 	}
 	if (ok && !expr_error(ctx)) {
 		mo->solutions = xcalloc(K, sizeof *mo->solutions);
@@ -215,12 +253,14 @@ moments_status moments_compute(model *m, const model_measure *q, const expr *X, 
 	out->order = K;
 	ito_diff d;
 	ito_dynamics(m, q, X, &d);
-	const expr *square = ito_covariation(m, &d, &d);
-	const expr *a[2], *c[3];
-	moments_status status = d.dt && square ? MOMENTS_OK : MOMENTS_ENGINE;
+	/* the first moment needs only an affine drift: k(k-1)/2 = 0 for k = 1,
+	 * so the diffusion enters from m2 on */
+	const expr *square = K >= 2 ? ito_covariation(m, &d, &d) : NULL;
+	const expr *a[2], *c[3] = {expr_int(ctx, 0), expr_int(ctx, 0), expr_int(ctx, 0)};
+	moments_status status = d.dt && (square || K < 2) ? MOMENTS_OK : MOMENTS_ENGINE;
 	if (status == MOMENTS_OK)
 		status = poly_in(m, d.dt, X, 1, MOMENTS_DRIFT_DEGREE, a, &out->culprit);
-	if (status == MOMENTS_OK)
+	if (status == MOMENTS_OK && K >= 2)
 		status = poly_in(m, square, X, 2, MOMENTS_SQUARE_DEGREE, c, &out->culprit);
 	ito_diff_free(&d);
 	if (status != MOMENTS_OK)
@@ -255,7 +295,7 @@ moments_status moments_compute(model *m, const model_measure *q, const expr *X, 
 	if (timed)
 		out->no_solution = m->time;
 	else
-		solve(ctx, out, X, m->time, lambda, beta, gamma);
+		solve(m, out, X, m->time, lambda, beta, gamma);
 	free(lambda);
 	free(beta);
 	free(gamma);

@@ -25,8 +25,10 @@
 	X("sde", "dX = DRIFT*dt + DIFFUSION*dW + ...\n"                                               \
 		 "  An Ito SDE; it declares the state X.\n"                                           \
 		 "  example:  dS = mu*S*dt + sigma*S*dW\n")                                           \
-	X("let", "let NAME = EXPR\n"                                                                  \
-		 "  A named derived process.  example:  let Y = log(S)\n")                            \
+	X("let", "let NAME = EXPR  |  let NAME = EXPR under Q\n"                                     \
+		 "  A named derived process.  Queries inside EXPR (drift(P), ...) are taken\n"       \
+		 "  when it is defined, under Q if given: the name holds that value.\n"             \
+		 "  example:  let Y = log(S)\n")                                                       \
 	X("functions", "exp log sqrt sin cos tan sinh cosh tanh erf Phi phi abs\n"                     \
 		       "  Built-in functions (Phi: standard normal distribution function, phi: its\n"  \
 		       "  density; sqrt(x) is x^(1/2)).  Their names are reserved: no declaration\n"  \
@@ -73,7 +75,7 @@
 		     "  in X: the linear ODEs of m_k(t) = E[X_t^k | X_0 = X], k = 1..K (m1' = ...),\n" \
 		     "  and, when the coefficients do not depend on t, their solution in X and t\n"  \
 		     "  (m1 = ...).  Any other state is an error saying why the system does not\n"  \
-		     "  close.  example:  moments S, 2\n")                                            \
+		     "  close (K = 1 needs only the drift).  example:  moments S, 2\n")                \
 	X("sde", "sde X  |  sde X stratonovich\n"                                                   \
 		 "  The SDE of the state X in Ito form, or in Stratonovich form.\n"                  \
 		 "  example:  sde X stratonovich\n")                                                 \

@@ -522,8 +522,9 @@ static long query_noise(session *s, const ast_node *n)
 		model_entry *entry = model_lookup(&s->model, n->text);
 		if (entry && entry->kind == MODEL_NOISE) {
 			long k = model_noise_index(&s->model, entry->sym);
-			report(s, SESSION_INPUT, &n->loc, "under %s the noise %s is replaced by %s; write %s here",
-			       s->measure->name, n->text, expr_sym_name(names[k]), expr_sym_name(names[k]));
+			report(s, SESSION_INPUT, &n->loc,
+			       "under %s the noise %s is replaced by %s; write %s here", s->measure->name,
+			       n->text, expr_sym_name(names[k]), expr_sym_name(names[k]));
 			return -1;
 		}
 	}
@@ -532,7 +533,12 @@ static long query_noise(session *s, const ast_node *n)
 		unknown_name(s, &n->loc, n->text);
 		return -1;
 	}
-	report(s, SESSION_INPUT, &n->loc, "the second argument of diffusion(...) is a noise name");
+	char *list = noise_list(s, s->measure, "");
+	report(s, SESSION_INPUT, &n->loc,
+	       "the second argument of diffusion(...) is a noise name (here%s%s: %s)",
+	       s->measure ? " under " : "", s->measure ? s->measure->name : "",
+	       *list ? list : "none declared");
+	free(list);
 	return -1;
 }
 
@@ -546,8 +552,9 @@ static bool eval_query(session *s, const ast_node *n, value *out)
 	size_t most = is_qv || is_diffusion ? 2 : 1;
 	if (n->nitems > most) {
 		report(s, SESSION_INPUT, &n->loc, "%s(...) takes %s, not %zu", what,
-		       is_qv ? "one or two expressions"
-		             : is_diffusion ? "an expression and optionally a noise" : "one expression",
+		       is_qv          ? "one or two expressions"
+		       : is_diffusion ? "an expression and optionally a noise"
+		                      : "one expression",
 		       n->nitems);
 		return false;
 	}

@@ -24,18 +24,20 @@ typedef enum model_kind {
 typedef struct model_entry {
 	char *name;
 	model_kind kind;
-	const expr *sym;   /* the symbol (also for a func) */
-	const expr *value; /* MODEL_LET: the definition */
+	const expr *sym;     /* the symbol (also for a func) */
+	const expr *value;   /* MODEL_LET: the definition */
 	const expr *lo, *hi; /* declared range, or NULL */
 	bool lo_strict, hi_strict;
 	bool pending_state; /* named by assume before its SDE: not usable yet */
+	bool implicit;      /* MODEL_FUNC declared by pde V(...), not by func: a later pde
+	                     * may declare it again with other arguments while nothing uses it */
 } model_entry;
 
 /* The SDE of a state: Itô coefficients, or Stratonovich ones as declared. */
 typedef struct model_sde {
 	const expr *state;
-	const expr *drift;	   /* as declared (Stratonovich drift if stratonovich) */
-	const expr **diffusion;	   /* one per noise, indexed like model->noises */
+	const expr *drift;      /* as declared (Stratonovich drift if stratonovich) */
+	const expr **diffusion; /* one per noise, indexed like model->noises */
 	size_t ndiffusion;
 	bool stratonovich;
 } model_sde;
@@ -66,12 +68,12 @@ typedef struct model {
 	const expr *time;
 	model_entry *entries;
 	size_t nentries, capentries;
-	size_t *name_index;  /* open addressing over entries by name: entry index + 1, 0 empty */
+	size_t *name_index; /* open addressing over entries by name: entry index + 1, 0 empty */
 	size_t name_index_cap;
 	const expr **noises; /* in declaration order */
 	size_t nnoises;
-	const expr **corr;   /* nnoises x nnoises, row-major; NULL entries mean 0 */
-	model_sde *sdes;     /* in declaration order */
+	const expr **corr; /* nnoises x nnoises, row-major; NULL entries mean 0 */
+	model_sde *sdes;   /* in declaration order */
 	size_t nsdes;
 	model_measure *measures;
 	size_t nmeasures;
@@ -88,8 +90,8 @@ void model_forget(model *m, model_entry *entry);
 model_entry *model_add(model *m, const char *name, model_kind kind, const expr *sym);
 const char *model_kind_name(model_kind kind);
 
-size_t model_add_noise(model *m, const expr *sym); /* returns its index */
-long model_noise_index(const model *m, const expr *sym); /* -1 when not a noise */
+size_t model_add_noise(model *m, const expr *sym);          /* returns its index */
+long model_noise_index(const model *m, const expr *sym);    /* -1 when not a noise */
 const expr *model_corr(const model *m, size_t i, size_t j); /* 1 on the diagonal */
 void model_set_corr(model *m, size_t i, size_t j, const expr *value);
 

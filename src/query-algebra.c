@@ -31,18 +31,23 @@ bool run_forward(session *s, const ast_node *st)
 		       "forward needs t among the arguments of the density (forward %s(t, ...))", st->text);
 		return false;
 	}
+	/* the density is named for this statement only: a query declares
+	 * nothing that outlives it (forward p(t, X) then p(t, X, Y) is fine) */
+	model_snapshot before;
+	model_snapshot_take(&s->model, &before);
+	bool ok = false;
 	const expr *p = equation_unknown(s, st, "forward", NULL);
-	if (!p)
-		return false;
-	const expr *rhs = forward_rhs(&s->model, s->measure, p);
-	if (!rhs || engine_failed(s, &st->loc))
-		return false;
-	pending result;
-	result_start(s, &result, RESULT_FORWARD, st);
-	result.r.name = st->text;
-	result.r.of = diff(s->ctx, p, s->model.time);
-	result.r.value = rhs;
-	return result_emit(s, &result, st);
+	const expr *rhs = p ? forward_rhs(&s->model, s->measure, p) : NULL;
+	if (rhs && !engine_failed(s, &st->loc)) {
+		pending result;
+		result_start(s, &result, RESULT_FORWARD, st);
+		result.r.name = st->text;
+		result.r.of = diff(s->ctx, p, s->model.time);
+		result.r.value = rhs;
+		ok = result_emit(s, &result, st);
+	}
+	model_snapshot_restore(&s->model, &before);
+	return ok;
 }
 
 bool run_coefficients(session *s, const ast_node *st)
@@ -71,7 +76,8 @@ bool run_coefficients(session *s, const ast_node *st)
 	if (!polycoef_split(s->ctx, e, st->nitems, vars, &poly)) {
 		if (!poly.bad) {
 			if (!engine_failed(s, &st->loc))
-				report(s, SESSION_INPUT, &st->a->loc, "cannot write this expression as a polynomial");
+				report(s, SESSION_INPUT, &st->a->loc,
+				       "cannot write this expression as a polynomial");
 			return false;
 		}
 		char *term = text_expr(s, poly.bad);

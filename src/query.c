@@ -303,6 +303,100 @@ bool run_qv(session *s, const ast_node *st)
 	return output_scalar(s, st, RESULT_QV, a, b, rate);
 }
 
+/* Is the argument name a variable of the equation: a state (forward, pde)
+ * or a noise (pde: a function of a Brownian motion has a backward equation)? */
+static bool equation_variable(const model_entry *arg, bool noises)
+{
+	if (!arg || arg->pending_state)
+		return false;
+	return arg->kind == MODEL_STATE || (noises && arg->kind == MODEL_NOISE);
+}
+
+/* The model's states, "X, Y", for a message. New string. */
+static char *state_names(const model *m)
+{
+	xbuf names = {0};
+	for (size_t i = 0; i < m->nsdes; i++)
+		xbuf_printf(&names, "%s%s", i ? ", " : "", expr_sym_name(m->sdes[i].state));
+	return names.data ? names.data : xstrdup("");
+}
+
+/* The arguments of pde or forward are t and states (and, for pde, noises),
+ * each once, and forward names at least one state: false after a message. */
+static bool equation_arguments(session *s, const ast_node *st, const char *what)
+{
+	model *m = &s->model;
+	bool forward = strcmp(what, "forward") == 0;
+	size_t nstates = 0;
+	for (size_t i = 0; i < st->nitems; i++) {
+		const ast_node *arg = st->items[i];
+		if (arg->kind != AST_NAME) {
+			report(s, SESSION_INPUT, &arg->loc, "the arguments of %s are names (t and states)",
+			       what);
+			return false;
+		}
+		for (size_t j = 0; j < i; j++)
+			if (strcmp(st->items[j]->text, arg->text) == 0) {
+				report(s, SESSION_INPUT, &arg->loc, "argument '%s' is repeated", arg->text);
+				return false;
+			}
+		if (strcmp(arg->text, "t") == 0)
+			continue;
+		model_entry *entry = model_lookup(m, arg->text);
+		if (!entry) {
+			unknown_name(s, &arg->loc, arg->text);
+			return false;
+		}
+		if (!equation_variable(entry, !forward)) {
+			char *states = state_names(m);
+			report(s, SESSION_INPUT, &arg->loc,
+			       "'%s' is a %s, not a state: the arguments of %s %s(...) are t and %s (the "
+			       "model's states: %s)",
+			       arg->text,
+			       entry->pending_state ? "state without its SDE yet"
+			                            : model_kind_name(entry->kind),
+			       what, st->text,
+			       forward ? "the states whose density it is" : "states or noises",
+			       *states ? states : "none");
+			free(states);
+			return false;
+		}
+		nstates += entry->kind == MODEL_STATE;
+	}
+	if (forward && nstates == 0) {
+		char *states = state_names(m);
+		xbuf call = {0};
+		for (size_t i = 0; i < st->nitems; i++)
+			xbuf_printf(&call, "%s%s", i ? ", " : "", st->items[i]->text);
+		report(s, SESSION_INPUT, &st->loc,
+		       "forward %s(%s) names no state: list t and the states whose density %s is "
+		       "(the model's states: %s)",
+		       st->text, call.data, st->text, *states ? states : "none");
+		xbuf_free(&call);
+		free(states);
+		return false;
+	}
+	return true;
+}
+
+/* An unknown function declared by an earlier pde with other arguments, and
+ * used by nothing, is declared again (a query does not fix a name's arity
+ * for the rest of the session). */
+static bool redeclarable(session *s, model_entry *entry, size_t nargs, ast_node *const *args)
+{
+	if (!entry->implicit)
+		return false;
+	bool same = expr_func_arity(entry->sym) == nargs;
+	for (size_t i = 0; same && i < nargs; i++)
+		same = strcmp(expr_func_arg_name(entry->sym, i), args[i]->text) == 0;
+	if (same)
+		return false;
+	size_t count;
+	char *users = declaration_users(s, entry, &count);
+	free(users);
+	return count == 0;
+}
+
 /* Its arguments are t and declared names, and the equation must close in
  * them (ito_unclosed). */
 const expr *equation_unknown(session *s, const ast_node *st, const char *what, const expr *discount)
@@ -314,17 +408,11 @@ const expr *equation_unknown(session *s, const ast_node *st, const char *what, c
 		       model_kind_name(entry->kind), what);
 		return NULL;
 	}
+	if (!equation_arguments(s, st, what))
+		return NULL;
 	const expr *args[EXPR_MAX_FUNC_ARGS];
 	for (size_t i = 0; i < st->nitems; i++) {
 		const ast_node *arg = st->items[i];
-		if (arg->kind != AST_NAME) {
-			report(s, SESSION_INPUT, &arg->loc, "the arguments of %s are names (t and states)", what);
-			return NULL;
-		}
-		if (strcmp(arg->text, "t") != 0 && !model_lookup(m, arg->text)) {
-			unknown_name(s, &arg->loc, arg->text);
-			return NULL;
-		}
 		if (i >= EXPR_MAX_FUNC_ARGS) {
 			report(s, SESSION_INPUT, &arg->loc, "a function takes at most %d arguments",
 			       EXPR_MAX_FUNC_ARGS);
@@ -335,7 +423,8 @@ const expr *equation_unknown(session *s, const ast_node *st, const char *what, c
 			return NULL;
 		if (v.is_diff) {
 			value_free(&v);
-			report(s, SESSION_INPUT, &arg->loc, "the arguments of %s are names (t and states)", what);
+			report(s, SESSION_INPUT, &arg->loc, "the arguments of %s are names (t and states)",
+			       what);
 			return NULL;
 		}
 		args[i] = v.e;
@@ -347,8 +436,8 @@ const expr *equation_unknown(session *s, const ast_node *st, const char *what, c
 		xbuf call = {0};
 		for (size_t i = 0; i < st->nitems; i++)
 			xbuf_printf(&call, "%s%s", i ? ", " : "", st->items[i]->text);
-		char *because = driven ? xasprintf("the SDE of %s", expr_sym_name(driven))
-		                       : xstrdup("the discount");
+		char *because =
+		        driven ? xasprintf("the SDE of %s", expr_sym_name(driven)) : xstrdup("the discount");
 		report(s, SESSION_INPUT, &st->loc,
 		       "%s %s(%s) does not close: %s depends on the %s %s, which is not an argument of "
 		       "%s; write %s(%s, %s)",
@@ -358,13 +447,35 @@ const expr *equation_unknown(session *s, const ast_node *st, const char *what, c
 		xbuf_free(&call);
 		return NULL;
 	}
+	if (entry && redeclarable(s, entry, st->nitems, st->items)) {
+		const expr *sym = entry->sym;
+		model_forget(m, entry);
+		expr_func_declare(s->ctx, sym, 0, NULL);
+		entry = NULL;
+	}
 	if (!entry) {
 		if (!declare_function(s, &st->loc, st->text, st->nitems, st->items))
 			return NULL;
 		entry = model_lookup(m, st->text);
+		entry->implicit = true;
 	} else if (expr_func_arity(entry->sym) != st->nitems) {
-		report(s, SESSION_INPUT, &st->loc, "%s was declared with %zu arguments", st->text,
-		       expr_func_arity(entry->sym));
+		xbuf declared = {0};
+		for (size_t i = 0; i < expr_func_arity(entry->sym); i++)
+			xbuf_printf(&declared, "%s%s", i ? ", " : "", expr_func_arg_name(entry->sym, i));
+		size_t count = 0;
+		char *users = entry->implicit ? declaration_users(s, entry, &count) : NULL;
+		char *because = users ? xasprintf(" (by an earlier pde; %s %s it)", users,
+		                                  count == 1 ? "uses" : "use")
+		                      : xstrdup("");
+		report(s, SESSION_INPUT, &st->loc,
+		       "%s was declared as %s(%s)%s, with %zu argument%s; %s needs a new name for a "
+		       "function of %zu argument%s",
+		       st->text, st->text, declared.data ? declared.data : "", because,
+		       expr_func_arity(entry->sym), expr_func_arity(entry->sym) == 1 ? "" : "s", what,
+		       st->nitems, st->nitems == 1 ? "" : "s");
+		free(users);
+		free(because);
+		xbuf_free(&declared);
 		return NULL;
 	}
 	return expr_fapp(s->ctx, entry->sym, NULL, args);
@@ -630,24 +741,26 @@ static bool lower_concretes(session *s, const ast_node *list, check_concrete *ou
 			return false;
 		size_t arity = expr_func_arity(entry->sym);
 		if (c->nitems != arity) {
-			report(s, SESSION_INPUT, &c->loc, "'%s' takes %zu argument%s, not %zu", c->text, arity,
-			       arity == 1 ? "" : "s", c->nitems);
+			report(s, SESSION_INPUT, &c->loc, "'%s' takes %zu argument%s, not %zu", c->text,
+			       arity, arity == 1 ? "" : "s", c->nitems);
 			return false;
 		}
 		for (size_t k = 0; k < i; k++)
 			if (out[k].func == entry->sym) {
-				report(s, SESSION_INPUT, &c->loc, "'%s' is given two concrete forms", c->text);
+				report(s, SESSION_INPUT, &c->loc, "'%s' is given two concrete forms",
+				       c->text);
 				return false;
 			}
 		out[i] = (check_concrete){.func = entry->sym, .nargs = arity, .formals = formals + used};
 		for (size_t j = 0; j < arity; j++) {
-			const expr *sym = variable_symbol(s, c->items[j], "cannot use", " as an argument here");
+			const expr *sym =
+			        variable_symbol(s, c->items[j], "cannot use", " as an argument here");
 			if (!sym)
 				return false;
 			for (size_t k = 0; k < j; k++)
 				if (formals[used + k] == sym) {
-					report(s, SESSION_INPUT, &c->items[j]->loc, "the argument '%s' is repeated",
-					       c->items[j]->text);
+					report(s, SESSION_INPUT, &c->items[j]->loc,
+					       "the argument '%s' is repeated", c->items[j]->text);
 					return false;
 				}
 			formals[used + j] = sym;

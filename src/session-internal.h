@@ -117,6 +117,9 @@ bool differential_failed(session *s, ito_diff *d, const ast_loc *loc);
 const char *suggest(session *s, const char *name);
 /* Report an unknown name, with a suggestion when one is close. */
 void unknown_name(session *s, const ast_loc *loc, const char *name);
+/* The noises under the measure q (NULL: the model's), each with prefix ("d"
+ * or ""): "dW, dB".  New string. */
+char *noise_list(const session *s, const model_measure *q, const char *prefix);
 /* Report a name that a declaration uses before it is declared: a
  * suggestion when one is close, else how to declare it. */
 void undeclared_name(session *s, const ast_loc *loc, const char *name);

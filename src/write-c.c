@@ -18,7 +18,8 @@
 typedef struct c_state {
 	char **functions; /* names given so far */
 	size_t nfunctions;
-	char **declared; /* generic partials declared so far */
+	char **declared; /* generic functions and partials declared so far */
+	size_t *declared_nargs;
 	size_t ndeclared;
 } c_state;
 
@@ -202,6 +203,27 @@ static bool is_model_name(const writer *w, const char *name)
 	return strcmp(name, "t") == 0;
 }
 
+/* Could name be a partial of a generic function f (f_t, f_xS), declared by a
+ * later result?  Such names are left to the partials. */
+static bool generic_prefix(const writer *w, const char *name)
+{
+	const model *m = w->model;
+	const c_state *st = w->state;
+	for (size_t i = 0; i < m->nentries; i++) {
+		const model_entry *e = &m->entries[i];
+		size_t n = strlen(e->name);
+		if (e->kind == MODEL_FUNC && strncmp(name, e->name, n) == 0 && name[n] == '_')
+			return true;
+	}
+	for (size_t i = 0; i < st->ndeclared; i++) {
+		const char *root = st->declared[i];
+		size_t n = strcspn(root, "_");
+		if (strncmp(name, root, n) == 0 && (name[n] == '_' || name[n] == '\0'))
+			return true;
+	}
+	return false;
+}
+
 /* d log(S) under Q -> d_log_S_under_Q, unique in the unit and free in C. */
 static char *function_name(writer *w, const stmt_result *r)
 {
@@ -223,7 +245,8 @@ static char *function_name(writer *w, const stmt_result *r)
 		xbuf_printf(&buf, "_under_%s", r->measure);
 	char *base = buf.length ? xbuf_take(&buf) : xstrdup("result");
 	xbuf_free(&buf);
-	if (isdigit((unsigned char)base[0]) || is_reserved(base) || is_model_name(w, base)) {
+	if (isdigit((unsigned char)base[0]) || is_reserved(base) || is_model_name(w, base) ||
+	    generic_prefix(w, base)) {
 		char *prefixed = xasprintf("result_%s", base);
 		free(base);
 		base = prefixed;
@@ -331,6 +354,38 @@ static void arguments(writer *w, xbuf *out)
 			xbuf_printf(out, ", double %s", m->entries[i].name);
 }
 
+/* Can the calls be declared in this unit: each name with one arity, and none
+ * the name of a function argument (a parameter A_t would hide the partial
+ * A_t of A(t))?  Else false with *error set. */
+static bool calls_fit(writer *w, const prn_c_calls *calls, char **error)
+{
+	c_state *st = w->state;
+	for (size_t i = 0; i < calls->n; i++) {
+		const char *name = calls->names[i];
+		for (size_t j = 0; j < st->ndeclared; j++)
+			if (strcmp(st->declared[j], name) == 0 && st->declared_nargs[j] != calls->nargs[i]) {
+				*error = xasprintf(
+				        "the C output declares each function once, and %s is called with %zu "
+				        "arguments here and %zu before; give the unknown function of this "
+				        "statement another name",
+				        name, calls->nargs[i], st->declared_nargs[j]);
+				return false;
+			}
+		if (is_model_name(w, name)) {
+			model_entry *e = model_lookup((model *)w->model, name);
+			if (!e || e->kind != MODEL_FUNC) {
+				*error = xasprintf(
+				        "the name '%s' is both an argument of the C functions and a "
+				        "generic function or partial derivative they call; declare it under "
+				        "another name (such as '%s_')",
+				        name, name);
+				return false;
+			}
+		}
+	}
+	return true;
+}
+
 static void declare_calls(writer *w, const prn_c_calls *calls, xbuf *out)
 {
 	c_state *st = w->state;
@@ -343,8 +398,15 @@ static void declare_calls(writer *w, const prn_c_calls *calls, xbuf *out)
 		xbuf_printf(out, "double %s(", calls->names[i]);
 		for (size_t k = 0; k < calls->nargs[i]; k++)
 			xbuf_put(out, k ? ", double" : "double");
-		xbuf_put(out, "); /* a generic partial derivative: supplied by the library */\n");
+		model_entry *e = model_lookup((model *)w->model, calls->names[i]);
+		xbuf_put(out, e && e->kind == MODEL_FUNC
+		                      ? "); /* a generic function: the caller supplies it */\n"
+		                      : "); /* a partial derivative of a generic function: the caller "
+		                        "supplies it */\n");
 		st->declared = xreallocarray(st->declared, st->ndeclared + 1, sizeof *st->declared);
+		st->declared_nargs =
+		        xreallocarray(st->declared_nargs, st->ndeclared + 1, sizeof *st->declared_nargs);
+		st->declared_nargs[st->ndeclared] = calls->nargs[i];
 		st->declared[st->ndeclared++] = xstrdup(calls->names[i]);
 	}
 }
@@ -365,9 +427,10 @@ static char *row_names(writer *w, const stmt_result *r)
 	xbuf buf = {0};
 	xbuf_put(&buf, " (");
 	for (size_t i = 0; i < r->nrows; i++) {
-		char *label = r->kind == RESULT_COEFFICIENTS ? prn_expr(w->ctx, r->labels[i], PRN_TEXT)
-		              : r->nvars ? xasprintf("%s'", expr_sym_name(r->vars[i]))
-		                         : xasprintf("E[%s_t^%zu | %s_0 = %s]", r->name, i + 1, r->name, r->name);
+		char *label =
+		        r->kind == RESULT_COEFFICIENTS ? prn_expr(w->ctx, r->labels[i], PRN_TEXT)
+		        : r->nvars                     ? xasprintf("%s'", expr_sym_name(r->vars[i]))
+		                   : xasprintf("E[%s_t^%zu | %s_0 = %s]", r->name, i + 1, r->name, r->name);
 		xbuf_printf(&buf, "%sout[%zu]: %s", i ? ", " : "", i, label);
 		free(label);
 	}
@@ -375,7 +438,7 @@ static char *row_names(writer *w, const stmt_result *r)
 	return xbuf_take(&buf);
 }
 
-static void function(writer *w, const stmt_result *r, xbuf *out)
+static bool function(writer *w, const stmt_result *r, xbuf *out, char **error)
 {
 	c_body b = {0};
 	bool *used = NULL;
@@ -406,15 +469,22 @@ static void function(writer *w, const stmt_result *r, xbuf *out)
 		xbuf_printf(&b.code, "\treturn %s;\n", text);
 		free(text);
 	}
+	if (!calls_fit(w, &b.calls, error)) {
+		xbuf_free(&b.code);
+		prn_c_calls_free(&b.calls);
+		free(used);
+		free(name);
+		return false;
+	}
 	xbuf locals = {0};
 	let_locals(w, &b, &locals);
 	declare_calls(w, &b.calls, out);
 	char *place = result_place(r);
 	char *rows = has_rows(r) ? row_names(w, r) : xstrdup("");
 	char *title = xasprintf("%s: %s%s%s%s%s", place, r->statement ? r->statement : "",
-	                        r->kind == RESULT_PDE ? " (left side of = 0)"
+	                        r->kind == RESULT_PDE       ? " (left side of = 0)"
 	                        : r->kind == RESULT_FORWARD ? " (right side of the time derivative)"
-	                                                     : "",
+	                                                    : "",
 	                        r->measure ? " under " : "", r->measure ? r->measure : "", rows);
 	comment(out, title);
 	free(title);
@@ -438,6 +508,7 @@ static void function(writer *w, const stmt_result *r, xbuf *out)
 	prn_c_calls_free(&b.calls);
 	free(used);
 	free(name);
+	return true;
 }
 
 static bool c_write(writer *w, const stmt_result *r, char **error)
@@ -454,6 +525,7 @@ static bool c_write(writer *w, const stmt_result *r, char **error)
 		         " * *drift and one *diffusion_NOISE per noise.  It needs only <math.h>. */\n"
 		         "#include <math.h>\n\n");
 	char *place = result_place(r);
+	bool ok = true;
 	switch (r->kind) {
 	case RESULT_CLAIM: {
 		char *detail = writer_claim_detail(r, w->ctx);
@@ -482,8 +554,8 @@ static bool c_write(writer *w, const stmt_result *r, char **error)
 		break;
 	}
 	case RESULT_MOMENTS:
-		function(w, r, &buf);
-		if (r->solutions) {
+		ok = function(w, r, &buf, error);
+		if (ok && r->solutions) {
 			/* the solution: a second function without the unknowns m_k */
 			stmt_result solution = *r;
 			char *statement = xasprintf("%s solution", r->statement ? r->statement : "moments");
@@ -491,25 +563,55 @@ static bool c_write(writer *w, const stmt_result *r, char **error)
 			solution.values = r->solutions;
 			solution.nvars = 0;
 			xbuf_putc(&buf, '\n');
-			function(w, &solution, &buf);
+			ok = function(w, &solution, &buf, error);
 			free(statement);
-		} else {
+		} else if (ok) {
 			char *why = writer_no_solution(r, w->ctx);
 			comment(&buf, why);
 			free(why);
 		}
 		break;
 	default:
-		function(w, r, &buf);
+		ok = function(w, r, &buf, error);
 		break;
 	}
 	free(place);
+	if (!ok) {
+		xbuf_free(&buf);
+		return false;
+	}
 	/* one blank line between results */
 	fputs(buf.data, w->out);
 	fputc('\n', w->out);
 	fflush(w->out);
 	xbuf_free(&buf);
 	return true;
+}
+
+/* The end of the unit: what the library must define for it to link. */
+static void c_finish(writer *w)
+{
+	c_state *st = w->state;
+	if (!st || !st->ndeclared)
+		return;
+	xbuf buf = {0};
+	xbuf_put(&buf, "/* The caller supplies these functions (generic functions of the model and their\n"
+	               " * partial derivatives, each a double function of doubles in the argument order\n"
+	               " * declared above):");
+	size_t column = 19;
+	for (size_t i = 0; i < st->ndeclared; i++) {
+		size_t width = strlen(st->declared[i]) + 2;
+		if (column + width > 88) {
+			xbuf_put(&buf, "\n *");
+			column = 2;
+		}
+		xbuf_printf(&buf, " %s%s", st->declared[i], i + 1 < st->ndeclared ? "," : ".");
+		column += width;
+	}
+	xbuf_put(&buf, " */\n");
+	fputs(buf.data, w->out);
+	fflush(w->out);
+	xbuf_free(&buf);
 }
 
 static void c_free(writer *w)
@@ -523,8 +625,9 @@ static void c_free(writer *w)
 		free(st->declared[i]);
 	free(st->functions);
 	free(st->declared);
+	free(st->declared_nargs);
 	free(st);
 	w->state = NULL;
 }
 
-const writer_class writer_c = {.name = "c", .write = c_write, .free_state = c_free};
+const writer_class writer_c = {.name = "c", .write = c_write, .finish = c_finish, .free_state = c_free};

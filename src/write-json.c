@@ -388,9 +388,13 @@ static void object(writer *w, const stmt_result *r, xbuf *buf)
 		moments_fields(buf, r, ctx);
 		break;
 	case RESULT_CLAIM:
+		if (r->measure)
+			field(buf, "measure", r->measure);
 		claim_fields(buf, r, ctx);
 		break;
 	case RESULT_CHECK:
+		if (r->measure)
+			field(buf, "measure", r->measure);
 		check_fields(buf, r, ctx);
 		break;
 	case RESULT_MODEL:

@@ -51,6 +51,18 @@ static void rows(writer *w, const stmt_result *r, xbuf *buf)
 	free(none);
 }
 
+/* A result under a measure whose text does not show it (no renamed noise)
+ * says so in a comment at the end of its first line: "... # under Q". */
+static void note_measure(const stmt_result *r, xbuf *buf)
+{
+	const char *end = strchr(buf->data, '\n');
+	size_t first = end ? (size_t)(end - buf->data) : buf->length;
+	xbuf out = {0};
+	xbuf_printf(&out, "%.*s  # under %s%s", (int)first, buf->data, r->measure, buf->data + first);
+	xbuf_free(buf);
+	*buf = out;
+}
+
 static bool text_write(writer *w, const stmt_result *r, char **error)
 {
 	(void)error;
@@ -133,6 +145,8 @@ static bool text_write(writer *w, const stmt_result *r, char **error)
 		check_lines(w, r, &buf);
 		break;
 	}
+	if (r->measure && !writer_shows_measure(w, r) && buf.data)
+		note_measure(r, &buf);
 	writer_line(w, buf.data ? buf.data : "");
 	xbuf_free(&buf);
 	return true;

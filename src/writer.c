@@ -19,7 +19,8 @@ bool writer_write(writer *w, const stmt_result *r, char **error)
 {
 	*error = NULL;
 	bool ok = w->cls->write(w, r, error);
-	w->started = true;
+	if (ok)
+		w->started = true; /* a refused result wrote nothing */
 	return ok;
 }
 
@@ -53,6 +54,19 @@ char *writer_expr(const stmt_result *r, expr_ctx *ctx, const expr *e, prn_format
 char *writer_diff(const stmt_result *r, expr_ctx *ctx, prn_format format)
 {
 	return prn_differential(ctx, &r->diff, format, r->abbrev);
+}
+
+bool writer_shows_measure(const writer *w, const stmt_result *r)
+{
+	if (!r->measure || !w->model)
+		return false;
+	if (r->kind != RESULT_DIFFERENTIAL && r->kind != RESULT_DIFFUSION && r->kind != RESULT_SDE)
+		return false;
+	for (size_t k = 0; k < r->diff.n && k < w->model->nnoises; k++)
+		if (r->diff.dw && r->diff.dw[k] && !expr_is_zero(r->diff.dw[k]) && r->diff.noises &&
+		    r->diff.noises[k] != w->model->noises[k])
+			return true;
+	return false;
 }
 
 char *result_place(const stmt_result *r)
@@ -193,7 +207,10 @@ char *writer_no_solution(const stmt_result *r, expr_ctx *ctx)
 {
 	if (r->kind != RESULT_MOMENTS || r->solutions)
 		return NULL;
-	if (!r->no_solution || expr_kind_of(r->no_solution) == EXPR_SYM)
+	/* the time symbol: the coefficients move with t; any other expression
+	 * (kappa too) is a rate difference not known to be nonzero */
+	if (!r->no_solution ||
+	    (expr_kind_of(r->no_solution) == EXPR_SYM && strcmp(expr_sym_name(r->no_solution), "t") == 0))
 		return xstrdup("no closed form: the coefficients depend on t");
 	char *needed = prn_expr(ctx, r->no_solution, PRN_TEXT);
 	char *text = xasprintf("no closed form: it needs %s != 0, which the assumptions do not give", needed);

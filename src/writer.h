@@ -69,6 +69,11 @@ char *writer_no_solution(const stmt_result *r, expr_ctx *ctx);
 /* A forward equation as the left side of = 0, p_t first: "p_t - mu*p_x - ...". */
 char *writer_forward_equation(const stmt_result *r, expr_ctx *ctx);
 
+/* Does the result name the measure it was computed under by itself: a
+ * differential, diffusion or SDE that prints a noise the measure renamed
+ * (dZ under Q: dW = dZ - lambda*dt)?  False under the model's own measure. */
+bool writer_shows_measure(const writer *w, const stmt_result *r);
+
 /* The left side of a differential: "d(log(S))", "dS", "\\mathrm{d}\\log S_{t}". */
 char *writer_diff_label(expr_ctx *ctx, const expr *of, prn_format format);
 

@@ -374,11 +374,11 @@ START_TEST(test_under)
 		free(got);
 	}
 	PARSES("d 1/S under Q", "(S_UNDER Q (S_D (DIV (NUM 1) (NAME S))))");
-	/* declarations take no measure */
+	/* declarations take no measure, except let, whose queries it applies to */
 	PARSES("dS = mu*dt under Q",
 	       "ERROR 1:12: unexpected 'under'; expected an operator, '(' or end of statement");
-	PARSES("let Y = 2 under Q",
-	       "ERROR 1:11: unexpected 'under'; expected an operator or end of statement");
+	PARSES("let Y = 2 under Q", "(S_UNDER Q (S_LET Y (NUM 2)))");
+	PARSES("func f(t) under Q", "ERROR 1:11: unexpected 'under'; expected end of statement");
 }
 END_TEST
 

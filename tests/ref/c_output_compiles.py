@@ -36,13 +36,28 @@ dS = mu*S*dt + sqrt(v)*S*dW
 dv = kappa*(theta - v)*dt + xi*sqrt(v)*dB
 dS1 = mu*S1*dt + sigma1*S1*dW
 dS2 = r*S2*dt + sigma2*S2*dB
+func F(t)
+func G(t, v)
 """
 QUERIES = [
     "d log(S)", "d sqrt(v)", "d S1/S2", "d S^(3/2)*exp(-r*t)", "drift Phi(log(S/K)/sqrt(v))",
     "generator S^2*v", "qv log(S), v", "d(S)*d(v)", "diffusion log(S1*S2)",
     "d log(S + K)*abs(K - 1)", "d erf(v) + tanh(S)", "d v^(-1/3)", "partial(phi(log(S))/v, S, v)",
     "coefficients kappa*(v + S)^2 + S*v^3/theta in v", "moments v, 2",
+    # generic functions: the unit declares them and their partials for the
+    # caller, who supplies GENERIC below; the text names them without arguments
+    "F(t)*S", "d F(t)*G(t, v)", "generator F(t)*exp(-G(t, v)*S)", "forward p(t, v)",
 ]
+# Concrete generic functions for the driver (C) and the same values for the
+# text (SymPy at POINT): F(t) = exp(3/10 t), G(t, v) = t v^2 + v,
+# p(t, v) = (1 + t) exp(-v); each partial by hand.
+GENERIC = {
+    "F": ("exp(0.3*a0)", "exp(3*t/10)"), "F_t": ("0.3*exp(0.3*a0)", "3*exp(3*t/10)/10"),
+    "G": ("a0*a1*a1 + a1", "t*v**2 + v"), "G_t": ("a1*a1", "v**2"),
+    "G_v": ("2*a0*a1 + 1", "2*t*v + 1"), "G_vv": ("2*a0", "2*t"),
+    "p": ("(1 + a0)*exp(-a1)", "(1 + t)*exp(-v)"), "p_v": ("-(1 + a0)*exp(-a1)", "-(1 + t)*exp(-v)"),
+    "p_vv": ("(1 + a0)*exp(-a1)", "(1 + t)*exp(-v)"),
+}
 POINT = {"mu": 0.07, "kappa": 1.3, "theta": 0.04, "xi": 0.5, "r": 0.02, "K": 95.0,
          "sigma1": 0.25, "sigma2": 0.15, "rho": -0.6, "S": 101.5, "v": 0.035,
          "S1": 12.0, "S2": 7.5, "t": 0.25, "W": 0.3, "B": -0.2, "m1": 0.03, "m2": 0.002}
@@ -63,6 +78,8 @@ def sympy_value(text):
                   "phi": lambda x: sympy.exp(-x ** 2 / 2) / sympy.sqrt(2 * sympy.pi),
                   "abs": sympy.Abs, "erf": sympy.erf, "tanh": sympy.tanh,
                   "log": sympy.log, "exp": sympy.exp, "sqrt": sympy.sqrt})
+    names.update({g: sympy.sympify(v[1], locals={n: names[n] for n in ("t", "v")})
+                  for g, v in GENERIC.items()})
     e = sympy.sympify(text.replace("^", "**"), locals=names)
     return float(e.subs({names[k]: v for k, v in POINT.items()}).evalf(30))
 
@@ -111,6 +128,8 @@ def main():
             texts["diffusion_" + k] = obj.get("diffusion", {}).get(k, "0")
         if "value" in obj:
             texts["value"] = obj["value"]
+        if "rhs" in obj:  # forward: the C function returns the right side of p_t = ...
+            texts["value"] = obj["rhs"]
         program.append("  {")
         if rows is not None:
             program.append("    double out[%d];" % len(rows))
@@ -129,7 +148,27 @@ def main():
             program.append(f'    printf("%.17g\\n", {name});')
             expected.append((queries[i], name, sympy_value(texts[name])))
         program.append("  }")
-    source = ("#include <stdio.h>\n" + c_text + "\nint main(void)\n{\n" +
+    # every generic function or partial the unit declares is one the caller
+    # supplies: the closing comment lists it, and the driver defines it
+    declared = re.findall(r"^double (\w+)\(((?:double(?:, )?)*)\); /\* (.*) \*/$", c_text, flags=re.M)
+    closing = re.search(r"The caller supplies these functions[^:]*:(.*?)\*/", c_text, flags=re.S)
+    listed = set(re.findall(r"\w+", closing.group(1))) if closing else set()
+    definitions = []
+    for gname, gparams, note in declared:
+        if "the caller supplies it" not in note or gname not in listed:
+            print("FAIL %s: declared without saying the caller supplies it (%r)" % (gname, note))
+            return 1
+        if gname not in GENERIC:
+            print("FAIL %s: no concrete definition in the test" % gname)
+            return 1
+        count = gparams.count("double")
+        args = ", ".join("double a%d" % k for k in range(count))
+        definitions.append("double %s(%s) { return %s; }" % (gname, args, GENERIC[gname][0]))
+    if not {"F", "F_t", "G", "G_v", "p", "p_v"} <= {g for g, _, _ in declared}:
+        print("FAIL: the generic functions were not all declared: %s" % [g for g, _, _ in declared])
+        return 1
+    source = ("#include <stdio.h>\n" + c_text + "\n" + "\n".join(definitions) +
+              "\nint main(void)\n{\n" +
               "\n".join(program) + "\n  return 0;\n}\n")
     with tempfile.TemporaryDirectory() as d:
         path = os.path.join(d, "coefficients.c")

@@ -75,6 +75,11 @@ FORWARD = [
 	  "dS = mu*S*dt + sqrt(v)*S*dW", "assume S > 0, v > 0"],
 	 [S, v], {S: mu * S, v: kappa * (theta - v)},
 	 {(S, S): v * S**2, (v, v): eta**2 * v, (S, v): rho * eta * v * S, (v, S): rho * eta * v * S}),
+	("OU and its integral, one noise",
+	 ["param kappa, theta, s > 0", "noise W", "dx = kappa*(theta - x)*dt + s*dW",
+	  "dy = x*dt + s*dW"],
+	 [x, y], {x: kappa * (theta - x), y: x},
+	 {(x, x): s**2, (y, y): s**2, (x, y): s**2, (y, x): s**2}),
 	("geometric Brownian motion under a measure",
 	 ["param mu, sigma, lam > 0", "noise W", "dS = mu*S*dt + sigma*S*dW", "assume S > 0",
 	  "measure Q: dW = dZ - (mu - lam)/sigma*dt"],
@@ -108,6 +113,28 @@ MOMENTS = [
 	 kappa * (theta - X), s**2,
 	 theta + (X - theta) * exp(-kappa * t), s**2 / (2 * kappa) * (1 - exp(-2 * kappa * t))),
 	("square root", ["param kappa, theta, eta > 0", "noise W",
+	                 "dX = kappa*(theta - X)*dt + eta*sqrt(X)*dW", "assume X > 0"],
+	 kappa * (theta - X), eta**2 * X,
+	 theta + (X - theta) * exp(-kappa * t),
+	 X * eta**2 / kappa * (exp(-kappa * t) - exp(-2 * kappa * t))
+	 + theta * eta**2 / (2 * kappa) * (1 - exp(-kappa * t))**2),
+	# the same process with kappa's sign left to the assumptions: the closed
+	# form needs kappa != 0, which the Feller condition 2*kappa*theta > eta^2
+	# implies (kappa = 0 would make it -eta^2 > 0), as does a range or kappa - 1 > 0
+	("square root, Feller condition only", ["param kappa, theta, eta", "noise W",
+	                 "assume 2*kappa*theta > eta^2",
+	                 "dX = kappa*(theta - X)*dt + eta*sqrt(X)*dW", "assume X > 0"],
+	 kappa * (theta - X), eta**2 * X,
+	 theta + (X - theta) * exp(-kappa * t),
+	 X * eta**2 / kappa * (exp(-kappa * t) - exp(-2 * kappa * t))
+	 + theta * eta**2 / (2 * kappa) * (1 - exp(-kappa * t))**2),
+	("square root, kappa ranged", ["param kappa in [1/2, 2]", "param theta, eta", "noise W",
+	                 "dX = kappa*(theta - X)*dt + eta*sqrt(X)*dW", "assume X > 0"],
+	 kappa * (theta - X), eta**2 * X,
+	 theta + (X - theta) * exp(-kappa * t),
+	 X * eta**2 / kappa * (exp(-kappa * t) - exp(-2 * kappa * t))
+	 + theta * eta**2 / (2 * kappa) * (1 - exp(-kappa * t))**2),
+	("square root, kappa - 1 > 0", ["param kappa, theta, eta", "noise W", "assume kappa - 1 > 0",
 	                 "dX = kappa*(theta - X)*dt + eta*sqrt(X)*dW", "assume X > 0"],
 	 kappa * (theta - X), eta**2 * X,
 	 theta + (X - theta) * exp(-kappa * t),
@@ -153,5 +180,23 @@ for label, prelude, drift, square, mean, variance in MOMENTS:
 	if mean is not None:
 		tally.record(label + ": mean (published)", same(sols[0], mean, domain))
 		tally.record(label + ": variance (published)", same(sols[1] - sols[0]**2, variance, domain))
+
+# The first moment needs only an affine drift: with a bounded, non-polynomial
+# diffusion the mean is still the Ornstein-Uhlenbeck one (Karatzas and Shreve,
+# 5.6; from memory), and the second moment is refused.
+prelude = ["param kappa, theta, s > 0", "noise W", "dX = kappa*(theta - X)*dt + s*cos(X)*dW"]
+obj = run_itox(prelude, ["moments X, 1"])[0]
+if obj.get("kind") != "moments":
+	tally.fail("first moment, cos diffusion", "itox: %s" % obj.get("message"))
+else:
+	m1 = sympy.Symbol("m1", real=True)
+	parser = Parser(dict(syms, m1=m1))
+	tally.record("first moment, cos diffusion: m1'",
+	             same(parser.parse(obj["equations"]["1"]), kappa * (theta - m1), domain))
+	tally.record("first moment, cos diffusion: mean (published)",
+	             same(parser.parse(obj["solution"]["1"]), theta + (X - theta) * exp(-kappa * t), domain))
+obj = run_itox(prelude, ["moments X, 2"])[0]
+tally.record("second moment, cos diffusion: refused",
+             None if obj.get("kind") == "error" else "itox answered %s" % obj)
 
 tally.finish()

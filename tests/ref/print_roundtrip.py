@@ -1247,7 +1247,7 @@ def verify_items(args):
 	checker = CHECKERS[which][0]
 	names = set(SYM) | set(NOISES) | {"WQ"}
 	timed = set(STATES) | set(NOISES) | {"WQ"}
-	passed = {"text": 0, "text-sympy": 0, "json": 0, "latex": 0, "latex-exponent": 0}
+	passed = {"text": 0, "text-sympy": 0, "json": 0, "latex": 0, "latex-exponent": 0, "latex-measure": 0}
 	failures = []
 	samples = {}
 	for idx in range(lo, hi):
@@ -1263,6 +1263,10 @@ def verify_items(args):
 			continue
 		samples[idx] = pts
 		line = checker.outputs["text"][idx]
+		# a result under Q whose text shows none of Q's renamed noises says so
+		# in a trailing comment, and LaTeX names the measure after the equation
+		if line.endswith("  # under Q"):
+			line = line[:-len("  # under Q")]
 		try:
 			got, rhs = text_components(item, line)
 			if check_values(item, pts, got, "text", line, failures):
@@ -1284,6 +1288,16 @@ def verify_items(args):
 		except Exception as exc:  # noqa: BLE001
 			failures.append((item, "json", "cannot read: %s" % exc, raw))
 		tex = checker.outputs["latex"][idx]
+		note = " \\qquad \\text{(under $Q$)}"
+		if item.measure == "Q":
+			if tex.endswith(note):
+				tex = tex[:-len(note)]
+				passed["latex-measure"] += 1
+			else:
+				failures.append((item, "latex", "the measure Q is not named", tex))
+		# a long result is broken into aligned lines: read it as one line
+		tex = re.sub(r"\\begin\{aligned\}|\\end\{aligned\}|\\\\|&|\\quad\b", " ", tex)
+		tex = re.sub(r" +", " ", tex).strip()
 		bad = latex_exponent_fracs(tex)
 		if bad:
 			failures.append((item, "latex", "a fraction stacked in an exponent: %s" % bad[0], tex))
