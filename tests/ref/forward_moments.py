@@ -107,6 +107,11 @@ for label, prelude, states, drift, cov, in FORWARD:
 # ------------------------------------------------------------------ moments
 
 X = sympy.Symbol("X", real=True, positive=True)
+# mean and variance of the square-root process dX = kappa*(theta - X)*dt +
+# eta*sqrt(X)*dW given X_0 = X (Cox, Ingersoll and Ross 1985, eq. 19, from memory)
+SQRT_MEAN = theta + (X - theta) * exp(-kappa * t)
+SQRT_VARIANCE = (X * eta**2 / kappa * (exp(-kappa * t) - exp(-2 * kappa * t))
+                 + theta * eta**2 / (2 * kappa) * (1 - exp(-kappa * t))**2)
 MOMENTS = [
 	("Ornstein-Uhlenbeck", ["param kappa, theta, s > 0", "noise W",
 	                        "dX = kappa*(theta - X)*dt + s*dW"],
@@ -114,32 +119,20 @@ MOMENTS = [
 	 theta + (X - theta) * exp(-kappa * t), s**2 / (2 * kappa) * (1 - exp(-2 * kappa * t))),
 	("square root", ["param kappa, theta, eta > 0", "noise W",
 	                 "dX = kappa*(theta - X)*dt + eta*sqrt(X)*dW", "assume X > 0"],
-	 kappa * (theta - X), eta**2 * X,
-	 theta + (X - theta) * exp(-kappa * t),
-	 X * eta**2 / kappa * (exp(-kappa * t) - exp(-2 * kappa * t))
-	 + theta * eta**2 / (2 * kappa) * (1 - exp(-kappa * t))**2),
+	 kappa * (theta - X), eta**2 * X, SQRT_MEAN, SQRT_VARIANCE),
 	# the same process with kappa's sign left to the assumptions: the closed
 	# form needs kappa != 0, which the Feller condition 2*kappa*theta > eta^2
 	# implies (kappa = 0 would make it -eta^2 > 0), as does a range or kappa - 1 > 0
 	("square root, Feller condition only", ["param kappa, theta, eta", "noise W",
 	                 "assume 2*kappa*theta > eta^2",
 	                 "dX = kappa*(theta - X)*dt + eta*sqrt(X)*dW", "assume X > 0"],
-	 kappa * (theta - X), eta**2 * X,
-	 theta + (X - theta) * exp(-kappa * t),
-	 X * eta**2 / kappa * (exp(-kappa * t) - exp(-2 * kappa * t))
-	 + theta * eta**2 / (2 * kappa) * (1 - exp(-kappa * t))**2),
+	 kappa * (theta - X), eta**2 * X, SQRT_MEAN, SQRT_VARIANCE),
 	("square root, kappa ranged", ["param kappa in [1/2, 2]", "param theta, eta", "noise W",
 	                 "dX = kappa*(theta - X)*dt + eta*sqrt(X)*dW", "assume X > 0"],
-	 kappa * (theta - X), eta**2 * X,
-	 theta + (X - theta) * exp(-kappa * t),
-	 X * eta**2 / kappa * (exp(-kappa * t) - exp(-2 * kappa * t))
-	 + theta * eta**2 / (2 * kappa) * (1 - exp(-kappa * t))**2),
+	 kappa * (theta - X), eta**2 * X, SQRT_MEAN, SQRT_VARIANCE),
 	("square root, kappa - 1 > 0", ["param kappa, theta, eta", "noise W", "assume kappa - 1 > 0",
 	                 "dX = kappa*(theta - X)*dt + eta*sqrt(X)*dW", "assume X > 0"],
-	 kappa * (theta - X), eta**2 * X,
-	 theta + (X - theta) * exp(-kappa * t),
-	 X * eta**2 / kappa * (exp(-kappa * t) - exp(-2 * kappa * t))
-	 + theta * eta**2 / (2 * kappa) * (1 - exp(-kappa * t))**2),
+	 kappa * (theta - X), eta**2 * X, SQRT_MEAN, SQRT_VARIANCE),
 	("geometric Brownian motion", ["param mu, sigma > 0", "noise W",
 	                               "dX = mu*X*dt + sigma*X*dW", "assume X > 0"],
 	 mu * X, sigma**2 * X**2,
