@@ -57,7 +57,7 @@ int chstate_sign_that_helps(expr_ctx *ctx, const chstate_change *change)
 			found = sign;
 		expr_sym_set_sign(ctx, old_sym, old_sign);
 		expr_sym_set_sign(ctx, new_sym, new_sign);
-		expr_clear_error(ctx); /* a limit here only means no hint */
+		expr_clear_recoverable(ctx); /* a limit here only means no hint */
 	}
 	return found;
 }

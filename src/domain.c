@@ -182,7 +182,7 @@ static void compile_constraints(domain *d)
 	}
 	if (expr_error(d->ctx) != EXPR_OK) {
 		/* a bound too large to form: the bounds are kept in doubles only */
-		expr_clear_error(d->ctx);
+		expr_clear_recoverable(d->ctx);
 		d->nconstraints = relations;
 	}
 	if (d->nconstraints == 0)

@@ -359,6 +359,13 @@ void expr_clear_error(expr_ctx *ctx)
 	ctx->error_nodes[0] = ctx->error_nodes[1] = NULL;
 }
 
+bool expr_clear_recoverable(expr_ctx *ctx)
+{
+	if (ctx->error != EXPR_ERR_INTERRUPTED)
+		expr_clear_error(ctx);
+	return ctx->error == EXPR_OK;
+}
+
 const expr *expr_fail_at(expr_ctx *ctx, expr_error_kind kind, const char *template, const expr *a,
 			 const expr *b)
 {

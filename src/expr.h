@@ -97,6 +97,11 @@ size_t expr_ctx_bytes(const expr_ctx *ctx); /* the memory max_bytes bounds */
 expr_error_kind expr_error(const expr_ctx *ctx);
 const char *expr_error_message(const expr_ctx *ctx);
 void expr_clear_error(expr_ctx *ctx);
+/* Clear a pending error that the caller can recover from by doing less (a
+ * size or number limit, a division or domain error met while trying); an
+ * interrupt (Ctrl-C or the time limit) stays pending, so that the statement
+ * stops and says so.  True when no error is pending afterwards. */
+bool expr_clear_recoverable(expr_ctx *ctx);
 const expr *expr_fail(expr_ctx *ctx, expr_error_kind kind, const char *message); /* returns NULL */
 /* An error whose message names two nodes: a template with two %s, filled by
  * whoever prints it (the library does not print); returns NULL. */

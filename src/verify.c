@@ -313,8 +313,11 @@ static void record_point(verify_result *out, part_run *r, ball_verdict *v)
  * (ball_generic) and offset and scale drawn with the point like any other
  * atom: a claim is about every smooth function, of any size and value, and
  * h(1) is then as free as it should be (abs(h(1)) = h(1) fails), while
- * applications at equal arguments still agree at every point. */
-static void add_function_atoms(part_run *r)
+ * applications at equal arguments still agree at every point.  False when the
+ * private symbols of the offsets and scales cannot be made (a limit, left
+ * pending): H alone would make h(1) a known number, and abs(h(1)) = h(1)
+ * could hold, so the claim is not tested. */
+static bool add_function_atoms(part_run *r)
 {
 	expr_vec functions = {0};
 	expr_map seen = {0};
@@ -326,10 +329,8 @@ static void add_function_atoms(part_run *r)
 	for (size_t i = 0; i < functions.n; i++) {
 		const expr *offset = private_symbol(r->ctx, functions.items[i], "offset");
 		const expr *scale = private_symbol(r->ctx, functions.items[i], "scale");
-		if (!offset || !scale) {
-			expr_clear_error(r->ctx); /* no room: H alone, still a smooth function */
-			continue;
-		}
+		if (!offset || !scale)
+			break;
 		r->affine[n++] = (ball_generic_affine){.func = expr_fapp_func(functions.items[i]),
 		                                       .counts = expr_fapp_counts(functions.items[i]),
 		                                       .offset = offset,
@@ -339,7 +340,9 @@ static void add_function_atoms(part_run *r)
 	}
 	r->generic.naffine = n;
 	r->generic.affine = r->affine;
+	bool whole = n == functions.n;
 	expr_vec_free(&functions);
+	return whole;
 }
 
 /* Is the side e defined at the point (only certainly undefined counts; more
@@ -414,7 +417,7 @@ static ball_decision decide_exactly(part_run *r, ball_verdict *v, bool *neither)
 	const expr *rhs = symbols ? expr_subst(r->ctx, r->rhs, n, olds, news) : NULL;
 	const expr *difference = symbols ? expr_subst(r->ctx, r->difference, n, olds, news) : NULL;
 	if (expr_error(r->ctx) != EXPR_OK) {
-		expr_clear_error(r->ctx); /* a value too large, log(0), ...: as the balls said */
+		expr_clear_recoverable(r->ctx); /* a value too large, log(0), ...: as the balls said */
 	} else if (lhs && rhs) {
 		ball_verdict w = {0};
 		decision = ball_compare_zero(r->ctx, difference, lhs, rhs, 0, NULL, NULL, NULL, &w);
@@ -553,7 +556,7 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 			if (normal)
 				difference[p] = normal;
 			else
-				expr_clear_error(ctx);
+				expr_clear_recoverable(ctx);
 		}
 		if (!difference[p] || !expr_is_zero(difference[p]))
 			all_zero = false;
@@ -573,7 +576,13 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		collect_atoms(r.lhs, &seen, &r.atoms);
 		collect_atoms(r.rhs, &seen, &r.atoms);
 		expr_map_free(&seen);
-		add_function_atoms(&r);
+		if (!add_function_atoms(&r) || expr_error(ctx) != EXPR_OK) {
+			/* a limit or an interrupt: the error stays pending, the
+			 * statement reports it and prints no verdict */
+			expr_vec_free(&r.atoms);
+			free(r.affine);
+			break;
+		}
 		r.dom = domain_new(ctx, m, r.atoms.n, r.atoms.items, seed * 1000003u + p);
 		mark_walk marks = {.dom = r.dom};
 		domain_add_mark(r.dom, expr_num_value(expr_int(ctx, 0)));
@@ -586,7 +595,7 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 			collect_roots(ctx, r.lhs, &root_seen, r.dom);
 			collect_roots(ctx, r.rhs, &root_seen, r.dom);
 			expr_map_free(&root_seen);
-			expr_clear_error(ctx); /* a root that could not be formed: no mark */
+			expr_clear_recoverable(ctx); /* a root that could not be formed: no mark */
 		}
 		r.nvalues = domain_size(r.dom);
 		r.values = xcalloc(r.nvalues + 1, sizeof *r.values);
@@ -625,6 +634,11 @@ void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigne
 		out->reason = undecided_reason;
 		out->part = undecided_part;
 		out->difference = difference[undecided_part];
+	}
+	if (expr_error(ctx) != EXPR_OK && out->verdict != VERIFY_FAILS) {
+		/* a limit or an interrupt left pending: nothing was decided */
+		out->verdict = VERIFY_UNDECIDED;
+		out->reason = "the claim could not be tested within the limits";
 	}
 	out->holds = out->verdict == VERIFY_HOLDS;
 	free(difference);

@@ -22,7 +22,9 @@
 #include "check_suites.h"
 #include "eval.h"
 #include "expr.h"
+#include "model.h"
 #include "print.h"
+#include "verify.h"
 
 static expr_ctx *ctx;
 static const expr *x, *y, *c;
@@ -588,6 +590,50 @@ static bool relative_radius_below(const arb_t v, slong bits)
  * another.  Against the double evaluator: where the ball at 53 bits is
  * relatively narrower than 2^-45 (the expression is well conditioned at the
  * point) and the double is finite, the two agree to 1e-12 relative. */
+/* A claim tested at every node limit and under an interrupt: verify_claim
+ * either decides it rightly or leaves an error pending (the statement then
+ * reports the limit and prints no verdict); it never holds a false claim.
+ * abs(h(1)) = h(1) is false for an unknown h (h(1) may be negative); with the
+ * function's offset and scale missing it would hold (H alone is positive at 1
+ * for some seeds), so a limit there must not be cleared and passed over. */
+START_TEST(test_claim_at_limits)
+{
+	const expr *h = expr_sym(ctx, "h");
+	ck_assert(expr_func_declare(ctx, h, 1, (const char *[]){"u"}));
+	const expr *h1 = expr_fapp(ctx, h, (const unsigned char[]){0}, (const expr *[]){N(1)});
+	const expr *lhs = FN(ABS, h1), *rhs = h1;
+	verify_claim_input in = {.nparts = 1, .lhs = &lhs, .rhs = &rhs, .points = 20};
+	model m;
+	model_init(&m, ctx);
+	size_t base = expr_node_count(ctx), decided = 0;
+	for (size_t room = 0; room < 200; room++) {
+		expr_ctx_limits(ctx)->max_nodes = base + room;
+		verify_result out;
+		verify_claim(ctx, &m, &in, 1, &out);
+		if (expr_error(ctx) == EXPR_OK) {
+			ck_assert_msg(out.verdict == VERIFY_FAILS, "room %zu: verdict %d", room, out.verdict);
+			decided++;
+		} else
+			ck_assert_msg(!out.holds, "room %zu: held with an error pending", room);
+		verify_result_free(&out);
+		expr_clear_error(ctx);
+	}
+	ck_assert_uint_gt(decided, 0);
+	expr_ctx_limits(ctx)->max_nodes = 0;
+	expr_ctx_limits(ctx)->interrupt = &stop_flag;
+	stop_flag = 1;
+	verify_result out;
+	verify_claim(ctx, &m, &in, 1, &out);
+	ck_assert_int_eq(expr_error(ctx), EXPR_ERR_INTERRUPTED);
+	ck_assert(!out.holds);
+	verify_result_free(&out);
+	stop_flag = 0;
+	expr_ctx_limits(ctx)->interrupt = NULL;
+	expr_clear_error(ctx);
+	model_free(&m);
+}
+END_TEST
+
 START_TEST(test_random_against_doubles)
 {
 	rng_state = 20240613;
@@ -668,6 +714,7 @@ Suite *ball_suite(void)
 	tcase_add_test(tc, test_generic_functions);
 	tcase_add_test(tc, test_shared_nodes);
 	tcase_add_test(tc, test_interrupt);
+	tcase_add_test(tc, test_claim_at_limits);
 	tcase_add_test(tc, test_random_against_doubles);
 	suite_add_tcase(suite, tc);
 	return suite;
