@@ -6,6 +6,7 @@
  */
 #include "verify.h"
 
+#include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -105,6 +106,76 @@ static bool mentions(expr_ctx *ctx, const expr *e, const expr *name)
 	return found;
 }
 
+/* The sign of g at x (0 when not certain or not defined there). */
+static int scanned_sign(ball_prog *prog, double x, arb_t at, arb_t value)
+{
+	ball_status status;
+	arb_set_d(at, x); /* exact: a double is a dyadic */
+	if (ball_run(prog, at, 64, value, &status) != BALL_OK || status != BALL_OK)
+		return 0;
+	return arb_is_positive(value) ? 1 : arb_is_negative(value) ? -1 : 0;
+}
+
+enum { SCAN_DECADES = 30, SCAN_STEPS = 4, SCAN_ROOTS = 8 };
+
+/* Where g, an argument of abs, log or a root, is a function of one symbol x
+ * but not linear in it, its sign changes are searched for: g at 0 and at
+ * +-10^(k/4) for |k| <= 120, in 64-bit balls; between two neighbours of
+ * opposite certain signs, bisection to the precision of a double, and the
+ * point reached is a mark of x.  abs(log(abs(y) + 1) - 30) turns at
+ * y = e^30 - 1, about 1.07*10^13, which neither a number of the claim nor a
+ * random magnitude (mostly below 10^12) comes near.  A sign change that comes
+ * back between two neighbours of the grid is missed: numeric evidence stays
+ * evidence, not proof. */
+static void scan_roots(expr_ctx *ctx, const expr *g, const expr *x, domain *dom)
+{
+	ball_prog *prog = ball_compile(ctx, 1, &g, 1, &x, NULL);
+	if (!prog)
+		return; /* an unknown function in g, or a limit */
+	arb_t at, value;
+	arb_init(at);
+	arb_init(value);
+	enum { SIDE = 2 * SCAN_DECADES * SCAN_STEPS + 1 }; /* grid points on each side of 0 */
+	double last = 0;
+	int last_sign = 0, found = 0;
+	for (int i = -SIDE; i <= SIDE && found < SCAN_ROOTS; i++) {
+		/* ascending: -10^30 .. -10^-30, 0, 10^-30 .. 10^30 */
+		int k = (i < 0 ? -i : i) - 1 - SCAN_DECADES * SCAN_STEPS;
+		double x_i = i == 0 ? 0 : (i < 0 ? -1 : 1) * pow(10.0, (double)k / SCAN_STEPS);
+		int sign = scanned_sign(prog, x_i, at, value);
+		if (sign == 0)
+			continue;
+		if (last_sign != 0 && sign != last_sign) {
+			double lo = last, hi = x_i;
+			for (int step = 0; step < 1100; step++) {
+				double mid = lo + (hi - lo) / 2;
+				if (!(mid > lo && mid < hi))
+					break;
+				int s_mid = scanned_sign(prog, mid, at, value);
+				if (s_mid == 0) {
+					lo = hi = mid;
+					break;
+				}
+				if (s_mid == last_sign)
+					lo = mid;
+				else
+					hi = mid;
+			}
+			mpq_t mark;
+			mpq_init(mark);
+			rat_set_double_short(mark, hi);
+			domain_add_mark(dom, mark);
+			mpq_clear(mark);
+			found++;
+		}
+		last = x_i;
+		last_sign = sign;
+	}
+	arb_clear(at);
+	arb_clear(value);
+	ball_free(prog);
+}
+
 /* Where g, an argument of abs, log or a root, is A x + B in a symbol x with
  * A and B free of x, its sign turns at x = -B/A: a mark of x (a number, or an
  * expression of the other names evaluated at each point).  abs(y/3 - 10^9)
@@ -128,6 +199,11 @@ static void add_roots(expr_ctx *ctx, const expr *g, domain *dom)
 			domain_add_mark(dom, expr_num_value(root));
 		else
 			domain_add_root(dom, x, root);
+	}
+	if (names.n == 1 && !expr_is_zero(g)) {
+		const expr *slope = diff(ctx, g, names.items[0]);
+		if (slope && mentions(ctx, slope, names.items[0]))
+			scan_roots(ctx, g, names.items[0], dom);
 	}
 	expr_vec_free(&names);
 }

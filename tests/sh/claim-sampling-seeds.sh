@@ -26,6 +26,7 @@ from fractions import Fraction as F
 
 # line: (expected verdict, the claim is false at the point p: dict name -> Fraction)
 D9, E12 = F(10) ** 9, F(1, 10 ** 12)
+E30 = F("10686474581524.46214699046865074140165002449500547305499022291149210845")
 false_at = {
 	9: lambda p: p["y"] > D9,
 	10: lambda p: p["y"] > F(1, 3),
@@ -41,6 +42,11 @@ false_at = {
 	26: lambda p: p["z"] < E12,
 	37: lambda p: p["y"] > 3 * D9,
 	38: lambda p: p["y"] - p["x"] > 3 * D9,
+	# abs(u) = -u is false where u > 0: log(|y| + 1) > 30 where |y| + 1 > e^30
+	# (e^30 to 70 digits, computed with mpmath at 80 digits), sqrt(|y|) > 4*10^7
+	# where |y| > 1.6*10^15
+	43: lambda p: abs(p["y"]) + 1 > E30,
+	44: lambda p: abs(p["y"]) > 16 * 10 ** 14,
 }
 holds = {30, 31, 32}
 work, seeds = sys.argv[1], int(sys.argv[2])
