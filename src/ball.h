@@ -106,7 +106,8 @@ typedef enum ball_decision {
 #define BALL_REASONS(X)                                                                                      \
 	X(NONE, "decided")                                                                                   \
 	X(UNDEFINED, "a side is undefined at the point")                                                     \
-	X(UNKNOWN, "a side is at the boundary of its domain at the point, even at the largest precision")    \
+	X(UNKNOWN,                                                                                           \
+	  "no precision gives a side a finite value at the point (a domain boundary, or cancellation)")      \
 	X(CANCELLATION, "the difference contains 0 but is not within its bound at the largest precision")    \
 	X(UNBOUND, "a symbol or a partial derivative has no value at the point")                             \
 	X(INCONSISTENT, "the canonical difference disagrees with the two sides at the point")                \
