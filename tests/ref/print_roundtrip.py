@@ -61,6 +61,9 @@
 # Stochastic Calculus for Finance II, sec. 5.4, multi-dimensional Girsanov, from
 # memory; LANGUAGE.md `measure`).  Results under Q are not read back: there the
 # printed dB means the Q-Brownian motion, which no statement can name.
+# Each result names its measure where it must: text ends in `# under Q` exactly
+# when the result is under Q and shows no dWQ, LaTeX ends in `(under $Q$)` exactly
+# when it is under Q, JSON has "measure" (LANGUAGE.md `measure`).
 #
 # Scenario, names and values are invented for this test.  ROUNDTRIP_SHOW=N shows N
 # failures of each kind (default 4).
@@ -1247,7 +1250,8 @@ def verify_items(args):
 	checker = CHECKERS[which][0]
 	names = set(SYM) | set(NOISES) | {"WQ"}
 	timed = set(STATES) | set(NOISES) | {"WQ"}
-	passed = {"text": 0, "text-sympy": 0, "json": 0, "latex": 0, "latex-exponent": 0, "latex-measure": 0}
+	passed = {"text": 0, "text-sympy": 0, "json": 0, "latex": 0, "latex-exponent": 0, "latex-measure": 0,
+	          "text-measure": 0}
 	failures = []
 	samples = {}
 	for idx in range(lo, hi):
@@ -1265,8 +1269,16 @@ def verify_items(args):
 		line = checker.outputs["text"][idx]
 		# a result under Q whose text shows none of Q's renamed noises says so
 		# in a trailing comment, and LaTeX names the measure after the equation
-		if line.endswith("  # under Q"):
+		marked = line.endswith("  # under Q")
+		if marked:
 			line = line[:-len("  # under Q")]
+		# the marker exactly where it is needed: under Q when dWQ is not in the
+		# result (its dB and dZ read like P's), never under P (LANGUAGE.md `measure`)
+		if marked != (item.measure == "Q" and "dWQ" not in line):
+			failures.append((item, "text", "the marker '# under Q' is %s" %
+			                 ("wrongly there" if marked else "missing"), line))
+		else:
+			passed["text-measure"] += 1
 		try:
 			got, rhs = text_components(item, line)
 			if check_values(item, pts, got, "text", line, failures):
@@ -1295,6 +1307,10 @@ def verify_items(args):
 				passed["latex-measure"] += 1
 			else:
 				failures.append((item, "latex", "the measure Q is not named", tex))
+		elif tex.endswith(note):
+			failures.append((item, "latex", "a result under P names Q", tex))
+		else:
+			passed["latex-measure"] += 1
 		# a long result is broken into aligned lines: read it as one line
 		tex = re.sub(r"\\begin\{aligned\}|\\end\{aligned\}|\\\\|&|\\quad\b", " ", tex)
 		tex = re.sub(r" +", " ", tex).strip()
