@@ -350,6 +350,15 @@ bool run_format(session *s, const ast_node *st)
 {
 	for (int i = 0; i < 4; i++)
 		if (strcmp(st->text, format_names[i]) == 0) {
+			if (s->format == FORMAT_C && i != FORMAT_C && s->writers[FORMAT_C]) {
+				/* a C unit ends where the script leaves C: the list of
+				 * functions its caller supplies comes here, not after the
+				 * results of other formats, and C written later is a unit
+				 * of its own, with its own prelude */
+				writer_finish(s->writers[FORMAT_C]);
+				writer_free(s->writers[FORMAT_C]);
+				s->writers[FORMAT_C] = NULL;
+			}
 			s->format = (session_format)i;
 			return true;
 		}
