@@ -187,8 +187,52 @@ static size_t top_level(const char *s, const char *seps, const char **at, size_t
 	return n;
 }
 
+static char *break_sum(const char *text, double first, double next, const char *join);
+
+/* A term too wide for its line whose sum sits in "\left( ... \right)" (the
+ * drift of a long differential, "\left(a + b + ...\right)\mathrm{d}t"): the
+ * sum broken in lines inside \Bigl( ... \Bigr), since \left ... \right
+ * cannot span lines; the first line at most first units wide, the others at
+ * most next.  A new string; NULL when the term has no such pair or its sum
+ * cannot be broken. */
+static char *break_inside(const char *term, double first, double next, const char *join)
+{
+	const char *open = NULL, *close = NULL;
+	int braces = 0, pairs = 0;
+	for (const char *c = term; *c && !close; c++) {
+		if (*c == '\\' && strncmp(c, "\\left", 5) == 0 && !(c[5] >= 'a' && c[5] <= 'z')) {
+			if (pairs++ == 0 && braces == 0 && !open && c[5] == '(')
+				open = c;
+			c += 4;
+		} else if (*c == '\\' && strncmp(c, "\\right", 6) == 0 && !(c[6] >= 'a' && c[6] <= 'z')) {
+			if (--pairs == 0 && open)
+				close = c;
+			c += 5;
+		} else if (*c == '\\' && c[1]) {
+			c++; /* \{ and \} are not braces */
+		} else if (*c == '{') {
+			braces++;
+		} else if (*c == '}') {
+			braces--;
+		}
+	}
+	if (!open || !close || close[6] != ')')
+		return NULL;
+	const char *inner = open + strlen("\\left("), *rest = close + strlen("\\right)");
+	char *inside = xasprintf("%.*s", (int)(close - inner), inner);
+	double before = width_of(term, open) + 1;
+	char *lines = break_sum(inside, first - before, next - 1, join);
+	free(inside);
+	if (!lines)
+		return NULL;
+	char *out = xasprintf("%.*s\\Bigl(%s\\Bigr)%s", (int)(open - term), term, lines, rest);
+	free(lines);
+	return out;
+}
+
 /* The sum text in lines: the first at most first units wide, the others at
- * most next, joined by join (the next line starts with its sign).  A new
+ * most next, joined by join (the next line starts with its sign); a term
+ * wider than a line is broken inside its parentheses (break_inside).  A new
  * string; NULL when it fits on the first line. */
 static char *break_sum(const char *text, double first, double next, const char *join)
 {
@@ -210,14 +254,24 @@ static char *break_sum(const char *text, double first, double next, const char *
 		double have = width_of(out.data ? out.data + line_start : "",
 		                       out.data ? out.data + out.length : "");
 		double more = latex_width(term.data);
+		const char *piece = term.data;
 		if (out.length > line_start && have + more > room) {
 			xbuf_put(&out, join);
 			line_start = out.length;
 			room = next;
+			have = 0;
 			/* the term begins " + " or " - ": the line starts with its sign */
-			xbuf_put(&out, term.data[0] == ' ' ? term.data + 1 : term.data);
-		} else {
-			xbuf_put(&out, term.data);
+			if (piece[0] == ' ')
+				piece++;
+		}
+		char *split = more > room - have ? break_inside(piece, room - have, next, join) : NULL;
+		xbuf_put(&out, split ? split : piece);
+		if (split) {
+			/* the lines go on from the last line of the broken term */
+			for (const char *j = strstr(out.data + line_start, join); j; j = strstr(j + 1, join))
+				line_start = (size_t)(j - out.data) + strlen(join);
+			room = next;
+			free(split);
 		}
 		xbuf_free(&term);
 		start = stop;
@@ -564,7 +618,11 @@ static void model_section(writer *w, xbuf *doc)
 			                          .noises = m->noises,
 			                          .n = sde->ndiffusion,
 			                          .stratonovich = sde->stratonovich}};
-			sde_line(w, &r, doc);
+			xbuf line = {0};
+			sde_line(w, &r, &line);
+			wrap_equation(&line, 0); /* a long SDE in aligned lines */
+			xbuf_put(doc, line.data);
+			xbuf_free(&line);
 			xbuf_put(doc, i + 1 < m->nsdes ? " \\\\\n" : "\n");
 		}
 		xbuf_put(doc, "\\end{align*}\n");

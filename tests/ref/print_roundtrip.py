@@ -1313,6 +1313,8 @@ def verify_items(args):
 			passed["latex-measure"] += 1
 		# a long result is broken into aligned lines: read it as one line
 		tex = re.sub(r"\\begin\{aligned\}|\\end\{aligned\}|\\\\|&|\\quad\b", " ", tex)
+		# a sum broken inside parentheses has \Bigl( ... \Bigr) (\left cannot span lines)
+		tex = tex.replace("\\Bigl(", "\\left(").replace("\\Bigr)", "\\right)")
 		tex = re.sub(r" +", " ", tex).strip()
 		bad = latex_exponent_fracs(tex)
 		if bad:

@@ -2,7 +2,8 @@
 # latex-compiles.sh - every LaTeX result of a model with all query kinds must
 # compile in display math with amsmath (pdflatex from Debian texlive-latex-base).
 # Long results (the square-root moments at K = 2, the forward equation of a
-# two-state model) must break into lines: an Overfull \hbox wider than 20pt in
+# two-state model, a drift in parentheses wider than the page, in a result
+# and in the standalone document's model) must break into lines: an Overfull \hbox wider than 20pt in
 # the log fails the test, here and in the standalone document of the same
 # model.  Skipped (77) when pdflatex is not installed.
 set -u
@@ -42,6 +43,12 @@ moments v, 1 under Q
 func A(t)
 dx = (kappa + t*x)*dt + xi*dW
 moments x, 1
+noise W3
+assume X > 0
+dX = (kappa*(theta - X) + mu*Y*X + r*Y^2 - sigma1*X*Y*U + xi*sigma1*sigma2*U + kappa*theta*X^2*Y)*dt + sigma1*sqrt(X)*dW + sigma2*Y*dB + xi*U*X*dW3 + mu*r*X*Y*U*dW
+dY = kappa*(theta - Y)*dt + sigma2*dB
+dU = -r*U*dt + xi*dW3
+d log(X)
 MODEL
 if ! "$ITOX" --format=latex "$dir/model.itox" > "$dir/lines.txt"; then
 	echo "itox failed"; exit 1
