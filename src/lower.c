@@ -188,10 +188,14 @@ static bool eval_name(session *s, const ast_node *n, value *out)
 		}
 	}
 	if (s->measure && name[0] == 'd') {
-		/* under Q, dZ is the increment of the Q Brownian motion Z that replaces W */
+		/* under Q, dZ is the increment of the Q Brownian motion Z that replaces
+		 * W, and dB, for a noise B that Q keeps by name, the increment of B's
+		 * Q Brownian motion: the name results under Q print for it, so that a
+		 * result reads back as it was meant (d(B) is B's own differential,
+		 * shifted when B is correlated with a listed noise) */
 		for (size_t k = 0; k < s->measure->nnoises && k < s->model.nnoises; k++) {
 			const expr *qname = s->measure->names[k];
-			if (qname != s->model.noises[k] && strcmp(expr_sym_name(qname), name + 1) == 0) {
+			if (strcmp(expr_sym_name(qname), name + 1) == 0) {
 				ito_diff d;
 				ito_diff_zero(&d, &s->model);
 				d.dw[k] = expr_int(ctx, 1);

@@ -375,7 +375,7 @@ static bool math(writer *w, const stmt_result *r, xbuf *buf)
 	case RESULT_DIFFUSION:
 	case RESULT_PRODUCT:
 		if (r->kind == RESULT_DIFFERENTIAL && r->of) {
-			char *label = writer_diff_label(w->ctx, r->of, PRN_LATEX);
+			char *label = writer_diff_label(w, r, PRN_LATEX);
 			xbuf_printf(buf, "%s = ", label);
 			free(label);
 		}

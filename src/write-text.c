@@ -82,7 +82,7 @@ static bool text_write(writer *w, const stmt_result *r, char **error)
 			xbuf_printf(&buf, "diffusion(%s) = ", of);
 			free(of);
 		} else if (r->of) {
-			char *label = writer_diff_label(w->ctx, r->of, PRN_TEXT);
+			char *label = writer_diff_label(w, r, PRN_TEXT);
 			xbuf_printf(&buf, "%s = ", label);
 			free(label);
 		} else {

@@ -141,8 +141,10 @@ char *writer_claim_detail(const stmt_result *r, expr_ctx *ctx)
 	return xbuf_take(&buf);
 }
 
-char *writer_diff_label(expr_ctx *ctx, const expr *of, prn_format format)
+char *writer_diff_label(const writer *w, const stmt_result *r, prn_format format)
 {
+	expr_ctx *ctx = w->ctx;
+	const expr *of = r->of;
 	bool latex = format == PRN_LATEX;
 	char *body = prn_expr(ctx, of, format);
 	if (prn_fapp_declared(of)) {
@@ -160,7 +162,7 @@ char *writer_diff_label(expr_ctx *ctx, const expr *of, prn_format format)
 		body = xbuf_take(&named);
 	}
 	char *label;
-	bool symbol = expr_kind_of(of) == EXPR_SYM;
+	bool symbol = expr_kind_of(of) == EXPR_SYM && !(r->measure && model_noise_index(w->model, of) >= 0);
 	if (latex) {
 		bool plain = symbol || expr_kind_of(of) == EXPR_FUN;
 		label = xasprintf(plain ? "\\mathrm{d}%s" : "\\mathrm{d}\\left(%s\\right)", body);

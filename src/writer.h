@@ -74,8 +74,10 @@ char *writer_forward_equation(const stmt_result *r, expr_ctx *ctx);
  * (dZ under Q: dW = dZ - lambda*dt)?  False under the model's own measure. */
 bool writer_shows_measure(const writer *w, const stmt_result *r);
 
-/* The left side of a differential: "d(log(S))", "dS", "\\mathrm{d}\\log S_{t}". */
-char *writer_diff_label(expr_ctx *ctx, const expr *of, prn_format format);
+/* The left side of a differential: "d(log(S))", "dS", "\\mathrm{d}\\log S_{t}";
+ * "d(B)" for a noise B under another measure, where dB is the increment of
+ * B's Brownian motion under that measure. */
+char *writer_diff_label(const writer *w, const stmt_result *r, prn_format format);
 
 /* A check's report (write-check.c): its table for people, lines ending in
  * '\n' (the text writer prints it, the LaTeX and C writers as comments); the

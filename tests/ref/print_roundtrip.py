@@ -59,8 +59,8 @@
 # `measure Q: dW = dWQ - lam*dt` the drift gains -lam * sum_k rho_kW g_k (g_k the
 # diffusion on noise k; a noise correlated with W is shifted by rho*lam: Shreve,
 # Stochastic Calculus for Finance II, sec. 5.4, multi-dimensional Girsanov, from
-# memory; LANGUAGE.md `measure`).  Results under Q are not read back: there the
-# printed dB means the Q-Brownian motion, which no statement can name.
+# memory; LANGUAGE.md `measure`).  Results under Q are read back under Q, where dB
+# (B a noise Q keeps by name) is the increment of B's Q-Brownian motion.
 # Each result names its measure where it must: text ends in `# under Q` exactly
 # when the result is under Q and shows no dWQ, LaTeX ends in `(under $Q$)` exactly
 # when it is under Q, JSON has "measure" (LANGUAGE.md `measure`).
@@ -1356,13 +1356,17 @@ def verify_parallel(which, seed, workers=2):
 def roundtrip(checker, prelude):
 	"""Feed each printed right side (text) back as an expression statement; its JSON
 	drift and diffusion must be the original result's, character for character.
-	Results under Q are left out: there the printed dB means the Q-Brownian motion,
-	which the language gives no name to read back (LANGUAGE.md, `measure`)."""
-	picked = [i for i, it in enumerate(checker.items) if it.measure == "P"]
+	A result under Q is read back under Q: there dB, for a noise B that Q keeps by
+	name, is the increment of B's Q-Brownian motion, as the result printed it
+	(grammar/README.md)."""
+	picked = list(range(len(checker.items)))
 	rhs = []
 	for i in picked:
 		line = checker.outputs["text"][i]
-		rhs.append(line.split(" = ", 1)[1] if " = " in line else "0")
+		if line.endswith("  # under Q"):
+			line = line[:-len("  # under Q")]
+		side = line.split(" = ", 1)[1] if " = " in line else "0"
+		rhs.append(side + (" under Q" if checker.items[i].measure == "Q" else ""))
 	status, out, err, _ = run(prelude + "\n".join(rhs) + "\n", "json")
 	objs = [json.loads(l) for l in out.splitlines() if l.strip()]
 	failures, passed = [], 0
@@ -1374,6 +1378,10 @@ def roundtrip(checker, prelude):
 		orig = json.loads(checker.outputs["json"][i]) if checker.outputs["json"][i] else {}
 		if back.get("kind") in ("product", "value"):
 			back = {"drift": back.get("value"), "diffusion": {}}
+		if back.get("measure", "P") != orig.get("measure", "P"):
+			failures.append((item, "round trip", "read back under %r, not %r" % (
+			                 back.get("measure"), orig.get("measure")), rhs[n]))
+			continue
 		want = (orig.get("drift"), orig.get("diffusion"))
 		have = (back.get("drift"), back.get("diffusion"))
 		if want != have:
