@@ -902,10 +902,18 @@ static void refute(ball_verdict *out, const arb_t lhs, const arb_t rhs, const ar
 	slong digits = 4 + (slong)((double)bits * 0.30103);
 	slong most = 2 + (slong)((double)prec * 0.30103);
 	digits = digits < 10 ? 10 : digits > most ? most : digits;
+	/* sides that differ only after more than SHOWN digits print to 20 and
+	 * the difference with them: 1 - tanh(10^4) is about 10^-8686 */
+	enum { SHOWN = 60 };
+	out->shortened = digits > SHOWN;
+	if (out->shortened)
+		digits = 20;
 	out->decision = BALL_NONZERO;
 	out->lhs_text = ball_text(lhs, digits);
 	out->rhs_text = ball_text(rhs, digits);
 	out->difference_text = ball_text(d, 17);
+	if (strcmp(out->lhs_text, out->rhs_text) == 0)
+		out->shortened = true; /* the precision's digits do not tell them apart */
 }
 
 /* The scale of a zero (see the top of the file): max(|L|, |R|) when a side is

@@ -124,6 +124,7 @@ typedef struct ball_verdict {
 	ball_reason reason;                          /* BALL_REASON_NONE when decided */
 	slong bits;                                  /* the last precision tried */
 	char *lhs_text, *rhs_text, *difference_text; /* BALL_NONZERO: decimal values, else NULL */
+	bool shortened; /* the sides' texts are too short to differ: difference_text tells */
 } ball_verdict;
 void ball_verdict_clear(ball_verdict *verdict); /* frees the texts */
 

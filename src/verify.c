@@ -381,6 +381,7 @@ static void record_point(verify_result *out, part_run *r, ball_verdict *v)
 	if (v) {
 		out->left = v->lhs_text ? xstrdup(v->lhs_text) : NULL;
 		out->right = v->rhs_text ? xstrdup(v->rhs_text) : NULL;
+		out->gap = v->shortened && v->difference_text ? xstrdup(v->difference_text) : NULL;
 	}
 }
 
@@ -534,7 +535,7 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 		return VERIFY_UNDECIDED;
 	}
 	verify_verdict verdict = VERIFY_HOLDS;
-	size_t tested = 0;
+	size_t tested = 0, deep = 0;
 	*reason = NULL;
 	for (size_t attempt = 0; tested < points && attempt < 6 * points; attempt++) {
 		if (expr_poll_interrupt(r->ctx)) {
@@ -567,6 +568,27 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 			verdict = VERIFY_FAILS;
 			tested++;
 			break;
+		}
+		if (decision == BALL_ZERO_WITHIN_BOUND && least && deep < VERIFY_DEEP_POINTS &&
+		    least < BALL_MAX_PRECISION) {
+			/* zero at the least precision: again at the largest, where the
+			 * bound is 2^-8192 of the scale, not 2^-256 (tanh(400 + x) = 1
+			 * fails there, at 1024 bits it held) */
+			deep++;
+			ball_verdict_clear(&v);
+			decision = ball_claim_decide_from(claim, (const mpq_t *)r->values, BALL_MAX_PRECISION,
+			                                  &v);
+			if (v.bits > out->bits)
+				out->bits = v.bits;
+			if (decision == BALL_NONZERO) {
+				out->part = part;
+				out->difference = r->difference;
+				record_point(out, r, &v);
+				ball_verdict_clear(&v);
+				verdict = VERIFY_FAILS;
+				tested++;
+				break;
+			}
 		}
 		if (decision == BALL_ZERO_WITHIN_BOUND && least) {
 			tested++;
@@ -728,7 +750,8 @@ void verify_result_free(verify_result *result)
 	free(result->values);
 	free(result->left);
 	free(result->right);
+	free(result->gap);
 	result->atoms = NULL;
 	result->values = NULL;
-	result->left = result->right = NULL;
+	result->left = result->right = result->gap = NULL;
 }

@@ -102,6 +102,8 @@ char *writer_claim_point(const stmt_result *r, expr_ctx *ctx)
 					    : "every point (no symbols)");
 	if (c->left && c->right)
 		xbuf_printf(&buf, ": left side %s, right side %s", c->left, c->right);
+	if (c->left && c->right && c->gap)
+		xbuf_printf(&buf, ", left minus right %s", c->gap);
 	return xbuf_take(&buf);
 }
 
