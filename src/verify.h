@@ -56,10 +56,10 @@ typedef struct verify_result {
 /* Points tried for a numeric decision, each at VERIFY_LEAST_BITS bits or more. */
 #define VERIFY_POINTS 200
 #define VERIFY_LEAST_BITS 1024
-/* Of those, the first points found zero are decided again at the largest
+/* Of those, the first point found zero is decided again at the largest
  * precision (BALL_MAX_PRECISION): a difference below 2^-256 of the sides' size,
  * 1 - tanh(400 + x), is zero within the bound at 1024 bits. */
-#define VERIFY_DEEP_POINTS 2
+#define VERIFY_DEEP_POINTS 1
 
 void verify_claim(expr_ctx *ctx, model *m, const verify_claim_input *in, unsigned long seed,
 		  verify_result *out);
