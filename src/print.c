@@ -118,6 +118,17 @@ static void emit_fun(printer *p, xbuf *out, const dnode *d)
 {
 	expr_builtin fn = d->e->u.fun.fn;
 	if (p->format == PRN_C) {
+		if (d->c_tail) {
+			/* a difference made accurate (prn_c_tails): Phi(-x) = erfc(x/sqrt(2))/2 */
+			xbuf_put(out, d->c_tail == PRN_TAIL_PHI_REFLECTED ? "(0.5*erfc(0.70710678118654752*("
+			              : d->c_tail == PRN_TAIL_ERFC        ? "erfc("
+			                                                  : "erfc(-(");
+			emit(p, out, d->child);
+			xbuf_put(out, d->c_tail == PRN_TAIL_PHI_REFLECTED ? ")))"
+			              : d->c_tail == PRN_TAIL_ERFC        ? ")"
+			                                                  : "))");
+			return;
+		}
 		if (fn == EXPR_F_NCDF) {
 			/* Phi(x) = erfc(-x/sqrt(2))/2, with 1/sqrt(2) spelled out: C99 has no M_SQRT1_2 */
 			xbuf_put(out, "(0.5*erfc(-0.70710678118654752*(");
@@ -752,6 +763,8 @@ char *prn_expr_c(expr_ctx *ctx, const expr *e, prn_format format, const prn_abbr
 	expr_held held;
 	expr_hold(ctx, &held);
 	dnode *d = prn_build_top(&p, e);
+	if (p.format == PRN_C)
+		prn_c_tails(&p, d);
 	xbuf out = {0};
 	emit(&p, &out, d);
 	prn_printer_free(&p);

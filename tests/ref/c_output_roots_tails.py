@@ -8,7 +8,7 @@ is NaN for u < 0.  The reference is the real root sign(u)*|u|^(1/q) raised to p,
 in 50-digit mpmath (the real-root convention: common practice, no source).
 
 Tails.  The canonical form writes Phi(-a) as 1 - Phi(a) and 1 - erf(a) stays
-as it is, which in doubles is 0 from a = 8.3 (resp. 5.9) on.  The reference is
+as it is, which in doubles is 0 from about a = 8.3 (resp. 5.9) on.  The reference is
 mpmath's ncdf and erfc at 50 digits (mpmath documentation: ncdf is the normal
 distribution function, erfc the complementary error function); Phi(-30) is
 4.9e-198, still a normal double.
@@ -75,6 +75,18 @@ CASES = [
     ("b^(1/3)*a^(1/3)", "value", lambda v: real_root(v["b"], 1, 3) * real_root(v["a"], 1, 3), ROOT_POINTS),
     ("sde X", "drift", lambda v: real_root(v["a"], 1, 3), ROOT_POINTS),
     ("sde X", "diffusion_W", lambda v: real_root(v["a"], 2, 3), ROOT_POINTS),
+    ("Phi(-a)", "value", lambda v: Phi(-v["a"]), TAIL_POINTS),
+    ("3*Phi(-a)", "value", lambda v: 3 * Phi(-v["a"]), TAIL_POINTS),
+    ("K*Phi(-a)/2", "value", lambda v: v["K"] * Phi(-v["a"]) / 2, TAIL_POINTS),
+    ("Phi(a) - 1", "value", lambda v: Phi(v["a"]) - 1, TAIL_POINTS),
+    ("Phi(-a) + Phi(-b)", "value", lambda v: Phi(-v["a"]) + Phi(-v["b"]), TAIL_POINTS),
+    ("K*exp(-b)*Phi(-a) - b*Phi(-b)", "value",
+     lambda v: v["K"] * mpmath.exp(-v["b"]) * Phi(-v["a"]) - v["b"] * Phi(-v["b"]), TAIL_POINTS),
+    ("Phi(-a)/2 + (1 - erf(b))/3", "value", lambda v: Phi(-v["a"]) / 2 + erfc(v["b"]) / 3, TAIL_POINTS),
+    ("1 - erf(a)", "value", lambda v: erfc(v["a"]), ERF_POINTS),
+    ("erf(c) + 1", "value", lambda v: erfc(-v["c"]), ERF_POINTS),
+    ("erf(a) - 1", "value", lambda v: -erfc(v["a"]), ERF_POINTS),
+    ("b*(1 - erf(a))", "value", lambda v: v["b"] * erfc(v["a"]), ERF_POINTS),
 ]
 DEFAULTS = {"t": 0.0, "a": -8.0, "c": 1.5, "b": 0.4, "K": 1.7, "W": 0.0, "X": 1.0}
 
