@@ -760,3 +760,139 @@ dnode *prn_build(printer *p, const expr *e)
 	}
 	return dnew(p, D_NUM);
 }
+
+/* ------------------------------------------------------------------ C tails */
+
+/* A term k*F(u) of a sum, F Phi or erf not yet rewritten: F's node, and the
+ * signed k in k; else NULL. */
+static dnode *tail_term(dnode *term, mpq_t k)
+{
+	bool negative = term->kind == D_NEG;
+	if (negative)
+		term = term->child;
+	dnode *fun = NULL;
+	if (term->kind == D_FUN) {
+		mpq_set_ui(k, 1, 1);
+		fun = term;
+	} else if (term->kind == D_PROD && term->nfactors == 1 && !term->factors[0].exp_display &&
+	           mpq_cmp_ui(term->factors[0].exponent->u.num, 1, 1) == 0 &&
+	           term->factors[0].base->kind == D_FUN) {
+		mpq_set(k, term->num);
+		fun = term->factors[0].base;
+	}
+	if (!fun || fun->c_tail || (fun->e->u.fun.fn != EXPR_F_NCDF && fun->e->u.fun.fn != EXPR_F_ERF))
+		return NULL;
+	if (negative)
+		mpq_neg(k, k);
+	return fun;
+}
+
+/* The display of the number q (of either sign). */
+static dnode *number_display(printer *p, const mpq_t q)
+{
+	dnode *d = dnew(p, D_NUM);
+	mpq_abs(d->num, q);
+	return mpq_sgn(q) < 0 ? negated(p, d) : d;
+}
+
+static void c_tails_sum(printer *p, dnode *sum)
+{
+	size_t at = sum->n; /* the constant term: canonical sums have at most one */
+	for (size_t i = 0; i < sum->n && at == sum->n; i++) {
+		const dnode *item = sum->items[i];
+		if (item->kind == D_NEG)
+			item = item->child;
+		if (item->kind == D_NUM)
+			at = i;
+	}
+	if (at == sum->n)
+		return;
+	mpq_t c, k, m;
+	mpq_inits(c, k, m, NULL);
+	dnode *constant = sum->items[at];
+	mpq_set(c, constant->kind == D_NEG ? constant->child->num : constant->num);
+	if (constant->kind == D_NEG)
+		mpq_neg(c, c);
+	bool changed = false;
+	/* the terms that match the constant exactly first (1/2 - 1/2*Phi(c) -
+	 * 1/3*erf(a) pairs 1/2 with Phi), then the parts of it (2 - Phi(a) -
+	 * Phi(b)); Phi before erf in each */
+	for (int pass = 0; pass < 4; pass++)
+		for (size_t i = 0; i < sum->n && mpq_sgn(c); i++) {
+			dnode *fun = i == at ? NULL : tail_term(sum->items[i], k);
+			if (!fun)
+				continue;
+			mpq_abs(m, k);
+			mpq_t size;
+			mpq_init(size);
+			mpq_abs(size, c);
+			int fit = mpq_cmp(size, m);
+			mpq_clear(size);
+			bool opposite = mpq_sgn(c) != mpq_sgn(k);
+			bool phi = fun->e->u.fun.fn == EXPR_F_NCDF;
+			if (fit < 0 || (pass < 2 && fit != 0) || (pass % 2 == 0) != phi ||
+			    (phi && !opposite))
+				continue; /* c + k*Phi(u) with c, k > 0 has no cancellation */
+			dnode *tail = dnew(p, D_FUN);
+			tail->e = fun->e;
+			tail->child = fun->child;
+			tail->c_tail = phi        ? PRN_TAIL_PHI_REFLECTED
+			               : opposite ? PRN_TAIL_ERFC
+			                          : PRN_TAIL_ERFC_REFLECTED;
+			/* the new coefficient m and the constant left */
+			if (opposite) {
+				mpq_neg(m, k);
+				mpq_add(c, c, k);
+			} else {
+				mpq_set(m, k);
+				mpq_sub(c, c, k);
+			}
+			dnode *term = tail;
+			if (mpq_cmp_ui(m, 1, 1) != 0 && mpq_cmp_si(m, -1, 1) != 0) {
+				term = dnew(p, D_PROD);
+				mpq_abs(term->num, m);
+				term->factors = xcalloc(1, sizeof *term->factors);
+				term->nfactors = 1;
+				term->factors[0] = (dfactor){tail, fun->e, expr_int(p->ctx, 1), NULL, 0};
+			}
+			sum->items[i] = mpq_sgn(m) < 0 ? negated(p, term) : term;
+			changed = true;
+		}
+	if (changed) {
+		if (mpq_sgn(c)) {
+			sum->items[at] = number_display(p, c);
+		} else {
+			memmove(sum->items + at, sum->items + at + 1, (sum->n - at - 1) * sizeof *sum->items);
+			sum->n--;
+		}
+	}
+	mpq_clears(c, k, m, NULL);
+}
+
+void prn_c_tails(printer *p, dnode *d)
+{
+	switch (d->kind) {
+	case D_FUN:
+	case D_NEG:
+		prn_c_tails(p, d->child);
+		return;
+	case D_FAPP:
+		for (size_t i = 0; i < d->n; i++)
+			prn_c_tails(p, d->items[i]);
+		return;
+	case D_PROD:
+		for (size_t i = 0; i < d->nfactors; i++) {
+			prn_c_tails(p, d->factors[i].base);
+			if (d->factors[i].exp_display)
+				prn_c_tails(p, d->factors[i].exp_display);
+		}
+		return;
+	case D_SUM:
+		for (size_t i = 0; i < d->n; i++)
+			prn_c_tails(p, d->items[i]);
+		c_tails_sum(p, d);
+		return;
+	default:
+		return;
+	}
+}

@@ -32,7 +32,12 @@ struct dnode {
 	size_t nfactors;
 	size_t order;  /* in a collected sum: position of its first term in the node order */
 	bool declared; /* D_FAPP at its declared arguments (written without them) */
+	int c_tail;    /* C, D_FUN: written as a tail (PRN_TAIL_*; prn_c_tails) */
 };
+
+/* How C writes a function node that prn_c_tails made of a difference:
+ * Phi(-x), erfc(x) = 1 - erf(x), erfc(-x) = 1 + erf(x). */
+enum { PRN_TAIL_NONE, PRN_TAIL_PHI_REFLECTED, PRN_TAIL_ERFC, PRN_TAIL_ERFC_REFLECTED };
 
 /* The state of one printing: the nodes made, the memos of the building and
  * the context of the writing. */
@@ -65,6 +70,12 @@ static inline dnode *prn_build_top(printer *p, const expr *e)
 	p->top = true;
 	return prn_build(p, e);
 }
+/* C: rewrite each sum c + k*Phi(u) with c, k of opposite signs and |c| >= |k|
+ * as (c + k) - k*Phi(-u), and each c + k*erf(u) with |c| >= |k| as
+ * (c + k) - k*erfc(u) (opposite signs) or (c - k) + k*erfc(-u) (same
+ * signs): the canonical form writes Phi(-a) as 1 - Phi(a), which doubles
+ * round to 0 from about a = 8.3 on, where Phi(-a) itself is accurate; print-build.c. */
+void prn_c_tails(printer *p, dnode *d);
 /* Free the nodes a printer made and its memos; print-build.c. */
 void prn_printer_free(printer *p);
 

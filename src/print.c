@@ -118,6 +118,17 @@ static void emit_fun(printer *p, xbuf *out, const dnode *d)
 {
 	expr_builtin fn = d->e->u.fun.fn;
 	if (p->format == PRN_C) {
+		if (d->c_tail) {
+			/* a difference made accurate (prn_c_tails): Phi(-x) = erfc(x/sqrt(2))/2 */
+			xbuf_put(out, d->c_tail == PRN_TAIL_PHI_REFLECTED ? "(0.5*erfc(0.70710678118654752*("
+			              : d->c_tail == PRN_TAIL_ERFC        ? "erfc("
+			                                                  : "erfc(-(");
+			emit(p, out, d->child);
+			xbuf_put(out, d->c_tail == PRN_TAIL_PHI_REFLECTED ? ")))"
+			              : d->c_tail == PRN_TAIL_ERFC        ? ")"
+			                                                  : "))");
+			return;
+		}
 		if (fn == EXPR_F_NCDF) {
 			/* Phi(x) = erfc(-x/sqrt(2))/2, with 1/sqrt(2) spelled out: C99 has no M_SQRT1_2 */
 			xbuf_put(out, "(0.5*erfc(-0.70710678118654752*(");
@@ -256,6 +267,49 @@ static void emit_fapp(printer *p, xbuf *out, const dnode *d)
 	xbuf_put(out, p->format == PRN_LATEX ? "\\right)" : ")");
 }
 
+/* C: is the factor u^(p/q) with q odd (q > 1) and u not known to be >= 0?
+ * itox reads it as the real q-th root raised to p ((-8)^(1/3) = -2), where
+ * C's pow is NaN for u < 0.  A base known >= 0 keeps pow; an even q has a
+ * base >= 0 by the domain rules. */
+static bool c_real_root(printer *p, const dfactor *f, const mpq_t e)
+{
+	if (rat_is_integer(e) || mpz_even_p(mpq_denref(e)))
+		return false;
+	return !f->base_expr || (expr_sign(p->ctx, f->base_expr) & EXPR_SIGN_NEG);
+}
+
+/* C: the real root of base raised to e = p/q (q odd): cbrt(u) or
+ * pow(cbrt(u), p) for q = 3; pow(fabs(u), p/q) for p even and
+ * copysign(pow(fabs(u), p/q), u) for p odd otherwise.  Only <math.h>. */
+static void emit_real_root(printer *p, xbuf *out, const dnode *base, const mpq_t e)
+{
+	if (mpz_cmp_ui(mpq_denref(e), 3) == 0) {
+		bool one = mpz_cmp_ui(mpq_numref(e), 1) == 0;
+		xbuf_put(out, one ? "cbrt(" : "pow(cbrt(");
+		emit(p, out, base);
+		if (!one) {
+			char *power = mpz_get_str(NULL, 10, mpq_numref(e));
+			xbuf_printf(out, "), %s", power);
+			void (*release)(void *, size_t);
+			mp_get_memory_functions(NULL, NULL, &release);
+			release(power, strlen(power) + 1);
+		}
+		xbuf_putc(out, ')');
+		return;
+	}
+	bool odd = mpz_odd_p(mpq_numref(e));
+	xbuf_put(out, odd ? "copysign(pow(fabs(" : "pow(fabs(");
+	emit(p, out, base);
+	xbuf_put(out, "), ");
+	emit_number(p, out, e);
+	xbuf_putc(out, ')');
+	if (odd) {
+		xbuf_put(out, ", ");
+		emit(p, out, base);
+		xbuf_putc(out, ')');
+	}
+}
+
 /* base^exponent with |exponent| (the sign is handled by the caller). */
 static void emit_power(printer *p, xbuf *out, const dfactor *f, bool absolute)
 {
@@ -309,8 +363,10 @@ static void emit_power(printer *p, xbuf *out, const dfactor *f, bool absolute)
 			xbuf_putc(out, ')');
 		}
 	} else if (p->format == PRN_C) {
-		if (rat_is_integer(e) && mpz_cmp_ui(mpq_numref(e), 4) <= 0 && mpq_sgn(e) > 0 &&
-		    is_atomic(base)) {
+		if (c_real_root(p, f, e)) {
+			emit_real_root(p, out, base, e);
+		} else if (rat_is_integer(e) && mpz_cmp_ui(mpq_numref(e), 4) <= 0 && mpq_sgn(e) > 0 &&
+		           is_atomic(base)) {
 			unsigned long n = mpz_get_ui(mpq_numref(e));
 			for (unsigned long i = 0; i < n; i++) {
 				if (i)
@@ -707,6 +763,8 @@ char *prn_expr_c(expr_ctx *ctx, const expr *e, prn_format format, const prn_abbr
 	expr_held held;
 	expr_hold(ctx, &held);
 	dnode *d = prn_build_top(&p, e);
+	if (p.format == PRN_C)
+		prn_c_tails(&p, d);
 	xbuf out = {0};
 	emit(&p, &out, d);
 	prn_printer_free(&p);
