@@ -17,6 +17,67 @@
 #include "print.h"
 #include "xalloc.h"
 
+/* May the noise that replaces w under the measure of st be called as newname
+ * (dZ) says?  It must be a name of its own: the noise it replaces (dW = dW -
+ * lambda*dt) would make W stand for two Brownian motions, one under P and
+ * one under Q; a name declared as anything else, the measure's own name, a
+ * name another listed noise already took (chosen[], by noise index) or one
+ * whose differential would read as another name's would make results
+ * ambiguous.  True when free; otherwise false after a message at the name. */
+static bool new_noise_name_free(session *s, const ast_node *st, const ast_node *newname, const expr *w,
+                                const expr *const *chosen)
+{
+	model *m = &s->model;
+	const char *zname = newname->text + 1;
+	model_entry *clash = model_lookup(m, zname);
+	if (clash && clash->kind == MODEL_NOISE && clash->sym == w) {
+		report(s, SESSION_INPUT, &newname->loc,
+		       "the new noise needs a name of its own: '%s' is the noise it replaces (such as "
+		       "'%s%s': dW = d%s%s - ...)",
+		       zname, zname, st->text, zname, st->text);
+		return false;
+	}
+	if (clash) {
+		report(s, SESSION_INPUT, &newname->loc,
+		       "'%s' is already declared as a %s; name the new noise differently (such as '%s%s')",
+		       zname, model_kind_name(clash->kind), expr_sym_name(w), st->text);
+		return false;
+	}
+	if (strcmp(zname, st->text) == 0) {
+		report(s, SESSION_INPUT, &newname->loc,
+		       "'%s' is the name of this measure; name the new noise differently (such as '%s%s')",
+		       zname, expr_sym_name(w), st->text);
+		return false;
+	}
+	for (size_t k = 0; k < m->nnoises; k++)
+		if (chosen[k] && strcmp(expr_sym_name(chosen[k]), zname) == 0) {
+			report(s, SESSION_INPUT, &newname->loc,
+			       "'%s' already replaces %s in this measure; each listed noise needs a "
+			       "new noise of its own (such as '%s%s')",
+			       zname, expr_sym_name(m->noises[k]), expr_sym_name(w), st->text);
+			return false;
+		}
+	/* dS as the new noise's name beside a state S: ddS would be its differential */
+	if (zname[0] == 'd' && zname[1]) {
+		model_entry *base = model_lookup(m, zname + 1);
+		if (base && (base->kind == MODEL_NOISE || base->kind == MODEL_STATE)) {
+			report(s, SESSION_INPUT, &newname->loc,
+			       "'%s' would be ambiguous: it is the differential of the %s '%s'; name the new "
+			       "noise differently",
+			       zname, model_kind_name(base->kind), zname + 1);
+			return false;
+		}
+	}
+	model_entry *dclash = model_lookup(m, newname->text);
+	if (dclash) {
+		report(s, SESSION_INPUT, &newname->loc,
+		       "'%s' would make the name '%s' (a %s) ambiguous; name the new noise differently",
+		       zname, newname->text, model_kind_name(dclash->kind));
+		return false;
+	}
+	return true;
+}
+
 /* dW = dZ - lambda*dt: find the new noise name and the dt coefficient. */
 bool run_measure(session *s, const ast_node *st)
 {
@@ -83,11 +144,7 @@ bool run_measure(session *s, const ast_node *st)
 			ok = false;
 			break;
 		}
-		model_entry *clash = model_lookup(m, zname);
-		if (clash && !(clash->kind == MODEL_NOISE && clash->sym == w)) {
-			report(s, SESSION_INPUT, &newname->loc,
-			       "'%s' is already declared as a %s; name the new noise differently", zname,
-			       model_kind_name(clash->kind));
+		if (!new_noise_name_free(s, st, newname, w, names)) {
 			ok = false;
 			break;
 		}

@@ -18,6 +18,38 @@
 #include "sim.h"
 #include "xalloc.h"
 
+/* Is name (or name without its leading d) a noise that replaces another
+ * under a measure?  Results under that measure are written in it, so a
+ * parameter, state or noise of the same name would read as that noise.
+ * True after a message. */
+static bool measure_noise_clash(session *s, const ast_loc *loc, const char *name)
+{
+	const model *m = &s->model;
+	for (size_t i = 0; i < m->nmeasures; i++) {
+		const model_measure *q = &m->measures[i];
+		for (size_t k = 0; k < q->nnoises; k++) {
+			if (q->names[k] == m->noises[k])
+				continue; /* a noise not listed keeps its name */
+			const char *noise = expr_sym_name(q->names[k]);
+			bool differential = name[0] == 'd' && strcmp(name + 1, noise) == 0;
+			if (strcmp(name, noise) != 0 && !differential)
+				continue;
+			if (differential)
+				report(s, SESSION_INPUT, loc,
+				       "'%s' would be ambiguous: it is the differential of %s, the "
+				       "noise that replaces %s under the measure %s",
+				       name, noise, expr_sym_name(m->noises[k]), q->name);
+			else
+				report(s, SESSION_INPUT, loc,
+				       "'%s' is already the noise that replaces %s under the measure %s; "
+				       "choose another name",
+				       name, expr_sym_name(m->noises[k]), q->name);
+			return true;
+		}
+	}
+	return false;
+}
+
 bool check_new_name(session *s, const ast_loc *loc, const char *name, bool allow_arg)
 {
 	if (strcmp(name, "t") == 0 || strcmp(name, "dt") == 0) {
@@ -55,7 +87,7 @@ bool check_new_name(session *s, const ast_loc *loc, const char *name, bool allow
 		       model_kind_name(clash->kind));
 		return false;
 	}
-	return true;
+	return !measure_noise_clash(s, loc, name);
 }
 
 /* May name be declared as a kind (a let or a measure)?  A new name may; so

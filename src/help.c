@@ -85,7 +85,8 @@
 			  "  example:  stratonovich dX = a*X*dt + b*X*dW\n")                          \
 	X("measure", "measure Q: dW = dZ - lambda*dt, ...\n"                                          \
 		     "  A change of measure (Girsanov): Z is a Brownian motion under Q.  Noises\n"    \
-		     "  correlated with a listed one get the implied shift.\n"                        \
+		     "  correlated with a listed one get the implied shift.  Z must be a new name\n"  \
+		     "  (not W, nor a declared one).\n"                                               \
 		     "  example:  measure Q: dW = dZ - lambda*dt\n")                                  \
 	X("under", "QUERY under Q\n  Any query, taken under the measure Q.  example:  d S under Q\n") \
 	X("state", "state NEW = EXPR where OLD = INVERSE\n"                                           \

@@ -5,6 +5,7 @@
  */
 #include "session-internal.h"
 
+#include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -306,20 +307,25 @@ bool run_save(session *s, const ast_node *st)
 		xbuf_free(&buf);
 		return false;
 	}
+	errno = 0;
 	FILE *file = fopen(st->text, "w");
 	if (!file) {
+		int error_number = errno ? errno : EIO;
 		xbuf_free(&buf);
-		report(s, SESSION_INPUT, &st->loc, "cannot write '%s'", st->text);
+		report(s, SESSION_INPUT, &st->loc, "cannot write '%s': %s", st->text, strerror(error_number));
 		return false;
 	}
 	fprintf(file, "# itox session saved as a script\n%s", buf.data ? buf.data : "");
 	if (s->format != FORMAT_TEXT)
 		fprintf(file, "format %s\n", format_names[s->format]);
-	bool ok = fclose(file) == 0;
+	errno = 0;
+	int error_number = ferror(file) ? (errno ? errno : EIO) : 0;
+	if (fclose(file) != 0 && !error_number)
+		error_number = errno ? errno : EIO;
 	xbuf_free(&buf);
-	if (!ok)
-		report(s, SESSION_INPUT, &st->loc, "cannot write '%s'", st->text);
-	return ok;
+	if (error_number)
+		report(s, SESSION_INPUT, &st->loc, "cannot write '%s': %s", st->text, strerror(error_number));
+	return !error_number;
 }
 
 bool run_load(session *s, const ast_node *st)
@@ -332,14 +338,21 @@ bool run_load(session *s, const ast_node *st)
 		report(s, SESSION_LIMIT, &st->loc, "load nested too deeply");
 		return false;
 	}
+	/* a file that cannot be read is an error of this statement, at it */
+	xbuf source = {0};
+	int error_number = read_source_file(st->text, &source);
+	if (error_number) {
+		xbuf_free(&source);
+		report(s, SESSION_INPUT, &st->loc, "cannot read '%s': %s", st->text, strerror(error_number));
+		return false;
+	}
 	s->load_depth++;
 	int before = s->status;
 	s->status = SESSION_OK;
-	int status = session_run_file(s, st->text);
+	int status = session_run(s, source.data ? source.data : "", source.length, st->text);
+	xbuf_free(&source);
 	s->load_depth--;
-	if (status == SESSION_INPUT && !s->status)
-		report(s, SESSION_INPUT, &st->loc, "cannot read '%s'", st->text);
-	else if (status >= SESSION_INPUT && s->load_depth == 0)
+	if (status >= SESSION_INPUT && s->load_depth == 0)
 		/* the session puts the model back as it was (run_whole) */
 		note(s, &st->loc, "nothing of '%s' was loaded: the model is as it was before", st->text);
 	raise_status(s, before);

@@ -39,7 +39,12 @@ char *prn_latex_name(const char *name, bool time_subscript)
 	if (*sub == '_')
 		sub++;
 	xbuf buf = {0};
-	if (is_greek(name, stem)) {
+	if (strcmp(name, "e") == 0 || strcmp(name, "pi") == 0) {
+		/* a user's e or pi is no constant of the language, but e^{2} and \pi
+		 * would read as Euler's number (exp prints as e^{...}) and the circle
+		 * constant; \mathit{} sets them apart as a user's names in the source */
+		xbuf_printf(&buf, "\\mathit{%s}", name);
+	} else if (is_greek(name, stem)) {
 		xbuf_putc(&buf, '\\');
 		if (strncmp(name, "epsilon", stem) == 0 && stem == 7)
 			xbuf_put(&buf, "varepsilon");

@@ -25,6 +25,7 @@
 #include "result.h"
 #include "session.h"
 #include "writer.h"
+#include "xalloc.h"
 
 /* The whole state of one session. */
 struct session {
@@ -99,6 +100,8 @@ source_frame enter_source(session *s, const char *source, size_t length, const c
 void leave_source(session *s, source_frame outer);
 /* Raise the status of the current run to status (never lower it). */
 void raise_status(session *s, int status);
+/* Read the whole file PATH into BUF; 0, or the errno that says why not. */
+int read_source_file(const char *path, xbuf *buf);
 /* Line number line of the current source: its start and length without the newline. */
 void source_line(const session *s, int line, const char **start, size_t *length);
 /* An error at loc (NULL: none): file:line:column, the line and a caret; raises the status. */

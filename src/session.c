@@ -9,6 +9,8 @@
  */
 #include "session-internal.h"
 
+#include <errno.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -348,20 +350,33 @@ int session_run_numbered(session *s, const char *source, size_t length, const ch
 	return run_source(s, source, length, origin, index);
 }
 
-int session_run_file(session *s, const char *path)
+/* Read the whole file at PATH into BUF.  On failure returns the errno that
+ * says why (a directory opens but cannot be read: EISDIR). */
+int read_source_file(const char *path, xbuf *buf)
 {
+	errno = 0;
 	FILE *file = fopen(path, "rb");
-	if (!file) {
-		fprintf(s->opt.err, "%s: error: cannot open the file\n", path);
-		raise_status(s, SESSION_INPUT);
-		return SESSION_INPUT;
-	}
-	xbuf buf = {0};
+	if (!file)
+		return errno ? errno : EIO;
 	char chunk[65536];
 	size_t n;
 	while ((n = fread(chunk, 1, sizeof chunk, file)) > 0)
-		xbuf_putn(&buf, chunk, n);
+		xbuf_putn(buf, chunk, n);
+	int error_number = ferror(file) ? (errno ? errno : EIO) : 0;
 	fclose(file);
+	return error_number;
+}
+
+int session_run_file(session *s, const char *path)
+{
+	xbuf buf = {0};
+	int error_number = read_source_file(path, &buf);
+	if (error_number) {
+		xbuf_free(&buf);
+		fprintf(s->opt.err, "%s: error: cannot read the file: %s\n", path, strerror(error_number));
+		raise_status(s, SESSION_INPUT);
+		return SESSION_INPUT;
+	}
 	int status = session_run(s, buf.data ? buf.data : "", buf.length, path);
 	xbuf_free(&buf);
 	return status;

@@ -5,7 +5,8 @@
 # two-state model, a drift in parentheses wider than the page, in a result
 # and in the standalone document's model) must break into lines: an Overfull \hbox wider than 20pt in
 # the log fails the test, here and in the standalone document of the same
-# model.  Skipped (77) when pdflatex is not installed.
+# model.  A user's parameters named e and pi (\mathit{e}, \mathit{pi}) compile too.
+# Skipped (77) when pdflatex is not installed.
 set -u
 command -v pdflatex >/dev/null 2>&1 || { echo "pdflatex not installed: skipped"; exit 77; }
 ITOX=${ITOX:-./itox}
@@ -49,6 +50,8 @@ dX = (kappa*(theta - X) + mu*Y*X + r*Y^2 - sigma1*X*Y*U + xi*sigma1*sigma2*U + k
 dY = kappa*(theta - Y)*dt + sigma2*dB
 dU = -r*U*dt + xi*dW3
 d log(X)
+param e, pi > 0
+exp(-e*t)*pi + e^2 - exp(2)
 MODEL
 if ! "$ITOX" --format=latex "$dir/model.itox" > "$dir/lines.txt"; then
 	echo "itox failed"; exit 1

@@ -184,6 +184,9 @@ expect "note: nothing of 'part.itox' was loaded" "a load with an error at line 4
 expect "part.itox:4:1: error: unknown name 'nosuch'" "the error names the file and its line"
 keys 'u + M' Enter
 expect "unknown name 'u'" "nothing of the file was applied"
+keys 'load no-such-folder/part.itox' Enter
+expect "error: cannot read 'no-such-folder/part.itox': No such file or directory" "a file that cannot be read: the reason"
+if screen | grep -F -q 'please report'; then echo "FAILED: a missing file is reported as an internal error"; fail=1; fi
 keys 'drift S' Enter
 expect 'drift(S) = 0' "the session is intact after the failures"
 keys C-d
