@@ -41,8 +41,9 @@ char *prn_latex_name(const char *name, bool time_subscript)
 	xbuf buf = {0};
 	if (strcmp(name, "e") == 0 || strcmp(name, "pi") == 0) {
 		/* a user's e or pi is no constant of the language, but e^{2} and \pi
-		 * would read as Euler's number (exp prints as e^{...}) and the circle
-		 * constant; \mathit{} sets them apart as a user's names in the source */
+		 * would read as Euler's number and the circle constant; \mathit{}
+		 * sets them apart as a user's names (exp prints an upright
+		 * \mathrm{e}^{...}, so they differ on the page too) */
 		xbuf_printf(&buf, "\\mathit{%s}", name);
 	} else if (is_greek(name, stem)) {
 		xbuf_putc(&buf, '\\');

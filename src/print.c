@@ -160,7 +160,7 @@ static void emit_fun(printer *p, xbuf *out, const dnode *d)
 			bool outer = p->in_exponent;
 			p->in_exponent = true;
 			p->followed = false;
-			xbuf_put(out, "e^{");
+			xbuf_put(out, "\\mathrm{e}^{"); /* upright: Euler's number (ISO 80000-2, from memory) */
 			emit(p, out, d->child);
 			xbuf_putc(out, '}');
 			p->in_exponent = outer;

@@ -1059,7 +1059,7 @@ class LatexReader:
 			if self.peek() == "[":
 				raise ValueError("\\sqrt[n] not expected")
 			return ("pow", self.group(), ("num", mpmath.mpf(1) / 2))
-		if tok == "e" and self.peek() == "^":
+		if tok == "\\mathrm{e}" and self.peek() == "^":  # exp: an upright e
 			self.next()
 			return ("fun", mpmath.exp, self.group())
 		word = None
