@@ -558,6 +558,16 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 		if (decision == BALL_UNDECIDED &&
 		    (v.reason == BALL_REASON_CANCELLATION || v.reason == BALL_REASON_UNKNOWN))
 			decision = decide_exactly(r, &v, &neither);
+		if (decision == BALL_ZERO_WITHIN_BOUND && least && deep < VERIFY_DEEP_POINTS &&
+		    least < BALL_MAX_PRECISION) {
+			/* zero at the least precision: again at the largest, where the
+			 * bound is 2^-8192 of the scale, not 2^-256 (tanh(400 + x) = 1
+			 * fails there, at 1024 bits it held) */
+			deep++;
+			ball_verdict_clear(&v);
+			decision = ball_claim_decide_from(claim, (const mpq_t *)r->values, BALL_MAX_PRECISION,
+			                                  &v);
+		}
 		if (v.bits > out->bits)
 			out->bits = v.bits;
 		if (decision == BALL_NONZERO) {
@@ -568,27 +578,6 @@ static verify_verdict decide_numeric(part_run *r, verify_result *out, int part, 
 			verdict = VERIFY_FAILS;
 			tested++;
 			break;
-		}
-		if (decision == BALL_ZERO_WITHIN_BOUND && least && deep < VERIFY_DEEP_POINTS &&
-		    least < BALL_MAX_PRECISION) {
-			/* zero at the least precision: again at the largest, where the
-			 * bound is 2^-8192 of the scale, not 2^-256 (tanh(400 + x) = 1
-			 * fails there, at 1024 bits it held) */
-			deep++;
-			ball_verdict_clear(&v);
-			decision = ball_claim_decide_from(claim, (const mpq_t *)r->values, BALL_MAX_PRECISION,
-			                                  &v);
-			if (v.bits > out->bits)
-				out->bits = v.bits;
-			if (decision == BALL_NONZERO) {
-				out->part = part;
-				out->difference = r->difference;
-				record_point(out, r, &v);
-				ball_verdict_clear(&v);
-				verdict = VERIFY_FAILS;
-				tested++;
-				break;
-			}
 		}
 		if (decision == BALL_ZERO_WITHIN_BOUND && least) {
 			tested++;

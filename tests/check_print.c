@@ -230,14 +230,14 @@ START_TEST(test_latex)
 	expect_print("-a/(2*b)", PRN_LATEX, "-\\frac{a}{2 b}");
 	/* exponents hold no stacked fraction; a function followed by a factor is bracketed */
 	expect_print("x^(3/2)", PRN_LATEX, "x^{3/2}");
-	expect_print("exp(-a*x/2)", PRN_LATEX, "e^{-a x/2}");
+	expect_print("exp(-a*x/2)", PRN_LATEX, "\\mathrm{e}^{-a x/2}");
 	expect_print("x^(a/(a + b))", PRN_LATEX, "x^{a/\\left(a + b\\right)}");
 	/* a sum over the bar of an inline fraction keeps its brackets (it lost
 	 * them: e^{a - b/4}, found by tests/ref/print_roundtrip.py) */
-	expect_print("exp((a - b)/4)", PRN_LATEX, "e^{\\left(a - b\\right)/4}");
-	expect_print("exp(a/x^(3/2))", PRN_LATEX, "e^{a/(x^{3/2})}");
-	expect_print("exp(a/sqrt(x))", PRN_LATEX, "e^{a/\\sqrt{x}}");
-	expect_print("exp(a/(b*x))", PRN_LATEX, "e^{a/(b x)}");
+	expect_print("exp((a - b)/4)", PRN_LATEX, "\\mathrm{e}^{\\left(a - b\\right)/4}");
+	expect_print("exp(a/x^(3/2))", PRN_LATEX, "\\mathrm{e}^{a/(x^{3/2})}");
+	expect_print("exp(a/sqrt(x))", PRN_LATEX, "\\mathrm{e}^{a/\\sqrt{x}}");
+	expect_print("exp(a/(b*x))", PRN_LATEX, "\\mathrm{e}^{a/(b x)}");
 	expect_print("log(x)*sin(a)", PRN_LATEX, "\\log\\left(x\\right) \\sin a");
 	expect_print("log(x)*a", PRN_LATEX, "a \\log x");
 }
