@@ -751,6 +751,25 @@ static const char *rough_message(const rough *r)
 	}
 }
 
+/* rough_point over f from a fresh start, r its finding; the refusal as the
+ * context's error when set_error. */
+static bool refuse(model *m, const expr *f, rough *r, bool set_error)
+{
+	expr_map seen = {0};
+	*r = (rough){ROUGH_NONE, NULL, NULL, false, false};
+	bool refused = rough_point(m, f, &seen, r);
+	expr_map_free(&seen);
+	if (refused && set_error)
+		expr_fail_at(m->ctx, EXPR_ERR_DOMAIN, rough_message(r), r->where, r->at);
+	return refused;
+}
+
+bool ito_refuses(model *m, const expr *f, bool set_error)
+{
+	rough r;
+	return refuse(m, f, &r, set_error);
+}
+
 void ito_d(model *m, const model_measure *q, const expr *f, ito_diff *out)
 {
 	expr_ctx *ctx = m->ctx;
@@ -759,14 +778,10 @@ void ito_d(model *m, const model_measure *q, const expr *f, ito_diff *out)
 		out->dt = NULL;
 		return;
 	}
-	expr_map seen = {0};
-	rough r = {ROUGH_NONE, NULL, NULL, false, false};
-	bool refused = rough_point(m, f, &seen, &r);
-	expr_map_free(&seen);
-	if (refused) {
+	rough r;
+	if (refuse(m, f, &r, true)) {
 		for (size_t k = 0; k < out->n; k++)
 			out->dw[k] = NULL;
-		expr_fail_at(ctx, EXPR_ERR_DOMAIN, rough_message(&r), r.where, r.at);
 		out->dt = NULL;
 		return;
 	}

@@ -28,6 +28,10 @@ bool ito_dynamics(model *m, const model_measure *q, const expr *sym, ito_diff *o
 
 /* Itô's formula: the differential of f. */
 void ito_d(model *m, const model_measure *q, const expr *f, ito_diff *out);
+/* Does ito_d refuse f (a function not twice differentiable, or not defined,
+ * where the processes can go)?  With set_error, the reason becomes the
+ * context's error, as in ito_d. */
+bool ito_refuses(model *m, const expr *f, bool set_error);
 
 /* The product of two differentials by the table; only out->dt is nonzero. */
 void ito_mul(model *m, const ito_diff *a, const ito_diff *b, ito_diff *out);

@@ -124,6 +124,68 @@ bool eval_scalar(session *s, const ast_node *n, const expr **out)
 	return true;
 }
 
+/* Would Itô's formula apply to the part of a process written at n (the
+ * expression part, lowered on its own)?  False after reporting at n. */
+static bool part_applies(session *s, const ast_node *n, const expr *part)
+{
+	if (!part)
+		return !engine_failed(s, &n->loc);
+	if (!ito_refuses(&s->model, part, true))
+		return true;
+	engine_failed(s, &n->loc);
+	return false;
+}
+
+/* The parts of n that must have Itô's formula themselves, whatever the
+ * whole simplified to (eval_process): each root, log and power as written,
+ * and each quotient's reciprocal.  sqrt(g)^2 is g, but where g < 0 sqrt(g)
+ * has no value, so there is no such process; X^2/X is X, but not at X = 0.
+ * A let's value is checked where it is used as a whole, not here. */
+static bool written_parts_defined(session *s, const ast_node *n)
+{
+	if (!n)
+		return true;
+	const expr *part;
+	switch (n->kind) {
+	case AST_NEG:
+		return written_parts_defined(s, n->a);
+	case AST_ADD:
+	case AST_SUB:
+	case AST_MUL:
+		return written_parts_defined(s, n->a) && written_parts_defined(s, n->b);
+	case AST_DIV:
+		if (!written_parts_defined(s, n->a) || !written_parts_defined(s, n->b) ||
+		    !eval_scalar(s, n->b, &part))
+			return false;
+		return part_applies(s, n->b, expr_pow(s->ctx, part, expr_int(s->ctx, -1)));
+	case AST_POW:
+		if (!written_parts_defined(s, n->a) || !written_parts_defined(s, n->b) ||
+		    !eval_scalar(s, n, &part))
+			return false;
+		return part_applies(s, n, part);
+	case AST_CALL:
+		for (size_t i = 0; i < n->nitems; i++)
+			if (!written_parts_defined(s, n->items[i]))
+				return false;
+		if (n->nitems != 1 || (strcmp(n->text, "sqrt") != 0 && strcmp(n->text, "log") != 0))
+			return true;
+		if (!eval_scalar(s, n, &part))
+			return false;
+		return part_applies(s, n, part);
+	default:
+		return true;
+	}
+}
+
+bool eval_process(session *s, const ast_node *n, const expr **out)
+{
+	if (!eval_scalar(s, n, out))
+		return false;
+	/* what Itô's formula refuses as a whole, ito_d says better (the
+	 * function and its bad point) */
+	return ito_refuses(&s->model, *out, false) || written_parts_defined(s, n);
+}
+
 static bool make_scalar(session *s, const ast_node *n, const expr *e, value *out)
 {
 	if (!e) {
@@ -563,13 +625,13 @@ static bool eval_query(session *s, const ast_node *n, value *out)
 		return false;
 	}
 	const expr *e;
-	if (!eval_scalar(s, n->items[0], &e))
+	if (!eval_process(s, n->items[0], &e))
 		return false;
 	long noise = -1;
 	if (is_diffusion && n->nitems == 2 && (noise = query_noise(s, n->items[1])) < 0)
 		return false;
 	const expr *other = NULL;
-	if (is_qv && n->nitems == 2 && !eval_scalar(s, n->items[1], &other))
+	if (is_qv && n->nitems == 2 && !eval_process(s, n->items[1], &other))
 		return false;
 	ito_diff d;
 	ito_d(&s->model, s->measure, e, &d);
@@ -656,7 +718,7 @@ bool eval_node(session *s, const ast_node *n, value *out)
 	}
 	case AST_DIFF: {
 		const expr *e;
-		if (!eval_scalar(s, n->a, &e))
+		if (!eval_process(s, n->a, &e))
 			return false;
 		ito_diff d;
 		ito_d(&s->model, s->measure, e, &d);

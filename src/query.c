@@ -247,7 +247,7 @@ static bool output_scalar(session *s, const ast_node *st, result_kind kind, cons
  * measure; false after reporting. */
 static bool query_differential(session *s, const ast_node *st, const expr **e, ito_diff *d)
 {
-	if (!eval_scalar(s, st->a, e))
+	if (!eval_process(s, st->a, e))
 		return false;
 	ito_d(&s->model, s->measure, *e, d);
 	return !differential_failed(s, d, &st->loc);
@@ -277,9 +277,9 @@ bool run_part(session *s, const ast_node *st)
 bool run_qv(session *s, const ast_node *st)
 {
 	const expr *a, *b = NULL;
-	if (!eval_scalar(s, st->a, &a))
+	if (!eval_process(s, st->a, &a))
 		return false;
-	if (st->b && !eval_scalar(s, st->b, &b))
+	if (st->b && !eval_process(s, st->b, &b))
 		return false;
 	ito_diff da, db;
 	ito_d(&s->model, s->measure, a, &da);
@@ -568,7 +568,7 @@ bool run_claim(session *s, const ast_node *st)
 	if (lhs->kind == AST_S_D || lhs->kind == AST_S_DRIFT || lhs->kind == AST_S_DIFFUSION ||
 	    lhs->kind == AST_S_GENERATOR || lhs->kind == AST_S_QV) {
 		const expr *e;
-		if (!eval_scalar(s, lhs->a, &e))
+		if (!eval_process(s, lhs->a, &e))
 			return false;
 		ito_diff d;
 		ito_d(&s->model, s->measure, e, &d);
@@ -584,7 +584,7 @@ bool run_claim(session *s, const ast_node *st)
 			if (lhs->b) {
 				const expr *b;
 				ito_diff db;
-				if (!eval_scalar(s, lhs->b, &b)) {
+				if (!eval_process(s, lhs->b, &b)) {
 					ito_diff_free(&d);
 					return false;
 				}
@@ -776,7 +776,7 @@ bool run_check(session *s, const ast_node *st)
 {
 	model *m = &s->model;
 	const expr *f;
-	if (!eval_scalar(s, st->a, &f))
+	if (!eval_process(s, st->a, &f))
 		return false;
 	check_input in = {.m = m,
 	                  .q = s->measure,

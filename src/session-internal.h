@@ -144,6 +144,12 @@ const expr *differential_of(session *s, const char *name);
 bool eval_node(session *s, const ast_node *n, value *out);
 /* Evaluate an expression that must not be a differential; false after reporting. */
 bool eval_scalar(session *s, const ast_node *n, const expr **out);
+/* eval_scalar for an expression Itô's formula is applied to: each root, log,
+ * quotient and power as written must have a value wherever the processes can
+ * go, not only what the whole simplified to (sqrt(g)^2 is g, but for a g
+ * that can be negative there is no such process); false after reporting at
+ * the part. */
+bool eval_process(session *s, const ast_node *n, const expr **out);
 /* The symbol a NAME node denotes as a variable; NULL after "VERB the KIND 'NAME'TAIL". */
 const expr *variable_symbol(session *s, const ast_node *n, const char *verb, const char *tail);
 /* Evaluate an expression to a finite double (check's points and options). */

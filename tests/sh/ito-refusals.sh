@@ -106,5 +106,21 @@ run 0 "d(log(1 - X^2)) = (1 - 2*X^2/(X^2 - 1))/(X^2 - 1)*dt + 2*X/(X - 1)/(1 + X
 # odd roots of exponent over 2 are C^2 on the whole line: (7/3)(4/3)/2 = 14/9
 run 0 "d(X^(7/3)) = 14/9*X^(1/3)*dt + 7/3*X^(4/3)*dW" -e 'd X^(7/3)'
 
+# --- the expression as written: a part that Itô's formula refuses is refused
+# even where the whole simplifies to a smooth function (the caret names the
+# part).  sqrt(X)^2 is X, but sqrt(X) has no value where X < 0, so there is no
+# process sqrt(X)^2 there; X^2/X is X, but not at X = 0.  A part that moves no
+# process (sqrt(a) of a parameter) and a part the model keeps defined pass.
+SQRTX="$HEAD sqrt(X) is not defined where X < 0 nor twice differentiable where X = 0 (a local-time term would be needed); assume X > 0 if the model does"
+POLEX="$HEAD 1/X has a pole where X = 0 (the formula does not hold across it); assume a sign that keeps X away from 0 if the model does"
+run 2 "-e:4:3: error: $SQRTX" -e 'd sqrt(X)^2'
+run 2 "-e:4:4: error: $SQRTX" -e 'd (X^(1/2))^4'
+run 2 "-e:4:7: error: $POLEX" -e 'd X^2/X'
+run 2 "-e:4:7: error: $SQRTX" -e 'drift(sqrt(X)^2)'
+run 2 "-e:4:9: error: $SQRTX" -e 'claim d sqrt(X)^2 = dX'
+run 2 "-e:4:8: error: $POLEX" -e 'qv X^2/X'
+run 0 "dX = dW" -e 'assume X > 0' -e 'd sqrt(X)^2'
+run 0 "d(sqrt(a)*X) = sqrt(a)*dW" -e 'd sqrt(a)*X'
+
 [ $fail -eq 0 ] && echo "ito-refusals: $n cases as expected"
 exit $fail
